@@ -1,0 +1,48 @@
+/**
+ * The contract between a model and the integrators: an autonomous-between-events
+ * system y' = f(t, y) that writes into caller-owned buffers (no allocation per call).
+ */
+export interface OdeSystem {
+  readonly dimension: number;
+  /** Writes f(t, y) into `out` (length `dimension`). */
+  derivative(t: number, y: Float64Array, out: Float64Array): void;
+  /** Writes the Jacobian ∂f/∂y into `out`, row-major (out[i*n + j] = ∂f_i/∂y_j). */
+  jacobian(t: number, y: Float64Array, out: Float64Array): void;
+}
+
+/** Counters every integrator adds to; the driver reports them as diagnostics. */
+export interface SolverStats {
+  acceptedSteps: number;
+  rejectedSteps: number;
+  derivativeEvaluations: number;
+  jacobianEvaluations: number;
+  /** Linear solves' LU factorisations (stiff method only). */
+  factorizations: number;
+  /** Times the automatic method switched from the explicit pair to the stiff method. */
+  stiffSwitches: number;
+}
+
+export function emptyStats(): SolverStats {
+  return {
+    acceptedSteps: 0,
+    rejectedSteps: 0,
+    derivativeEvaluations: 0,
+    jacobianEvaluations: 0,
+    factorizations: 0,
+    stiffSwitches: 0,
+  };
+}
+
+/** A numerical failure inside a segment; the driver turns it into an error value naming time and state index. */
+export class IntegrationFailure extends Error {
+  constructor(
+    readonly reason: 'step-size-underflow' | 'too-many-steps' | 'non-finite',
+    readonly time: number,
+    /** Index of the first offending state component, when one can be named. */
+    readonly component: number | null,
+    message: string,
+  ) {
+    super(message);
+    this.name = 'IntegrationFailure';
+  }
+}
