@@ -22,8 +22,14 @@ export interface Trajectory {
    * limit from the left (before the jump) or from the right (after it).
    */
   stateAt(t: number, side: 'left' | 'right', out: Float64Array): void;
-  /** Ascending times at which pieces start or end; between two knots the state is smooth. */
+  /**
+   * Ascending times close enough together that the state is smooth and (in practice)
+   * has at most one turning point between two of them: the solver's steps, or a
+   * subdivision of each exact piece.
+   */
   knots(): Float64Array;
+  /** States at ascending times, side per row (0 = left limit, 1 = right limit), passed to write in order. */
+  sample(times: Float64Array, sides: Uint8Array, write: (row: number, state: Float64Array) => void): void;
 }
 
 /**
@@ -112,6 +118,14 @@ export class DenseStore implements Trajectory {
     const h = this.hs[k];
     const theta = h > 0 ? Math.min(1, Math.max(0, (t - this.t0s[k]) / h)) : 0;
     this.forms[k].evaluate(theta, this.coef, this.offsets[k], this.dimension, out);
+  }
+
+  sample(times: Float64Array, sides: Uint8Array, write: (row: number, state: Float64Array) => void): void {
+    const y = new Float64Array(this.dimension);
+    for (let row = 0; row < times.length; row++) {
+      this.stateAt(times[row], sides[row] === 0 ? 'left' : 'right', y);
+      write(row, y);
+    }
   }
 
   knots(): Float64Array {

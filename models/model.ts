@@ -1,0 +1,97 @@
+/**
+ * The normalised model: a validated scenario with every quantity a plain number in
+ * the scenario's unit system, names resolved to indices and repeated doses expanded.
+ * Everything downstream (system builder, solvers, metrics) reads only this.
+ */
+import type { SolverMethod } from './schema.ts';
+import type { UnitSystem } from './units.ts';
+
+export interface ModelCompartment {
+  id: string;
+  label: string;
+  /** Volume of distribution; null for an amount-only compartment (a depot). */
+  volume: number | null;
+}
+
+export type Kinetics =
+  | { kind: 'first-order'; k: number; clearance: number | null }
+  | { kind: 'saturable'; vmax: number; km: number };
+
+export interface ModelTransfer {
+  from: number;
+  /** Index of the receiving compartment, or null for elimination from the body. */
+  to: number | null;
+  kinetics: Kinetics;
+  label: string | null;
+}
+
+/** One administration after expanding repeats: where, when and how much arrives. */
+export interface Administration {
+  /** Index of the dose line in the scenario (doses[line]). */
+  line: number;
+  /** Occurrence within its line, 0-based. */
+  occurrence: number;
+  into: number;
+  /** When it is given (the dosing clock). */
+  given: number;
+  /** When it starts to arrive: given + lag. */
+  arrival: number;
+  /** Nominal amount per dose (before bioavailability). */
+  nominal: number;
+  /** Amount that arrives: nominal × bioavailability. */
+  amount: number;
+  /** Infusion duration; 0 for a bolus. */
+  duration: number;
+}
+
+/** A dose line as the user wrote it, in numbers: for regimen tables and the steady-state cycle. */
+export interface DoseLineSummary {
+  line: number;
+  label: string | null;
+  into: number;
+  nominal: number;
+  bioavailability: number;
+  lag: number;
+  duration: number;
+  firstGiven: number;
+  /** Dosing interval, or null for a single dose. */
+  every: number | null;
+  /** Doses in the line within the simulated span. */
+  count: number;
+  /** Doses of the line that fall after the end and are left out. */
+  beyondEnd: number;
+}
+
+export interface ModelThreshold {
+  compartment: number;
+  above: number | null;
+  below: number | null;
+  /** Index in output.thresholds, for error paths and labels. */
+  index: number;
+}
+
+export interface SolverSettings {
+  method: SolverMethod;
+  rtol: number;
+  atol: number;
+  /** Fixed step of euler, heun, rk4 and abm2. */
+  step: number | null;
+  maxSteps: number;
+}
+
+export interface Model {
+  title: string;
+  units: UnitSystem;
+  compartments: ModelCompartment[];
+  transfers: ModelTransfer[];
+  administrations: Administration[];
+  doseLines: DoseLineSummary[];
+  start: number;
+  end: number;
+  /** Requested output times, ascending and unique, within [start, end]. */
+  outputTimes: Float64Array;
+  thresholds: ModelThreshold[];
+  solver: SolverSettings;
+  /** True when no transfer is saturable: the exact matrix-exponential path applies. */
+  linear: boolean;
+}

@@ -1,0 +1,369 @@
+/**
+ * Scenario JSON → normalised Model, or every problem found, each with its JSON path.
+ * Structural checks come from the zod schema; meaning (names that exist, units of the
+ * right dimension, positive volumes, consistent infusion fields) is checked here.
+ */
+import type { z } from 'zod';
+import { limits } from './limits.ts';
+import type {
+  Administration,
+  DoseLineSummary,
+  Kinetics,
+  Model,
+  ModelCompartment,
+  ModelThreshold,
+  ModelTransfer,
+} from './model.ts';
+import { formatPath, type Outcome, type Problem } from './problems.ts';
+import { scenarioSchema, type Quantity, type Scenario } from './schema.ts';
+import { checkUnitSystem, convertQuantity, type Dimension, type UnitSystem } from './units.ts';
+
+const fixedStepMethods = new Set(['euler', 'heun', 'rk4', 'abm2']);
+
+/** Reads quantities, collecting problems instead of stopping at the first. */
+class Reader {
+  readonly problems: Problem[] = [];
+  constructor(readonly units: UnitSystem) {}
+
+  fail(path: string, message: string): void {
+    this.problems.push({ path, message });
+  }
+
+  /** Converts q; records a problem and returns null when it is unreadable or out of range. */
+  read(
+    q: Quantity | undefined,
+    dimension: Dimension,
+    path: string,
+    range: 'positive' | 'non-negative' | 'any' = 'positive',
+  ): number | null {
+    if (q === undefined) return null;
+    const converted = convertQuantity(q, dimension, this.units);
+    if (!converted.ok) {
+      this.fail(path, converted.message);
+      return null;
+    }
+    const v = converted.value;
+    if (range === 'positive' && !(v > 0)) {
+      this.fail(path, 'must be positive');
+      return null;
+    }
+    if (range === 'non-negative' && !(v >= 0)) {
+      this.fail(path, 'must not be negative');
+      return null;
+    }
+    return v;
+  }
+}
+
+function zodProblems(error: z.ZodError): Problem[] {
+  return error.issues.map((issue) => {
+    const path = formatPath(issue.path);
+    if (issue.code === 'unrecognized_keys') {
+      const keys = issue.keys.map((k) => `'${k}'`).join(', ');
+      return { path, message: `unknown field${issue.keys.length > 1 ? 's' : ''} ${keys}` };
+    }
+    if (issue.code === 'invalid_type' && issue.input === undefined) {
+      return { path, message: 'is required' };
+    }
+    return { path, message: issue.message };
+  });
+}
+
+export function parseScenario(input: unknown): Outcome<Scenario> {
+  const parsed = scenarioSchema.safeParse(input);
+  return parsed.success ? { ok: true, value: parsed.data } : { ok: false, problems: zodProblems(parsed.error) };
+}
+
+/** Validates and normalises a scenario (any JSON value) into a Model. */
+export function normaliseScenario(input: unknown): Outcome<Model> {
+  const parsed = parseScenario(input);
+  if (!parsed.ok) return parsed;
+  return buildModel(parsed.value);
+}
+
+export function buildModel(s: Scenario): Outcome<Model> {
+  const unitCheck = checkUnitSystem(s.units);
+  if (unitCheck.problems.length > 0) {
+    return { ok: false, problems: unitCheck.problems.map((p) => ({ path: `units.${p.field}`, message: p.message })) };
+  }
+  const r = new Reader(unitCheck.units);
+
+  const compartments = readCompartments(s, r);
+  const index = new Map(compartments.map((c, i) => [c.id, i]));
+  const transfers = readTransfers(s, r, compartments, index);
+
+  const start = r.read(s.output.start, 'time', 'output.start', 'any') ?? 0;
+  const end = r.read(s.output.end, 'time', 'output.end', 'any');
+  if (end !== null && !(end > start)) r.fail('output.end', 'must be after output.start');
+  const span = end !== null && end > start ? { start, end } : null;
+
+  const doses = span ? readDoses(s, r, compartments, index, span) : null;
+  const outputTimes = span ? readOutputTimes(s, r, span) : null;
+  const thresholds = readThresholds(s, r, compartments, index);
+  const solver = readSolver(s, r);
+
+  if (r.problems.length > 0 || !span || !doses || !outputTimes || !solver) {
+    return { ok: false, problems: r.problems };
+  }
+  return {
+    ok: true,
+    value: {
+      title: s.title,
+      units: r.units,
+      compartments,
+      transfers,
+      administrations: doses.administrations,
+      doseLines: doses.lines,
+      start: span.start,
+      end: span.end,
+      outputTimes,
+      thresholds,
+      solver,
+      linear: transfers.every((t) => t.kinetics.kind === 'first-order'),
+    },
+  };
+}
+
+function readCompartments(s: Scenario, r: Reader): ModelCompartment[] {
+  const seen = new Map<string, number>();
+  return s.compartments.map((c, i) => {
+    const previous = seen.get(c.id);
+    if (previous !== undefined) {
+      r.fail(`compartments[${i}].id`, `'${c.id}' is already used by compartments[${previous}]`);
+    } else {
+      seen.set(c.id, i);
+    }
+    return {
+      id: c.id,
+      label: c.label ?? c.id,
+      volume: r.read(c.volume, 'volume', `compartments[${i}].volume`),
+    };
+  });
+}
+
+function noSuchCompartment(id: string, compartments: ModelCompartment[]): string {
+  const names = compartments.map((c) => `'${c.id}'`).join(', ');
+  return `no compartment named '${id}' (compartments are ${names})`;
+}
+
+function readTransfers(
+  s: Scenario,
+  r: Reader,
+  compartments: ModelCompartment[],
+  index: Map<string, number>,
+): ModelTransfer[] {
+  const out: ModelTransfer[] = [];
+  s.transfers.forEach((t, i) => {
+    const path = `transfers[${i}]`;
+    const from = index.get(t.from);
+    if (from === undefined) r.fail(`${path}.from`, noSuchCompartment(t.from, compartments));
+    let to: number | null = null;
+    if (t.to !== undefined) {
+      const found = index.get(t.to);
+      if (found === undefined) r.fail(`${path}.to`, noSuchCompartment(t.to, compartments));
+      else if (found === from) r.fail(`${path}.to`, 'must differ from `from` (a transfer into itself does nothing)');
+      else to = found;
+    }
+    const kinds = [t.k !== undefined, t.cl !== undefined, t.vmax !== undefined || t.km !== undefined].filter(Boolean);
+    if (kinds.length !== 1) {
+      r.fail(path, kinds.length === 0
+        ? 'needs one kinetics: a rate constant `k`, a clearance `cl`, or saturable `vmax` with `km`'
+        : 'give only one kinetics: `k`, `cl`, or `vmax` with `km`');
+      return;
+    }
+    if (from === undefined) return;
+    const volume = compartments[from].volume;
+    const needsVolume = (field: string) => {
+      if (volume === null && compartments[from] !== undefined) {
+        r.fail(`${path}.${field}`, `needs a volume on compartment '${t.from}' (it holds amount only)`);
+        return false;
+      }
+      return true;
+    };
+    let kinetics: Kinetics | null = null;
+    if (t.k !== undefined) {
+      const k = r.read(t.k, 'rateConstant', `${path}.k`);
+      if (k !== null) kinetics = { kind: 'first-order', k, clearance: null };
+    } else if (t.cl !== undefined) {
+      const cl = r.read(t.cl, 'clearance', `${path}.cl`);
+      if (cl !== null && needsVolume('cl') && volume !== null) {
+        kinetics = { kind: 'first-order', k: cl / volume, clearance: cl };
+      }
+    } else {
+      if (t.vmax === undefined) r.fail(`${path}.vmax`, 'is required with `km`');
+      if (t.km === undefined) r.fail(`${path}.km`, 'is required with `vmax`');
+      const vmax = r.read(t.vmax, 'amountRate', `${path}.vmax`);
+      const km = r.read(t.km, 'concentration', `${path}.km`);
+      if (vmax !== null && km !== null && needsVolume('km')) kinetics = { kind: 'saturable', vmax, km };
+    }
+    if (kinetics) out.push({ from, to, kinetics, label: t.label ?? null });
+  });
+  return out;
+}
+
+function readDoses(
+  s: Scenario,
+  r: Reader,
+  compartments: ModelCompartment[],
+  index: Map<string, number>,
+  span: { start: number; end: number },
+): { administrations: Administration[]; lines: DoseLineSummary[] } | null {
+  const administrations: Administration[] = [];
+  const lines: DoseLineSummary[] = [];
+  let tooMany = false;
+  s.doses.forEach((d, i) => {
+    const path = `doses[${i}]`;
+    const into = index.get(d.into);
+    if (into === undefined) r.fail(`${path}.into`, noSuchCompartment(d.into, compartments));
+    const amount = r.read(d.amount, 'amount', `${path}.amount`, 'non-negative');
+    const at = r.read(d.at, 'time', `${path}.at`, 'any');
+    if (at !== null && at < span.start) r.fail(`${path}.at`, 'is before output.start; the simulation starts empty at output.start');
+    const lag = r.read(d.lag, 'time', `${path}.lag`, 'non-negative') ?? 0;
+    let duration = r.read(d.duration, 'time', `${path}.duration`);
+    const rate = r.read(d.rate, 'amountRate', `${path}.rate`);
+    if (rate !== null && amount !== null) {
+      const fromRate = amount / rate;
+      if (duration !== null && Math.abs(fromRate - duration) > 1e-9 * duration) {
+        r.fail(`${path}.rate`, `gives a duration of ${fromRate}, which disagrees with duration ${duration}; give one of them`);
+      }
+      duration = fromRate;
+    }
+    const every = r.read(d.every, 'time', `${path}.every`);
+    const until = r.read(d.until, 'time', `${path}.until`, 'any');
+    if (d.every === undefined && d.count !== undefined && d.count > 1) r.fail(`${path}.count`, 'needs `every` (the dosing interval)');
+    if (d.every === undefined && d.until !== undefined) r.fail(`${path}.until`, 'needs `every` (the dosing interval)');
+    if (d.count !== undefined && d.until !== undefined) r.fail(`${path}.until`, 'give `count` or `until`, not both');
+    if (into === undefined || amount === null || at === null || (d.every !== undefined && every === null)) return;
+
+    const bioavailability = d.bioavailability ?? 1;
+    const last = every === null ? at : d.count !== undefined ? at + (d.count - 1) * every : (until ?? span.end);
+    let count = 0;
+    let beyondEnd = 0;
+    for (let j = 0; ; j++) {
+      const given = every === null ? at : at + j * every;
+      if (j > 0 && (every === null || given > last + 1e-9 * every)) break;
+      if (given + lag >= span.end) {
+        beyondEnd += d.count !== undefined ? d.count - j : 1;
+        break;
+      }
+      if (administrations.length >= limits.administrations) {
+        tooMany = true;
+        break;
+      }
+      administrations.push({
+        line: i,
+        occurrence: j,
+        into,
+        given,
+        arrival: given + lag,
+        nominal: amount,
+        amount: amount * bioavailability,
+        duration: duration ?? 0,
+      });
+      count++;
+      if (every === null) break;
+    }
+    lines.push({
+      line: i,
+      label: d.label ?? null,
+      into,
+      nominal: amount,
+      bioavailability,
+      lag,
+      duration: duration ?? 0,
+      firstGiven: at,
+      every,
+      count,
+      beyondEnd,
+    });
+  });
+  if (tooMany) {
+    r.fail('doses', `the schedule expands to more than ${limits.administrations} administrations within the simulated span`);
+    return null;
+  }
+  administrations.sort((a, b) => a.arrival - b.arrival || a.line - b.line || a.occurrence - b.occurrence);
+  return { administrations, lines };
+}
+
+function readOutputTimes(s: Scenario, r: Reader, span: { start: number; end: number }): Float64Array | null {
+  const width = span.end - span.start;
+  const step = s.output.step === undefined ? null : r.read(s.output.step, 'time', 'output.step');
+  if (s.output.step !== undefined && step === null) return null;
+  const gridStep = step ?? (s.output.times === undefined ? width / 500 : null);
+  const gridCount = gridStep === null ? 0 : Math.floor(width / gridStep + 1e-9) + 1;
+  const extra = s.output.times?.length ?? 0;
+  if (gridCount + extra > limits.outputPoints) {
+    r.fail(s.output.step !== undefined ? 'output.step' : 'output.times',
+      `asks for ${gridCount + extra} reported times; the limit is ${limits.outputPoints}`);
+    return null;
+  }
+  const times = new Float64Array(gridCount + extra + 1);
+  let n = 0;
+  for (let i = 0; i < gridCount; i++) times[n++] = Math.min(span.end, span.start + i * (gridStep as number));
+  let bad = false;
+  s.output.times?.forEach((q, i) => {
+    const t = r.read(q, 'time', `output.times[${i}]`, 'any');
+    if (t === null) bad = true;
+    else if (t < span.start || t > span.end) {
+      r.fail(`output.times[${i}]`, `must lie within the simulated span ${span.start} to ${span.end}`);
+      bad = true;
+    } else times[n++] = t;
+  });
+  if (bad) return null;
+  times[n++] = span.end;
+  const sorted = times.subarray(0, n).sort();
+  let unique = 0;
+  for (let i = 0; i < sorted.length; i++) {
+    if (unique === 0 || sorted[i] !== sorted[unique - 1]) sorted[unique++] = sorted[i];
+  }
+  return sorted.slice(0, unique);
+}
+
+function readThresholds(
+  s: Scenario,
+  r: Reader,
+  compartments: ModelCompartment[],
+  index: Map<string, number>,
+): ModelThreshold[] {
+  const out: ModelThreshold[] = [];
+  s.output.thresholds.forEach((t, i) => {
+    const path = `output.thresholds[${i}]`;
+    const c = index.get(t.compartment);
+    if (c === undefined) {
+      r.fail(`${path}.compartment`, noSuchCompartment(t.compartment, compartments));
+      return;
+    }
+    if (compartments[c].volume === null) {
+      r.fail(`${path}.compartment`, `'${t.compartment}' has no volume, so it has no concentration`);
+      return;
+    }
+    if (t.above === undefined && t.below === undefined) {
+      r.fail(path, 'needs `above`, `below` or both');
+      return;
+    }
+    const above = r.read(t.above, 'concentration', `${path}.above`, 'non-negative');
+    const below = r.read(t.below, 'concentration', `${path}.below`);
+    if (above !== null && below !== null && !(above < below)) {
+      r.fail(`${path}.below`, 'must be greater than `above`');
+      return;
+    }
+    out.push({ compartment: c, above, below, index: i });
+  });
+  return out;
+}
+
+function readSolver(s: Scenario, r: Reader): Model['solver'] | null {
+  const step = r.read(s.solver.step, 'time', 'solver.step');
+  if (fixedStepMethods.has(s.solver.method) && s.solver.step === undefined) {
+    r.fail('solver.step', `is required by the fixed-step method '${s.solver.method}'`);
+    return null;
+  }
+  if (s.solver.method === 'exact') {
+    const saturable = s.transfers.findIndex((t) => t.vmax !== undefined || t.km !== undefined);
+    if (saturable >= 0) {
+      r.fail('solver.method', `'exact' needs a linear model, but transfers[${saturable}] is saturable; use 'auto'`);
+      return null;
+    }
+  }
+  return { method: s.solver.method, rtol: s.solver.rtol, atol: s.solver.atol, step, maxSteps: s.solver.maxSteps };
+}

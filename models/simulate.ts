@@ -1,0 +1,324 @@
+/**
+ * The one entry point: scenario JSON in, concentration curves, exposure figures and
+ * diagnostics out — or a list of problems, each with its JSON path. Never throws for
+ * bad input or numerical failure.
+ */
+import { disposition, type Disposition } from './disposition.ts';
+import { doseEvents, scheduleOf, type DoseEventKind, type Schedule } from './events.ts';
+import { propagateExact } from './linear-path.ts';
+import { CurveProbe } from './metrics/curve-probe.ts';
+import { exposureFigures, type CompartmentFigures } from './metrics/exposure.ts';
+import type { Model } from './model.ts';
+import { normaliseScenario } from './normalize.ts';
+import { integrateSchedule } from './numerical-path.ts';
+import type { Trajectory } from './numerics/dense-store.ts';
+import { emptyStats, IntegrationFailure, type SolverStats } from './numerics/ode-system.ts';
+import type { Outcome, Problem } from './problems.ts';
+import type { SolverMethod } from './schema.ts';
+import { steadyStateFigures, type SteadyStateFigures } from './steady-state.ts';
+import { CompartmentSystem, type StateLayout } from './system.ts';
+import { displayUnit } from './units.ts';
+
+export type SolutionPath = 'exact' | 'adaptive' | 'fixed';
+
+export interface CompartmentSeries {
+  id: string;
+  label: string;
+  volume: number | null;
+  amount: Float64Array;
+  /** Null for a compartment without a volume. */
+  concentration: Float64Array | null;
+}
+
+export interface MassBalance {
+  /** Amount that has arrived by the end (bioavailable amounts; infusions pro rata). */
+  dosed: number;
+  /** Amount in the body at the end. */
+  remaining: number;
+  /** Amount eliminated by the end. */
+  eliminated: number;
+  /** |dosed − remaining − eliminated| / dosed. */
+  relativeError: number;
+}
+
+export interface Diagnostics {
+  path: SolutionPath;
+  requestedMethod: SolverMethod;
+  methodsUsed: string[];
+  rtol: number | null;
+  atol: number | null;
+  step: number | null;
+  acceptedSteps: number;
+  rejectedSteps: number;
+  derivativeEvaluations: number;
+  jacobianEvaluations: number;
+  factorizations: number;
+  stiffSwitches: number;
+  /** Matrix exponentials computed by the exact path. */
+  propagators: number;
+  /** Pieces between breakpoints (dose discontinuities). */
+  segments: number;
+  disposition: Disposition;
+  massBalance: MassBalance;
+  warnings: string[];
+}
+
+export interface ResultUnits {
+  amount: string;
+  volume: string;
+  time: string;
+  concentration: string;
+  auc: string;
+  rateConstant: string;
+}
+
+export interface SimulationEvent {
+  time: number;
+  kind: DoseEventKind;
+  compartment: string;
+  value: number;
+  line: number;
+  given: number;
+}
+
+export interface SimulationResult {
+  title: string;
+  units: ResultUnits;
+  /** Reported times; a time appears twice at a bolus: the value just before, then just after. */
+  times: Float64Array;
+  compartments: CompartmentSeries[];
+  events: SimulationEvent[];
+  metrics: { compartments: CompartmentFigures[]; steadyState: SteadyStateFigures | null };
+  diagnostics: Diagnostics;
+}
+
+export function simulate(input: unknown): Outcome<SimulationResult> {
+  const model = normaliseScenario(input);
+  return model.ok ? simulateModel(model.value) : model;
+}
+
+export function choosePath(model: Model): SolutionPath {
+  const m = model.solver.method;
+  if (m === 'exact' || (m === 'auto' && model.linear)) return 'exact';
+  return ['euler', 'heun', 'rk4', 'abm2'].includes(m) ? 'fixed' : 'adaptive';
+}
+
+export interface Solution {
+  trajectory: Trajectory;
+  final: Float64Array;
+  methodsUsed: string[];
+  propagators: number;
+}
+
+/** Solves the model's schedule from state y0 by the path the model's settings choose. */
+export function solveSchedule(
+  model: Model,
+  system: CompartmentSystem,
+  schedule: Schedule,
+  y0: Float64Array,
+  stats: SolverStats,
+): Solution {
+  if (choosePath(model) === 'exact') {
+    const run = propagateExact(system, schedule, y0);
+    return { trajectory: run.trajectory, final: run.final, methodsUsed: ['exact'], propagators: run.trajectory.cache.computed };
+  }
+  const run = integrateSchedule(system, schedule, y0, model.solver, stats);
+  return { trajectory: run.trajectory, final: run.final, methodsUsed: [...run.methodsUsed], propagators: 0 };
+}
+
+export function simulateModel(model: Model): Outcome<SimulationResult> {
+  const system = new CompartmentSystem(model);
+  const schedule = scheduleOf(model);
+  const stats = emptyStats();
+  let solution: Solution;
+  try {
+    solution = solveSchedule(model, system, schedule, new Float64Array(system.dimension), stats);
+  } catch (e) {
+    return { ok: false, problems: [numericalProblem(e, model, system.layout)] };
+  }
+  const rows = outputRows(model.outputTimes, schedule);
+  const series = sampleSeries(model, solution.trajectory, rows);
+  const firstBad = firstNonFinite(series);
+  if (firstBad) return { ok: false, problems: [firstBad] };
+
+  const warnings: string[] = [];
+  const dispo = disposition(system);
+  warnings.push(...fixedStepWarnings(model, dispo), ...negativeAmountWarnings(model, rows.times, series), ...beyondEndWarnings(model));
+  const probe = new CurveProbe(solution.trajectory, system, schedule);
+  const compartmentFigures = exposureFigures(model, system.layout, probe);
+  const steady = steadyStateFigures(model, system, stats);
+  if (steady && !steady.reached) warnings.push(steady.message);
+
+  const units = resultUnits(model);
+  return {
+    ok: true,
+    value: {
+      title: model.title,
+      units,
+      times: rows.times,
+      compartments: series,
+      events: doseEvents(model).map((e) => ({ ...e, compartment: model.compartments[e.compartment].id })),
+      metrics: { compartments: compartmentFigures, steadyState: steady },
+      diagnostics: {
+        path: choosePath(model),
+        requestedMethod: model.solver.method,
+        methodsUsed: solution.methodsUsed,
+        rtol: choosePath(model) === 'adaptive' ? model.solver.rtol : null,
+        atol: choosePath(model) === 'adaptive' ? model.solver.atol : null,
+        step: choosePath(model) === 'fixed' ? model.solver.step : null,
+        ...stats,
+        propagators: solution.propagators,
+        segments: schedule.breakpoints.length,
+        disposition: dispo,
+        massBalance: massBalance(model, system.layout, solution.final),
+        warnings,
+      },
+    },
+  };
+}
+
+export function resultUnits(model: Model): ResultUnits {
+  const u = model.units;
+  const concentration = displayUnit('concentration', u);
+  return {
+    amount: u.amount,
+    volume: u.volume,
+    time: u.time,
+    concentration,
+    auc: `${concentration}·${u.time}`,
+    rateConstant: displayUnit('rateConstant', u),
+  };
+}
+
+/** Output times merged with breakpoints; a breakpoint with a bolus gives two rows (before and after). */
+export function outputRows(outputTimes: Float64Array, schedule: Schedule): { times: Float64Array; sides: Uint8Array } {
+  const jumps = new Set(schedule.breakpoints.filter((b) => b.jumps.length > 0).map((b) => b.time));
+  const all = new Set<number>(outputTimes);
+  for (const b of schedule.breakpoints) all.add(b.time);
+  const sorted = Float64Array.from(all).sort();
+  const count = sorted.length + jumps.size;
+  const times = new Float64Array(count);
+  const sides = new Uint8Array(count);
+  let r = 0;
+  for (const t of sorted) {
+    if (jumps.has(t)) {
+      times[r] = t;
+      sides[r++] = 0;
+    }
+    times[r] = t;
+    sides[r++] = 1;
+  }
+  return { times, sides };
+}
+
+function sampleSeries(model: Model, trajectory: Trajectory, rows: { times: Float64Array; sides: Uint8Array }): CompartmentSeries[] {
+  const count = rows.times.length;
+  const series = model.compartments.map((c) => ({
+    id: c.id,
+    label: c.label,
+    volume: c.volume,
+    amount: new Float64Array(count),
+    concentration: c.volume === null ? null : new Float64Array(count),
+  }));
+  trajectory.sample(rows.times, rows.sides, (row, state) => {
+    for (let i = 0; i < series.length; i++) {
+      const s = series[i];
+      s.amount[row] = state[i];
+      if (s.concentration && s.volume !== null) s.concentration[row] = state[i] / s.volume;
+    }
+  });
+  return series;
+}
+
+function firstNonFinite(series: CompartmentSeries[]): Problem | null {
+  for (const s of series) {
+    const i = s.amount.findIndex((v) => !Number.isFinite(v));
+    if (i >= 0) return { path: 'solver', message: `the solution became non-finite in compartment '${s.id}'` };
+  }
+  return null;
+}
+
+function stateName(component: number | null, model: Model, layout: StateLayout): string {
+  if (component === null) return 'the state';
+  if (component < layout.compartments) return `compartment '${model.compartments[component].id}'`;
+  if (component === layout.eliminated) return 'the eliminated amount';
+  const c = Array.from(layout.auc).indexOf(component);
+  return c >= 0 ? `the AUC of compartment '${model.compartments[c].id}'` : 'the state';
+}
+
+function numericalProblem(e: unknown, model: Model, layout: StateLayout): Problem {
+  if (e instanceof IntegrationFailure) {
+    const what = {
+      'step-size-underflow': 'the step size fell below what the arithmetic can resolve',
+      'too-many-steps': `more than solver.maxSteps (${model.solver.maxSteps}) steps were needed`,
+      'non-finite': 'the solution became non-finite (overflow or division by zero)',
+    }[e.reason];
+    return {
+      path: 'solver',
+      message: `numerical failure at t = ${formatNumber(e.time)} ${model.units.time} in ${stateName(e.component, model, layout)}: ${what}`,
+    };
+  }
+  const message = e instanceof Error ? e.message : String(e);
+  return { path: 'solver', message: `numerical failure: ${message}` };
+}
+
+export function formatNumber(v: number): string {
+  return Number.isInteger(v) ? String(v) : Number(v.toPrecision(6)).toString();
+}
+
+/** Stability limits on the real axis of the explicit methods (Hairer & Wanner, Solving ODEs II, §IV.2). */
+const realStabilityLimit: Record<string, number> = { euler: 2, heun: 2, rk4: 2.785, abm2: 1 };
+
+function fixedStepWarnings(model: Model, dispo: Disposition): string[] {
+  const h = model.solver.step;
+  const limit = realStabilityLimit[model.solver.method];
+  if (h === null || limit === undefined) return [];
+  const hl = h * dispo.fastestRate;
+  const unit = model.units.time;
+  if (hl > limit) {
+    return [
+      `the fixed step ${formatNumber(h)} ${unit} is beyond the stability limit of ${model.solver.method} for the fastest rate in the model (${formatNumber(dispo.fastestRate)} 1/${unit}: h·λ = ${formatNumber(hl)} > ${limit}); the curve is not to be trusted — use a step below ${formatNumber(limit / dispo.fastestRate)} ${unit} or method 'auto'`,
+    ];
+  }
+  if (hl > 0.2) {
+    return [
+      `the fixed step ${formatNumber(h)} ${unit} is coarse for the fastest rate in the model (h·λ = ${formatNumber(hl)}); expect visible error — a step below ${formatNumber(0.2 / dispo.fastestRate)} ${unit} or method 'auto' is advised`,
+    ];
+  }
+  return [];
+}
+
+function negativeAmountWarnings(model: Model, times: Float64Array, series: CompartmentSeries[]): string[] {
+  const out: string[] = [];
+  const scale = Math.max(...series.map((s) => s.amount.reduce((m, v) => Math.max(m, Math.abs(v)), 0)));
+  const tolerance = 10 * model.solver.atol + 1e-9 * scale;
+  for (const s of series) {
+    const i = s.amount.findIndex((v) => v < -tolerance);
+    if (i >= 0) {
+      out.push(
+        `the amount in compartment '${s.id}' goes negative (${formatNumber(s.amount[i])} ${model.units.amount} at t = ${formatNumber(times[i])} ${model.units.time}), beyond round-off: the method or its step is not adequate`,
+      );
+    }
+  }
+  return out;
+}
+
+function beyondEndWarnings(model: Model): string[] {
+  return model.doseLines
+    .filter((l) => l.beyondEnd > 0)
+    .map((l) => `doses[${l.line}]: ${l.beyondEnd} dose${l.beyondEnd > 1 ? 's' : ''} fall at or after the end of the simulated span and ${l.beyondEnd > 1 ? 'are' : 'is'} not included`);
+}
+
+function massBalance(model: Model, layout: StateLayout, final: Float64Array): MassBalance {
+  let dosed = 0;
+  for (const a of model.administrations) {
+    if (a.arrival >= model.end) continue;
+    dosed += a.duration === 0 ? a.amount : (a.amount * Math.min(a.duration, model.end - a.arrival)) / a.duration;
+  }
+  let remaining = 0;
+  for (let i = 0; i < layout.compartments; i++) remaining += final[i];
+  const eliminated = final[layout.eliminated];
+  const residual = Math.abs(dosed - remaining - eliminated);
+  return { dosed, remaining, eliminated, relativeError: dosed > 0 ? residual / dosed : residual };
+}
+

@@ -1,0 +1,380 @@
+/**
+ * Steady state of the maintenance regimen (the repeating dose lines): the periodic
+ * solution that one dosing cycle maps onto itself. Linear models: in closed form,
+ * x* = (I − e^{Mτ})⁻¹·g with g the state after one cycle from empty. Saturable models:
+ * dosing cycles are iterated, accelerated by Newton steps on P(x) − x with a
+ * difference Jacobian of the cycle map P, until the state repeats to tolerance.
+ */
+import { buildSchedule, type Schedule } from './events.ts';
+import { createExpmWorkspace, expmScaled } from './linalg/expm.ts';
+import { solveLinear } from './linalg/lu.ts';
+import { limits } from './limits.ts';
+import { CurveProbe } from './metrics/curve-probe.ts';
+import { exposureFigures, type WindowFigures } from './metrics/exposure.ts';
+import type { Administration, Model } from './model.ts';
+import type { SolverStats } from './numerics/ode-system.ts';
+import { choosePath, formatNumber, solveSchedule } from './simulate.ts';
+import type { CompartmentSystem } from './system.ts';
+
+export interface SteadyStateCompartment {
+  compartment: string;
+  /** Figures over one dosing cycle at steady state; times are from the start of the cycle. */
+  cmax: number;
+  tmax: number;
+  cmin: number;
+  tmin: number;
+  /** Concentration at the end of the cycle, just before the next cycle's first dose. */
+  trough: number;
+  auc: number;
+  cavg: number;
+  fluctuation: number | null;
+  /** AUC over a cycle at steady state / AUC over the first cycle from empty. */
+  accumulationRatio: number | null;
+  /** Time from the first maintenance dose until a cycle's AUC reaches 90% (95%) of the steady-state cycle AUC. */
+  timeTo90: number | null;
+  timeTo95: number | null;
+  /** Number of maintenance cycles until the cycle AUC first reaches 90% (95%) of steady state. */
+  cyclesTo90: number | null;
+  cyclesTo95: number | null;
+  windows: WindowFigures[];
+}
+
+export interface SteadyStateFigures {
+  /** Length of one dosing cycle. */
+  period: number;
+  reached: boolean;
+  /** Plain-words account of how it was found, or why not. */
+  message: string;
+  method: 'closed-form' | 'iterated';
+  /** Dosing cycles simulated to find it (0 for the closed form). */
+  cycles: number;
+  /** Largest |P(x) − x| relative to the largest amount at the accepted state. */
+  residual: number;
+  compartments: SteadyStateCompartment[];
+}
+
+/** Common period of the repeating lines (their least common multiple), or null if incommensurate. */
+export function maintenancePeriod(intervals: number[]): number | null {
+  if (intervals.length === 0) return null;
+  let period = intervals[0];
+  for (const e of intervals.slice(1)) {
+    let found = false;
+    for (let m = 1; m <= 100 && !found; m++) {
+      const candidate = period * m;
+      const ratio = candidate / e;
+      if (Math.abs(ratio - Math.round(ratio)) < 1e-9 * ratio) {
+        period = candidate;
+        found = true;
+      }
+    }
+    if (!found) return null;
+  }
+  return period;
+}
+
+/** The doses of one steady-state cycle [0, τ), with lag and infusions wrapped around the cycle. */
+export function cycleAdministrations(model: Model, period: number): Administration[] {
+  const lines = model.doseLines.filter((l) => l.every !== null);
+  const origin = Math.min(...lines.map((l) => l.firstGiven));
+  const out: Administration[] = [];
+  const wrap = (t: number) => ((t % period) + period) % period;
+  for (const l of lines) {
+    const every = l.every as number;
+    const perCycle = Math.round(period / every);
+    const amount = l.nominal * l.bioavailability;
+    for (let m = 0; m < perCycle; m++) {
+      const given = wrap(l.firstGiven - origin + m * every);
+      const arrival = wrap(given + l.lag);
+      const base = { line: l.line, occurrence: m, into: l.into, given, nominal: l.nominal };
+      if (l.duration === 0) {
+        out.push({ ...base, arrival, amount, duration: 0 });
+        continue;
+      }
+      // An infusion as pieces inside [0, τ): it may wrap past the cycle end, or outlast several cycles.
+      const rate = amount / l.duration;
+      for (let j = -Math.ceil(l.duration / period) - 1; j <= 0; j++) {
+        const s = arrival + j * period;
+        const a = Math.max(0, s);
+        const b = Math.min(period, s + l.duration);
+        if (b > a) out.push({ ...base, arrival: a, amount: rate * (b - a), duration: b - a });
+      }
+    }
+  }
+  return out.sort((p, q) => p.arrival - q.arrival);
+}
+
+interface CycleMap {
+  schedule: Schedule;
+  /** Runs one cycle from the amounts x (AUC and eliminated states start at zero); returns the end state. */
+  run(amounts: Float64Array): Float64Array;
+  runs: number;
+}
+
+function cycleMap(model: Model, system: CompartmentSystem, schedule: Schedule, stats: SolverStats): CycleMap {
+  const n = system.dimension;
+  const nc = system.layout.compartments;
+  const map: CycleMap = {
+    schedule,
+    runs: 0,
+    run(amounts) {
+      const y = new Float64Array(n);
+      y.set(amounts.subarray(0, nc));
+      map.runs++;
+      return solveSchedule(model, system, schedule, y, stats).final;
+    },
+  };
+  return map;
+}
+
+function maxAbs(v: Float64Array, count: number): number {
+  let m = 0;
+  for (let i = 0; i < count; i++) m = Math.max(m, Math.abs(v[i]));
+  return m;
+}
+
+/** Average bioavailable input rate of the cycle against the largest rate saturable elimination can reach. */
+function capacityProblem(model: Model, cycle: Administration[], period: number): string | null {
+  if (model.transfers.some((t) => t.to === null && t.kinetics.kind === 'first-order')) return null;
+  const capacity = model.transfers.reduce(
+    (s, t) => s + (t.to === null && t.kinetics.kind === 'saturable' ? t.kinetics.vmax : 0),
+    0,
+  );
+  const input = cycle.reduce((s, a) => s + a.amount, 0) / period;
+  if (input < capacity) return null;
+  const u = `${model.units.amount}/${model.units.time}`;
+  return capacity === 0
+    ? 'no steady state: the model has no elimination from the body, so drug accumulates without limit'
+    : `no steady state: the average dosing rate ${formatNumber(input)} ${u} is at or above the largest rate the saturable elimination can reach (Vmax = ${formatNumber(capacity)} ${u}), so concentrations rise without limit`;
+}
+
+export function steadyStateFigures(model: Model, system: CompartmentSystem, stats: SolverStats): SteadyStateFigures | null {
+  const intervals = model.doseLines.filter((l) => l.every !== null).map((l) => l.every as number);
+  if (intervals.length === 0) return null;
+  const period = maintenancePeriod(intervals);
+  const nc = system.layout.compartments;
+  const notReached = (p: number, message: string, cycles = 0): SteadyStateFigures => ({
+    period: p,
+    reached: false,
+    message,
+    method: choosePath(model) === 'exact' ? 'closed-form' : 'iterated',
+    cycles,
+    residual: NaN,
+    compartments: [],
+  });
+  if (period === null) {
+    return notReached(NaN, 'no steady state computed: the dosing intervals of the repeating lines have no common period');
+  }
+  const cycle = cycleAdministrations(model, period);
+  const capacity = capacityProblem(model, cycle, period);
+  if (capacity) return notReached(period, capacity);
+
+  const schedule = buildSchedule(cycle, nc, 0, period);
+  // The cycle map is solved with the model's own method (and its own statistics, not the main run's).
+  const cycleStats: SolverStats = { ...stats };
+  const map = cycleMap(model, system, schedule, cycleStats);
+  const first = map.run(new Float64Array(nc));
+  const found = choosePath(model) === 'exact' ? closedForm(system, period, first) : iterate(model, map, first);
+  if (!found.ok) return notReached(period, found.message, map.runs);
+
+  const periodic = found.state;
+  const approach = approachToSteadyState(model, system, map, first, periodic);
+  const cycleModel: Model = { ...model, administrations: cycle, start: 0, end: period };
+  const run = solveSchedule(cycleModel, system, schedule, padState(periodic, system.dimension), cycleStats);
+  const figures = exposureFigures(cycleModel, system.layout, new CurveProbe(run.trajectory, system, schedule));
+  const compartments = figures.map((f, k) => {
+    const index = model.compartments.findIndex((c) => c.id === f.compartment);
+    const aucIndex = system.layout.auc[index];
+    const auc = f.overall.auc;
+    const cavg = auc / period;
+    const firstAuc = first[aucIndex];
+    const a = approach[k];
+    return {
+      compartment: f.compartment,
+      cmax: f.overall.cmax,
+      tmax: f.overall.tmax,
+      cmin: f.overall.cmin,
+      tmin: f.overall.tmin,
+      trough: f.overall.clast,
+      auc,
+      cavg,
+      fluctuation: cavg > 0 ? (f.overall.cmax - f.overall.cmin) / cavg : null,
+      accumulationRatio: firstAuc > 0 ? auc / firstAuc : null,
+      timeTo90: a.time90,
+      timeTo95: a.time95,
+      cyclesTo90: a.cycles90,
+      cyclesTo95: a.cycles95,
+      windows: f.overall.windows,
+    };
+  });
+  const how =
+    choosePath(model) === 'exact'
+      ? 'found in closed form from the cycle propagator'
+      : `found by iterating dosing cycles (${map.runs} cycles simulated) until the state repeated to a relative ${formatNumber(found.residual)}`;
+  return {
+    period,
+    reached: true,
+    message: `steady state over a dosing cycle of ${formatNumber(period)} ${model.units.time}, ${how}`,
+    method: choosePath(model) === 'exact' ? 'closed-form' : 'iterated',
+    cycles: map.runs,
+    residual: found.residual,
+    compartments,
+  };
+}
+
+function padState(amounts: Float64Array, n: number): Float64Array {
+  const y = new Float64Array(n);
+  y.set(amounts);
+  return y;
+}
+
+type Found = { ok: true; state: Float64Array; residual: number } | { ok: false; message: string };
+
+/** Amounts at the start of a steady-state cycle: (I − Φ)x = g over the amount block. */
+function closedForm(system: CompartmentSystem, period: number, first: Float64Array): Found {
+  const n = system.dimension;
+  const nc = system.layout.compartments;
+  const phi = expmScaled(system.linearMatrix, n, period, new Float64Array(n * n), createExpmWorkspace(n));
+  const a = new Float64Array(nc * nc);
+  for (let i = 0; i < nc; i++) {
+    for (let j = 0; j < nc; j++) a[i * nc + j] = (i === j ? 1 : 0) - phi[i * n + j];
+  }
+  const x = solveLinear(a, nc, first.slice(0, nc));
+  if (!x || x.some((v) => !Number.isFinite(v) || v < -1e-9 * maxAbs(first, nc))) {
+    return { ok: false, message: 'no steady state: some compartment has no way out of the body, so drug accumulates without limit' };
+  }
+  return { ok: true, state: x, residual: 0 };
+}
+
+/** Fixed-point iteration of the cycle map, with Newton steps once the plain iteration is slow. */
+function iterate(model: Model, map: CycleMap, first: Float64Array): Found {
+  const nc = map.schedule.breakpoints[0].rates.length;
+  const tolerance = Math.max(1e-10, 100 * model.solver.rtol);
+  let x = first.slice(0, nc);
+  let px = map.run(x).slice(0, nc);
+  const residualOf = (a: Float64Array, b: Float64Array) => {
+    let r = 0;
+    for (let i = 0; i < nc; i++) r = Math.max(r, Math.abs(b[i] - a[i]));
+    return r / Math.max(maxAbs(b, nc), 1e-300);
+  };
+  let residual = residualOf(x, px);
+  let plain = 0;
+  while (map.runs < limits.steadyStateCycles) {
+    if (residual <= tolerance) return { ok: true, state: px, residual };
+    if (plain < 8) {
+      // A few plain cycles first: cheap, and they bring the state near the attracting cycle.
+      x = px;
+      px = map.run(x).slice(0, nc);
+      residual = residualOf(x, px);
+      plain++;
+      continue;
+    }
+    const step = newtonStep(map, x, px, nc);
+    if (!step) {
+      x = px;
+      px = map.run(x).slice(0, nc);
+    } else {
+      let lambda = 1;
+      let candidate = step.map((d, i) => x[i] + d);
+      while (candidate.some((v) => v < 0) && lambda > 1e-3) {
+        lambda /= 2;
+        candidate = step.map((d, i) => x[i] + lambda * d);
+      }
+      x = Float64Array.from(candidate, (v) => Math.max(0, v));
+      px = map.run(x).slice(0, nc);
+    }
+    residual = residualOf(x, px);
+  }
+  return {
+    ok: false,
+    message: `no steady state within ${limits.steadyStateCycles} dosing cycles: the state still changed by a relative ${formatNumber(residual)} per cycle (is the dosing rate close to the saturable elimination capacity?)`,
+  };
+}
+
+/** Newton step for P(x) − x = 0 with a forward-difference Jacobian of the cycle map. */
+function newtonStep(map: CycleMap, x: Float64Array, px: Float64Array, nc: number): Float64Array | null {
+  const scale = Math.max(maxAbs(x, nc), 1e-12);
+  const jac = new Float64Array(nc * nc);
+  for (let j = 0; j < nc; j++) {
+    const h = 1e-5 * Math.max(Math.abs(x[j]), scale);
+    const xp = x.slice();
+    xp[j] += h;
+    const pj = map.run(xp);
+    for (let i = 0; i < nc; i++) jac[i * nc + j] = (pj[i] - px[i]) / h - (i === j ? 1 : 0);
+  }
+  const rhs = Float64Array.from({ length: nc }, (_, i) => x[i] - px[i]);
+  return solveLinear(jac, nc, rhs);
+}
+
+interface Approach {
+  time90: number | null;
+  time95: number | null;
+  cycles90: number | null;
+  cycles95: number | null;
+}
+
+/**
+ * How fast the maintenance regimen alone (no loading dose) approaches steady state: the
+ * AUC of cycle n from empty, as a fraction f_n of the steady-state cycle AUC. The time is
+ * interpolated in ln(1 − f) between cycles, which is exact for one-compartment kinetics
+ * (1 − f_n = e^{−nkτ}, so t90 = ln 10/k ≈ 3.3 half-lives).
+ */
+function approachToSteadyState(
+  model: Model,
+  system: CompartmentSystem,
+  map: CycleMap,
+  first: Float64Array,
+  periodic: Float64Array,
+): Approach[] {
+  const layout = system.layout;
+  const tracked = model.compartments.map((c, i) => i).filter((i) => model.compartments[i].volume !== null);
+  const period = map.schedule.end;
+  const steadyAuc = (() => {
+    const end = map.run(periodic);
+    return tracked.map((i) => end[layout.auc[i]]);
+  })();
+  const result: Approach[] = tracked.map(() => ({ time90: null, time95: null, cycles90: null, cycles95: null }));
+  const previous = tracked.map(() => 0);
+  const budget = choosePath(model) === 'exact' ? 100_000 : Math.max(0, limits.steadyStateCycles - map.runs);
+  const next = choosePath(model) === 'exact' ? affineCycle(system, period, first) : (x: Float64Array) => map.run(x);
+  let state = first;
+  for (let n = 1; n <= budget; n++) {
+    let done = true;
+    tracked.forEach((ci, k) => {
+      const f = steadyAuc[k] > 0 ? state[layout.auc[ci]] / steadyAuc[k] : 1;
+      const r = result[k];
+      for (const [target, key, cycles] of [
+        [0.9, 'time90', 'cycles90'],
+        [0.95, 'time95', 'cycles95'],
+      ] as const) {
+        if (r[key] === null && f >= target) {
+          const lo = Math.log(Math.max(1e-300, 1 - previous[k]));
+          const hi = Math.log(Math.max(1e-300, 1 - f));
+          const frac = hi < lo ? (Math.log(1 - target) - lo) / (hi - lo) : 1;
+          r[key] = (n - 1 + Math.min(1, Math.max(0, frac))) * period;
+          r[cycles] = n;
+        }
+      }
+      previous[k] = f;
+      if (r.time95 === null) done = false;
+    });
+    if (done) break;
+    state = next(state);
+  }
+  return result;
+}
+
+/** The exact cycle map on the full state (AUC and eliminated states reset each cycle), as x ↦ Φx + g. */
+function affineCycle(system: CompartmentSystem, period: number, first: Float64Array): (x: Float64Array) => Float64Array {
+  const n = system.dimension;
+  const nc = system.layout.compartments;
+  const phi = expmScaled(system.linearMatrix, n, period, new Float64Array(n * n), createExpmWorkspace(n));
+  return (x) => {
+    const out = first.slice();
+    for (let i = 0; i < n; i++) {
+      let s = 0;
+      for (let j = 0; j < nc; j++) s += phi[i * n + j] * x[j];
+      out[i] += s;
+    }
+    return out;
+  };
+}
