@@ -46,7 +46,7 @@ export interface SteadyStateFigures {
   /** Plain-words account of how it was found, or why not. */
   message: string;
   method: 'closed-form' | 'iterated';
-  /** Dosing cycles simulated to find it (0 for the closed form). */
+  /** Dosing cycles simulated to find it and its figures (the closed form needs two). */
   cycles: number;
   /** Largest |P(x) − x| relative to the largest amount at the accepted state. */
   residual: number;
@@ -73,8 +73,7 @@ export function maintenancePeriod(intervals: number[]): number | null {
 }
 
 /** The doses of one steady-state cycle [0, τ), with lag and infusions wrapped around the cycle. */
-export function cycleAdministrations(model: Model, period: number): Administration[] {
-  const lines = model.doseLines.filter((l) => l.every !== null);
+export function cycleAdministrations(lines: Model['doseLines'], period: number): Administration[] {
   const origin = Math.min(...lines.map((l) => l.firstGiven));
   const out: Administration[] = [];
   const wrap = (t: number) => ((t % period) + period) % period;
@@ -147,8 +146,24 @@ function capacityProblem(model: Model, cycle: Administration[], period: number):
     : `no steady state: the average dosing rate ${formatNumber(input)} ${u} is at or above the largest rate the saturable elimination can reach (Vmax = ${formatNumber(capacity)} ${u}), so concentrations rise without limit`;
 }
 
+/**
+ * The repeating lines that make up the maintenance regimen: those still running at the
+ * end of the span (so a dose change counts from its new dose), or, when every line has
+ * stopped, all of them (the regimen as if continued).
+ */
+export function maintenanceLines(model: Model): Model['doseLines'] {
+  const repeating = model.doseLines.filter((l) => l.every !== null && l.count > 0);
+  const running = repeating.filter((l) => {
+    const every = l.every as number;
+    const lastGiven = l.firstGiven + (l.count - 1) * every;
+    return l.beyondEnd > 0 || lastGiven + every >= model.end - 1e-9 * every;
+  });
+  return running.length > 0 ? running : repeating;
+}
+
 export function steadyStateFigures(model: Model, system: CompartmentSystem, stats: SolverStats): SteadyStateFigures | null {
-  const intervals = model.doseLines.filter((l) => l.every !== null).map((l) => l.every as number);
+  const lines = maintenanceLines(model);
+  const intervals = lines.map((l) => l.every as number);
   if (intervals.length === 0) return null;
   const period = maintenancePeriod(intervals);
   const nc = system.layout.compartments;
@@ -164,7 +179,7 @@ export function steadyStateFigures(model: Model, system: CompartmentSystem, stat
   if (period === null) {
     return notReached(NaN, 'no steady state computed: the dosing intervals of the repeating lines have no common period');
   }
-  const cycle = cycleAdministrations(model, period);
+  const cycle = cycleAdministrations(lines, period);
   const capacity = capacityProblem(model, cycle, period);
   if (capacity) return notReached(period, capacity);
 

@@ -325,6 +325,7 @@ export function exposureFigures(model: Model, layout: StateLayout, probe: CurveP
             (t, out) => {
               concentrationAt(t, pair, false);
               out[0] = pair[0] - L;
+              out[1] = pair[1];
             },
             p,
             q,

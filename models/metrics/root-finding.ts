@@ -1,7 +1,7 @@
 /**
  * Root of a smooth function on a bracket [a, b] with g(a)·g(b) ≤ 0: Newton steps from the
- * cubic-Hermite guess, falling back to bisection whenever a step leaves the bracket or
- * fails to halve it (a safeguarded Newton method; Press et al., Numerical Recipes, 3rd ed., §9.4).
+ * cubic-Hermite guess, falling back to bisection whenever a step would leave the bracket
+ * or shrinks too slowly (rtsafe; Press et al., Numerical Recipes, 3rd ed., §9.4).
  */
 export interface SmoothFunction {
   /** Writes g(t) and g'(t) into out[0], out[1]. */
@@ -21,34 +21,35 @@ export function refineRoot(
 ): number {
   if (ga === 0) return a;
   if (gb === 0) return b;
-  let lo = a;
-  let hi = b;
-  let glo = ga;
+  // Orient so that g(lo) < 0 < g(hi).
+  let lo = ga < 0 ? a : b;
+  let hi = ga < 0 ? b : a;
   let t = hermiteGuess(a, b, ga, gb, slopeA, slopeB);
+  let dxOld = Math.abs(b - a);
+  let dx = dxOld;
   const v = new Float64Array(2);
-  let lastWidth = hi - lo;
+  g(t, v);
   for (let i = 0; i < maxIterations; i++) {
-    g(t, v);
-    const gt = v[0];
-    if (gt === 0) return t;
-    if (Math.sign(gt) === Math.sign(glo)) {
-      lo = t;
-      glo = gt;
+    const f = v[0];
+    const df = v[1];
+    if (f === 0) return t;
+    if (f < 0) lo = t;
+    else hi = t;
+    const newtonLeaves = ((t - hi) * df - f) * ((t - lo) * df - f) > 0;
+    if (newtonLeaves || !Number.isFinite(df) || Math.abs(2 * f) > Math.abs(dxOld * df)) {
+      // Newton would leave the bracket or is not converging fast enough: bisect.
+      dxOld = dx;
+      dx = 0.5 * (hi - lo);
+      t = lo + dx;
     } else {
-      hi = t;
+      dxOld = dx;
+      dx = f / df;
+      t -= dx;
     }
-    if (hi - lo <= tolerance) return 0.5 * (lo + hi);
-    let next = t - gt / v[1];
-    const width = hi - lo;
-    if (!(next > lo && next < hi) || width > 0.5 * lastWidth) {
-      // Newton left the bracket or is not shrinking it fast enough: bisect this time.
-      next = 0.5 * (lo + hi);
-    }
-    lastWidth = width;
-    if (Math.abs(next - t) <= 0.25 * tolerance) return next;
-    t = next;
+    if (Math.abs(dx) <= tolerance) return t;
+    g(t, v);
   }
-  return 0.5 * (lo + hi);
+  return t;
 }
 
 /** Root of the cubic Hermite interpolant of g on [a, b] (the secant when slopes are unknown); a good first guess. */

@@ -1,0 +1,81 @@
+/**
+ * The result as users receive it: plain JSON (arrays, compartments keyed by id) and CSV.
+ * Typed arrays become plain arrays only here, at the boundary.
+ */
+import type { CompartmentFigures } from './metrics/exposure.ts';
+import type { Diagnostics, SimulationEvent, SimulationResult, ResultUnits } from './simulate.ts';
+import type { SteadyStateFigures } from './steady-state.ts';
+
+export interface CompartmentSeriesJson {
+  label: string;
+  volume: number | null;
+  amount: number[];
+  concentration: number[] | null;
+}
+
+export interface SimulationResultJson {
+  title: string;
+  units: ResultUnits;
+  times: number[];
+  compartments: Record<string, CompartmentSeriesJson>;
+  events: SimulationEvent[];
+  metrics: {
+    compartments: Record<string, Omit<CompartmentFigures, 'compartment'>>;
+    steadyState: SteadyStateFigures | null;
+  };
+  diagnostics: Diagnostics;
+}
+
+export function resultToJson(result: SimulationResult): SimulationResultJson {
+  const compartments: Record<string, CompartmentSeriesJson> = {};
+  for (const s of result.compartments) {
+    compartments[s.id] = {
+      label: s.label,
+      volume: s.volume,
+      amount: Array.from(s.amount),
+      concentration: s.concentration ? Array.from(s.concentration) : null,
+    };
+  }
+  const figures: SimulationResultJson['metrics']['compartments'] = {};
+  for (const { compartment, ...rest } of result.metrics.compartments) figures[compartment] = rest;
+  return {
+    title: result.title,
+    units: result.units,
+    times: Array.from(result.times),
+    compartments,
+    events: result.events,
+    metrics: { compartments: figures, steadyState: result.metrics.steadyState },
+    diagnostics: result.diagnostics,
+  };
+}
+
+/** JSON text; non-finite numbers (an undefined residual, say) become null, as JSON requires. */
+export function resultToJsonText(result: SimulationResult, indent = 0): string {
+  return JSON.stringify(resultToJson(result), null, indent || undefined);
+}
+
+function csvField(text: string): string {
+  return /[",\n]/.test(text) ? `"${text.replace(/"/g, '""')}"` : text;
+}
+
+/** One row per reported time: time, then amount and concentration of each compartment. */
+export function resultToCsv(result: SimulationResult): string {
+  const u = result.units;
+  const header = [`time (${u.time})`];
+  for (const s of result.compartments) {
+    header.push(`${s.id} amount (${u.amount})`);
+    if (s.concentration) header.push(`${s.id} concentration (${u.concentration})`);
+  }
+  const lines = [header.map(csvField).join(',')];
+  const row: string[] = [];
+  for (let r = 0; r < result.times.length; r++) {
+    row.length = 0;
+    row.push(String(result.times[r]));
+    for (const s of result.compartments) {
+      row.push(String(s.amount[r]));
+      if (s.concentration) row.push(String(s.concentration[r]));
+    }
+    lines.push(row.join(','));
+  }
+  return lines.join('\n') + '\n';
+}
