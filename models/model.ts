@@ -58,7 +58,7 @@ export interface DoseLineSummary {
   every: number | null;
   /** Doses in the line within the simulated span. */
   count: number;
-  /** Doses of the line that fall after the end and are left out. */
+  /** Doses the line asks for (by count, or a single dose) that arrive at or after the end and are left out. */
   beyondEnd: number;
 }
 

@@ -243,7 +243,11 @@ function readDoses(
       const given = every === null ? at : at + j * every;
       if (j > 0 && (every === null || given > last + 1e-9 * every)) break;
       if (given + lag >= span.end) {
-        beyondEnd += d.count !== undefined ? d.count - j : 1;
+        // Doses the user asked for by number, or a single dose, are worth a warning when cut;
+        // a repeat that runs `until` past the end is clipped quietly unless a lag pushes a
+        // dose given within the span past its end.
+        if (d.count !== undefined) beyondEnd = d.count - j;
+        else if (every === null || given < span.end) beyondEnd = 1;
         break;
       }
       if (administrations.length >= limits.administrations) {

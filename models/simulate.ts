@@ -306,7 +306,7 @@ function negativeAmountWarnings(model: Model, times: Float64Array, series: Compa
 function beyondEndWarnings(model: Model): string[] {
   return model.doseLines
     .filter((l) => l.beyondEnd > 0)
-    .map((l) => `doses[${l.line}]: ${l.beyondEnd} dose${l.beyondEnd > 1 ? 's' : ''} fall at or after the end of the simulated span and ${l.beyondEnd > 1 ? 'are' : 'is'} not included`);
+    .map((l) => `doses[${l.line}]: ${l.beyondEnd} dose${l.beyondEnd > 1 ? 's arrive' : ' arrives'} at or after the end of the simulated span and ${l.beyondEnd > 1 ? 'are' : 'is'} not included`);
 }
 
 function massBalance(model: Model, layout: StateLayout, final: Float64Array): MassBalance {

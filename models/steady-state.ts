@@ -42,6 +42,8 @@ export interface SteadyStateCompartment {
 export interface SteadyStateFigures {
   /** Length of one dosing cycle. */
   period: number;
+  /** Dose lines (indices into doses) that make up the maintenance regimen. */
+  lines: number[];
   reached: boolean;
   /** Plain-words account of how it was found, or why not. */
   message: string;
@@ -167,8 +169,10 @@ export function steadyStateFigures(model: Model, system: CompartmentSystem, stat
   if (intervals.length === 0) return null;
   const period = maintenancePeriod(intervals);
   const nc = system.layout.compartments;
+  const lineIndices = lines.map((l) => l.line);
   const notReached = (p: number, message: string, cycles = 0): SteadyStateFigures => ({
     period: p,
+    lines: lineIndices,
     reached: false,
     message,
     method: choosePath(model) === 'exact' ? 'closed-form' : 'iterated',
@@ -225,10 +229,12 @@ export function steadyStateFigures(model: Model, system: CompartmentSystem, stat
     choosePath(model) === 'exact'
       ? 'found in closed form from the cycle propagator'
       : `found by iterating dosing cycles (${map.runs} cycles simulated) until the state repeated to a relative ${formatNumber(found.residual)}`;
+  const regimen = lines.map((l) => `doses[${l.line}]`).join(' and ');
   return {
     period,
+    lines: lineIndices,
     reached: true,
-    message: `steady state over a dosing cycle of ${formatNumber(period)} ${model.units.time}, ${how}`,
+    message: `steady state of ${regimen} over a dosing cycle of ${formatNumber(period)} ${model.units.time}, ${how}`,
     method: choosePath(model) === 'exact' ? 'closed-form' : 'iterated',
     cycles: map.runs,
     residual: found.residual,

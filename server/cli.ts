@@ -4,12 +4,15 @@
  * "path: message" lines, never as stack traces.
  */
 import { readFileSync, writeFileSync } from 'node:fs';
+import { summaryText } from '../models/summary-text.ts';
 import { describeProblems, normaliseScenario, resultToCsv, resultToJsonText, scenarioJsonSchema, simulate, type Problem } from '../models/index.ts';
 
 const usage = `Tidemark — pharmacokinetic compartment-model simulator
 
 usage:
-  tidemark simulate FILE [--format json|csv] [--out FILE]   simulate a scenario (JSON result on stdout by default)
+  tidemark simulate FILE [--format json|csv|text] [--out FILE]
+                                 simulate a scenario (JSON result on stdout by default;
+                                 text = a readable summary of the figures)
   tidemark validate FILE                                     check a scenario and list every problem
   tidemark schema                                            print the JSON Schema of the scenario format
 
@@ -82,13 +85,14 @@ export function runCli(args: string[]): CliOutcome {
       const unknown = [...options.keys()].filter((k) => k !== 'format' && k !== 'out');
       if (unknown.length > 0) return fail(`unknown option --${unknown[0]}`);
       const format = options.get('format') ?? 'json';
-      if (format !== 'json' && format !== 'csv') return fail(`--format must be json or csv, not '${format}'`);
+      if (format !== 'json' && format !== 'csv' && format !== 'text') return fail(`--format must be json, csv or text, not '${format}'`);
       const input = readScenario(positional[0]);
       if (!input.ok) return fail(input.message);
       const result = simulate(input.value);
       if (!result.ok) return problems(result.problems, positional[0]);
-      const text = format === 'csv' ? resultToCsv(result.value) : resultToJsonText(result.value, 2) + '\n';
-      const warnings = result.value.diagnostics.warnings.map((w) => `warning: ${w}\n`).join('');
+      const text =
+        format === 'csv' ? resultToCsv(result.value) : format === 'text' ? summaryText(result.value) : resultToJsonText(result.value, 2) + '\n';
+      const warnings = format === 'text' ? '' : result.value.diagnostics.warnings.map((w) => `warning: ${w}\n`).join('');
       const out = options.get('out');
       return out
         ? { code: 0, stdout: '', stderr: warnings + `wrote ${out}\n`, file: { path: out, text } }

@@ -12,6 +12,9 @@ import { refineRoot } from './root-finding.ts';
 export interface WindowFigures {
   /** Index of the threshold in output.thresholds. */
   threshold: number;
+  /** Its edges (concentrations), as given. */
+  above: number | null;
+  below: number | null;
   /** Time with C > `above` (null when the threshold has no lower edge). */
   timeAbove: number | null;
   /** Time with C < `below` (null when it has no upper edge). */
@@ -121,6 +124,8 @@ function windowFigures(
     const inside = timeInWindow ?? timeAbove ?? timeBelow ?? 0;
     return {
       threshold: th.index,
+      above: th.above,
+      below: th.below,
       timeAbove,
       timeBelow,
       timeInWindow,
