@@ -26,7 +26,13 @@ export function disposition(system: CompartmentSystem): Disposition {
   system.jacobian(0, new Float64Array(n), jac);
   const block = new Float64Array(nc * nc);
   for (let i = 0; i < nc; i++) for (let j = 0; j < nc; j++) block[i * nc + j] = jac[i * n + j];
-  const ev = eigenvalues(block, nc);
+  let ev: { re: Float64Array; im: Float64Array };
+  try {
+    ev = eigenvalues(block, nc);
+  } catch {
+    // The QR iteration did not converge (pathological rates): report no eigenvalues rather than fail the run.
+    return { basis: system.linear ? 'exact' : 'linearised', eigenvalues: [], halfLives: [], terminalHalfLife: null, fastestRate: fallbackRate(block, nc) };
+  }
   const scale = Math.max(1e-300, ...Array.from(ev.re, Math.abs));
   const values = Array.from(ev.re, (re, i) => ({ re, im: ev.im[i] }));
   const halfLives = values.map((v) => (Math.abs(v.re) <= 1e-12 * scale ? null : Math.LN2 / Math.abs(v.re)));
@@ -38,4 +44,15 @@ export function disposition(system: CompartmentSystem): Disposition {
     terminalHalfLife: slowest && halfLives[0] !== null && slowest.re < 0 ? halfLives[0] : null,
     fastestRate: Math.max(...values.map((v) => Math.hypot(v.re, v.im))),
   };
+}
+
+/** Gershgorin bound on the fastest rate when eigenvalues are not available. */
+function fallbackRate(block: Float64Array, n: number): number {
+  let bound = 0;
+  for (let i = 0; i < n; i++) {
+    let row = 0;
+    for (let j = 0; j < n; j++) row += Math.abs(block[i * n + j]);
+    bound = Math.max(bound, row);
+  }
+  return bound;
 }
