@@ -243,7 +243,7 @@ function stateName(component: number | null, model: Model, layout: StateLayout):
   if (component < layout.compartments) return `compartment '${model.compartments[component].id}'`;
   if (component === layout.eliminated) return 'the eliminated amount';
   const c = Array.from(layout.auc).indexOf(component);
-  return c >= 0 ? `the AUC of compartment '${model.compartments[c].id}'` : 'the state';
+  return c >= 0 ? `compartment '${model.compartments[c].id}' (its running AUC)` : 'the state';
 }
 
 function numericalProblem(e: unknown, model: Model, layout: StateLayout): Problem {

@@ -39,3 +39,5 @@ parentPort?.on('message', (job: JobRequest) => {
   }
   parentPort?.postMessage({ id: job.id, ...reply } satisfies JobReply);
 });
+
+parentPort?.postMessage({ ready: true });

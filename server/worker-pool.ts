@@ -23,6 +23,8 @@ interface Pending {
 
 interface Slot {
   worker: Worker;
+  /** Loading the engine takes a moment; the time budget starts only once the worker is ready. */
+  ready: boolean;
   current: Pending | null;
   timer: NodeJS.Timeout | null;
 }
@@ -70,8 +72,13 @@ export class SimulationPool {
 
   private spawn(): Slot {
     const worker = new Worker(entry, { workerData: { module: workerModule } });
-    const slot: Slot = { worker, current: null, timer: null };
-    worker.on('message', (reply: JobReply) => {
+    const slot: Slot = { worker, ready: false, current: null, timer: null };
+    worker.on('message', (reply: JobReply | { ready: true }) => {
+      if ('ready' in reply) {
+        slot.ready = true;
+        this.dispatch();
+        return;
+      }
       const pending = slot.current;
       if (!pending || pending.job.id !== reply.id) return;
       this.finish(slot, { status: reply.status, contentType: reply.contentType, body: reply.body });
@@ -109,7 +116,7 @@ export class SimulationPool {
 
   private dispatch(): void {
     for (const slot of this.slots) {
-      if (slot.current || this.queue.length === 0) continue;
+      if (!slot.ready || slot.current || this.queue.length === 0) continue;
       const pending = this.queue.shift() as Pending;
       slot.current = pending;
       slot.timer = setTimeout(() => {

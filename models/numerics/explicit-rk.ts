@@ -36,6 +36,23 @@ export function minimumStep(t: number, t1: number): number {
 }
 
 /** Index of the first non-finite entry, or −1. */
+/**
+ * The state component changing fastest relative to its tolerance, |f_i|/(atol + rtol|y_i|):
+ * the one that holds the step size down, named when the integration gives up.
+ */
+export function fastestComponent(y: Float64Array, f: Float64Array, rtol: number, atol: number): number {
+  let best = 0;
+  let worst = -1;
+  for (let i = 0; i < y.length; i++) {
+    const r = Math.abs(f[i]) / (atol + rtol * Math.abs(y[i]));
+    if (r > worst) {
+      worst = r;
+      best = i;
+    }
+  }
+  return best;
+}
+
 export function firstNonFinite(v: Float64Array): number {
   for (let i = 0; i < v.length; i++) if (!Number.isFinite(v[i])) return i;
   return -1;
@@ -407,11 +424,13 @@ export function integrateAdaptive(
 
   for (;;) {
     if (attempts >= maxSteps) {
-      throw new IntegrationFailure('too-many-steps', t, null, `more than ${maxSteps} steps before t = ${t1} (stopped at t = ${t})`);
+      const c = fastestComponent(w.y0, f0, rtol, atol);
+      throw new IntegrationFailure('too-many-steps', t, c, `more than ${maxSteps} steps before t = ${t1} (stopped at t = ${t})`);
     }
     if (h < minimumStep(t, t1)) {
       if (nonFiniteComponent >= 0) throw nonFinite(t, nonFiniteComponent, 'value on every trial step');
-      throw new IntegrationFailure('step-size-underflow', t, null, `step size ${h} underflows at t = ${t}`);
+      const c = fastestComponent(w.y0, f0, rtol, atol);
+      throw new IntegrationFailure('step-size-underflow', t, c, `step size ${h} underflows at t = ${t}`);
     }
     // Stretch to t1 rather than leave a sliver step (Hairer's 1.01 rule); never past t1.
     const last = t + 1.01 * h >= t1;

@@ -9,7 +9,7 @@
 import { DenseStore, hermiteForm } from './dense-store';
 import { IntegrationFailure } from './ode-system';
 import type { OdeSystem, SolverStats } from './ode-system';
-import { fillScale, firstNonFinite, initialStepSize, minimumStep } from './explicit-rk';
+import { fastestComponent, fillScale, firstNonFinite, initialStepSize, minimumStep } from './explicit-rk';
 import type { Row } from './tableau';
 
 export interface RosenbrockTableau {
@@ -326,11 +326,13 @@ export function integrateRosenbrock(
 
   for (;;) {
     if (attempts >= maxSteps) {
-      throw new IntegrationFailure('too-many-steps', t, null, `more than ${maxSteps} steps before t = ${t1} (stopped at t = ${t})`);
+      const c = fastestComponent(wk.y0, wk.f0, rtol, atol);
+      throw new IntegrationFailure('too-many-steps', t, c, `more than ${maxSteps} steps before t = ${t1} (stopped at t = ${t})`);
     }
     if (h < minimumStep(t, t1)) {
       if (nonFiniteComponent >= 0) throw nonFinite(t, nonFiniteComponent, 'value on every trial step');
-      throw new IntegrationFailure('step-size-underflow', t, null, `step size ${h} underflows at t = ${t}`);
+      const c = fastestComponent(wk.y0, wk.f0, rtol, atol);
+      throw new IntegrationFailure('step-size-underflow', t, c, `step size ${h} underflows at t = ${t}`);
     }
     const last = t + 1.01 * h >= t1;
     const hStep = last ? t1 - t : h;
