@@ -137,7 +137,7 @@ export function simulateModel(model: Model): Outcome<SimulationResult> {
     return { ok: false, problems: [numericalProblem(e, model, system.layout)] };
   }
   const rows = outputRows(model.outputTimes, schedule);
-  const series = sampleSeries(model, solution.trajectory, rows);
+  const series = sampleSeries(model, solution.trajectory, rows, new Float64Array(system.dimension));
   const firstBad = firstNonFinite(series);
   if (firstBad) return { ok: false, problems: [firstBad] };
 
@@ -211,7 +211,16 @@ export function outputRows(outputTimes: Float64Array, schedule: Schedule): { tim
   return { times, sides };
 }
 
-function sampleSeries(model: Model, trajectory: Trajectory, rows: { times: Float64Array; sides: Uint8Array }): CompartmentSeries[] {
+/**
+ * Amounts and concentrations at the output rows. Trajectories begin just after the first
+ * breakpoint's boluses, so the row just before a bolus at the very start is the initial state.
+ */
+function sampleSeries(
+  model: Model,
+  trajectory: Trajectory,
+  rows: { times: Float64Array; sides: Uint8Array },
+  initial: Float64Array,
+): CompartmentSeries[] {
   const count = rows.times.length;
   const series = model.compartments.map((c) => ({
     id: c.id,
@@ -220,7 +229,8 @@ function sampleSeries(model: Model, trajectory: Trajectory, rows: { times: Float
     amount: new Float64Array(count),
     concentration: c.volume === null ? null : new Float64Array(count),
   }));
-  trajectory.sample(rows.times, rows.sides, (row, state) => {
+  trajectory.sample(rows.times, rows.sides, (row, sampled) => {
+    const state = rows.sides[row] === 0 && rows.times[row] === model.start ? initial : sampled;
     for (let i = 0; i < series.length; i++) {
       const s = series[i];
       s.amount[row] = state[i];
