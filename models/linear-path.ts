@@ -23,12 +23,23 @@ export class PropagatorCache {
     this.ws = createExpmWorkspace(n + 1);
   }
 
+  private lastH = NaN;
+  private lastKey = -1;
+  private last: Propagator | null = null;
+
   get(h: number, rateKey: number): Propagator {
     // Steps that differ only in the last bits (t − t0 on a grid) share one propagator; the
     // relative change of 1e-12 in h is far below any tolerance a user can ask for.
+    if (rateKey === this.lastKey && Math.abs(h - this.lastH) <= 1e-12 * h && this.last) return this.last;
     const key = `${rateKey}:${h.toPrecision(12)}`;
-    const hit = this.cache.get(key);
-    if (hit) return hit;
+    const hit = this.cache.get(key) ?? this.compute(key, h, rateKey);
+    this.lastH = h;
+    this.lastKey = rateKey;
+    this.last = hit;
+    return hit;
+  }
+
+  private compute(key: string, h: number, rateKey: number): Propagator {
     if (this.cache.size >= this.capacity) this.cache.clear();
     const input = this.inputs[rateKey];
     const p = propagator(this.matrix, this.n, h, isZero(input) ? null : input, this.ws, createPropagator(this.n));

@@ -62,7 +62,7 @@ function zodProblems(error: z.ZodError): Problem[] {
       const keys = issue.keys.map((k) => `'${k}'`).join(', ');
       return { path, message: `unknown field${issue.keys.length > 1 ? 's' : ''} ${keys}` };
     }
-    if (issue.code === 'invalid_type' && issue.input === undefined) {
+    if ((issue.code === 'invalid_type' || issue.code === 'invalid_union') && issue.input === undefined) {
       return { path, message: 'is required' };
     }
     return { path, message: issue.message };
@@ -70,7 +70,7 @@ function zodProblems(error: z.ZodError): Problem[] {
 }
 
 export function parseScenario(input: unknown): Outcome<Scenario> {
-  const parsed = scenarioSchema.safeParse(input);
+  const parsed = scenarioSchema.safeParse(input, { reportInput: true });
   return parsed.success ? { ok: true, value: parsed.data } : { ok: false, problems: zodProblems(parsed.error) };
 }
 
@@ -174,7 +174,7 @@ function readTransfers(
     if (from === undefined) return;
     const volume = compartments[from].volume;
     const needsVolume = (field: string) => {
-      if (volume === null && compartments[from] !== undefined) {
+      if (volume === null && s.compartments[from].volume === undefined) {
         r.fail(`${path}.${field}`, `needs a volume on compartment '${t.from}' (it holds amount only)`);
         return false;
       }

@@ -7,7 +7,7 @@ import { z } from 'zod';
 
 /** A number in the scenario's units, or a string with its own unit. */
 export const quantity = z
-  .union([z.number(), z.string().trim().min(1, 'must not be empty')])
+  .union([z.number(), z.string().trim().min(1, 'must not be empty')], 'must be a number, or a string with a unit such as "12 L"')
   .describe('A number in the scenario units, or a string with a unit, e.g. "12 L", "3.5 L/h", "30 min", "0.2 1/h".');
 
 const identifier = z

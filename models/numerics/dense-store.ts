@@ -69,22 +69,27 @@ export function hermiteCoefficients(
   }
 }
 
+/** Coefficients live in fixed-size chunks, so growing never copies what is stored. */
+const chunkSize = 1 << 16;
+
 export class DenseStore implements Trajectory {
   readonly dimension: number;
   private t0s: Float64Array;
   private hs: Float64Array;
-  private offsets: Float64Array;
+  /** Chunk index and offset within it of each step's coefficients. */
+  private chunkOf: Int32Array;
+  private offsets: Int32Array;
   private forms: DenseForm[] = [];
-  private coef: Float64Array;
+  private readonly chunks: Float64Array[] = [];
   private count = 0;
-  private used = 0;
+  private used = chunkSize;
 
   constructor(dimension: number, expectedSteps = 256) {
     this.dimension = dimension;
     this.t0s = new Float64Array(expectedSteps);
     this.hs = new Float64Array(expectedSteps);
-    this.offsets = new Float64Array(expectedSteps);
-    this.coef = new Float64Array(expectedSteps * 5 * dimension);
+    this.chunkOf = new Int32Array(expectedSteps);
+    this.offsets = new Int32Array(expectedSteps);
   }
 
   get steps(): number {
@@ -103,27 +108,45 @@ export class DenseStore implements Trajectory {
   append(t0: number, h: number, form: DenseForm, coef: Float64Array): void {
     const size = form.vectors * this.dimension;
     if (this.count === this.t0s.length) this.growSteps();
-    while (this.used + size > this.coef.length) this.growCoef();
+    if (this.used + size > chunkSize) {
+      this.chunks.push(new Float64Array(Math.max(chunkSize, size)));
+      this.used = 0;
+    }
+    const chunk = this.chunks.length - 1;
     this.t0s[this.count] = t0;
     this.hs[this.count] = h;
+    this.chunkOf[this.count] = chunk;
     this.offsets[this.count] = this.used;
     this.forms[this.count] = form;
-    this.coef.set(coef.subarray(0, size), this.used);
+    this.chunks[chunk].set(coef.subarray(0, size), this.used);
     this.used += size;
     this.count++;
   }
 
   stateAt(t: number, side: 'left' | 'right', out: Float64Array): void {
-    const k = this.locate(t, side);
-    const h = this.hs[k];
-    const theta = h > 0 ? Math.min(1, Math.max(0, (t - this.t0s[k]) / h)) : 0;
-    this.forms[k].evaluate(theta, this.coef, this.offsets[k], this.dimension, out);
+    this.evaluateStep(this.locate(t, side), t, out);
   }
 
+  private evaluateStep(k: number, t: number, out: Float64Array): void {
+    const h = this.hs[k];
+    const theta = h > 0 ? Math.min(1, Math.max(0, (t - this.t0s[k]) / h)) : 0;
+    this.forms[k].evaluate(theta, this.chunks[this.chunkOf[k]], this.offsets[k], this.dimension, out);
+  }
+
+  /** Rows in ascending time: walks the steps forward instead of searching for each row. */
   sample(times: Float64Array, sides: Uint8Array, write: (row: number, state: Float64Array) => void): void {
     const y = new Float64Array(this.dimension);
+    let k = 0;
+    const last = this.count - 1;
     for (let row = 0; row < times.length; row++) {
-      this.stateAt(times[row], sides[row] === 0 ? 'left' : 'right', y);
+      const t = times[row];
+      if (sides[row] === 0) {
+        // Last step whose start is < t.
+        while (k < last && this.t0s[k + 1] < t) k++;
+      } else {
+        while (k < last && this.t0s[k + 1] <= t) k++;
+      }
+      this.evaluateStep(k, t, y);
       write(row, y);
     }
   }
@@ -147,25 +170,18 @@ export class DenseStore implements Trajectory {
       if (side === 'left' ? s < t : s <= t) lo = mid;
       else hi = mid - 1;
     }
-    // Zero-length steps never hold a time; skip forward past them at the start.
     return lo;
   }
 
   private growSteps(): void {
     const size = this.t0s.length * 2;
-    const grow = (a: Float64Array) => {
-      const b = new Float64Array(size);
+    const grow = <T extends Float64Array | Int32Array>(a: T, b: T): T => {
       b.set(a);
       return b;
     };
-    this.t0s = grow(this.t0s);
-    this.hs = grow(this.hs);
-    this.offsets = grow(this.offsets);
-  }
-
-  private growCoef(): void {
-    const b = new Float64Array(this.coef.length * 2);
-    b.set(this.coef);
-    this.coef = b;
+    this.t0s = grow(this.t0s, new Float64Array(size));
+    this.hs = grow(this.hs, new Float64Array(size));
+    this.chunkOf = grow(this.chunkOf, new Int32Array(size));
+    this.offsets = grow(this.offsets, new Int32Array(size));
   }
 }

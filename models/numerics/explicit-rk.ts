@@ -19,8 +19,13 @@ export interface AdaptiveOptions {
 }
 
 export interface AdaptiveResult {
-  /** The controller's proposal for the next step (a hint for the next segment). */
+  /** The controller's proposal for the next step. */
   lastStep: number;
+  /**
+   * The first accepted step of this call: the hint for the next segment, which after the
+   * next dose usually starts with the same fast transient as this one did.
+   */
+  firstStep: number;
   /** Time at which the stiffness monitor fired (y holds the state there), or null. */
   stiffAt: number | null;
 }
@@ -230,7 +235,19 @@ interface Work {
   readonly coef: Float64Array;
 }
 
+const workCache = new Map<string, Work>();
+
+/** Work arrays for (tableau, n), made once and reused by every segment (calls never nest). */
 function makeWork(cm: Compiled, n: number): Work {
+  const key = `${cm.tab.name}:${n}`;
+  const cached = workCache.get(key);
+  if (cached) return cached;
+  const work = freshWork(cm, n);
+  workCache.set(key, work);
+  return work;
+}
+
+function freshWork(cm: Compiled, n: number): Work {
   const k = new Float64Array(cm.total * n);
   return {
     n,
@@ -398,7 +415,7 @@ export function integrateAdaptive(
   const w = makeWork(cm, n);
   const ctl = tableau.controller;
   const span = t1 - t0;
-  if (span === 0) return { lastStep: options.initialStep ?? 0, stiffAt: null };
+  if (span === 0) return { lastStep: options.initialStep ?? 0, firstStep: options.initialStep ?? 0, stiffAt: null };
 
   w.y0.set(y);
   const bad0 = firstNonFinite(w.y0);
@@ -420,6 +437,7 @@ export function integrateAdaptive(
   let rejectedLast = false;
   let nonFiniteComponent = -1;
   let attempts = 0;
+  let firstStep = 0;
   let t = t0;
 
   for (;;) {
@@ -461,6 +479,7 @@ export function integrateAdaptive(
     denseCoefficients(system, cm, w, t, hStep, stats);
     store.append(t, hStep, cm.form, w.coef);
     stats.acceptedSteps++;
+    if (firstStep === 0) firstStep = hStep;
 
     const stiffNow =
       stiffness !== undefined && tableau.stiffness !== null && stiffness.wantsCheck()
@@ -475,11 +494,11 @@ export function integrateAdaptive(
 
     if (last) {
       y.set(w.y0);
-      return { lastStep: Math.max(hNew, h), stiffAt: null };
+      return { lastStep: Math.max(hNew, h), firstStep, stiffAt: null };
     }
     if (stiffNow) {
       y.set(w.y0);
-      return { lastStep: hNew, stiffAt: t };
+      return { lastStep: hNew, firstStep, stiffAt: t };
     }
     h = Math.min(hNew, hMax);
   }

@@ -1,0 +1,293 @@
+/**
+ * Tidemark page: wires the scenario store, the forms, the drawings, the API, the plot,
+ * the figures and the file actions together. The page never simulates by itself: it asks
+ * the server.
+ */
+import '../styles.css';
+import type { SimulationResultJson } from '../../models/result-format.ts';
+import { fmt } from '../../models/summary-text.ts';
+import { fetchSample, fetchSamples, simulate } from './api.ts';
+import { Compare } from './compare.ts';
+import { renderDiagram } from './diagram.ts';
+import { byId, findByFocusKey, focusKey, h } from './dom.ts';
+import { ErrorPresenter } from './errors.ts';
+import { refreshCompartmentSelects, textField } from './fields.ts';
+import { renderFigures } from './figures.ts';
+import { exportCurves, openScenario, saveScenario } from './io.ts';
+import { ModelForm, type FormHooks } from './model-form.ts';
+import { OutputForm } from './output-form.ts';
+import { PlotControls } from './plot-controls.ts';
+import { PlotView } from './plot.ts';
+import { RegimenForm } from './regimen-form.ts';
+import { emptyScenario, formProblem, ScenarioStore, type ScenarioDoc } from './store.ts';
+import { renderTimeline } from './timeline.ts';
+
+const defaultSample = 'velarin-oral-bid';
+
+const store = new ScenarioStore();
+const formRoot = byId<HTMLFormElement>('scenario-form');
+const notice = byId('notice');
+const runButton = byId<HTMLButtonElement>('run');
+const runStatus = byId('run-status');
+const staleNote = byId('stale-note');
+const sampleSelect = byId<HTMLSelectElement>('sample-select');
+const fileInput = byId<HTMLInputElement>('open-json');
+const exportButton = byId<HTMLButtonElement>('export-csv');
+const figuresHost = byId('figures');
+const errors = new ErrorPresenter(formRoot, byId('error-summary'), store);
+
+/** The last successful run, the scenario exactly as sent, and the store revision it matches. */
+let lastResult: SimulationResultJson | null = null;
+let lastScenario: unknown = null;
+let lastRevision = -1;
+
+function announce(message: string): void {
+  // Clearing first makes a repeated message be read again.
+  notice.textContent = '';
+  requestAnimationFrame(() => {
+    notice.textContent = message;
+  });
+}
+
+const hooks: FormHooks = {
+  rerender(focusAfter) {
+    const key = focusAfter ?? focusKey(document.activeElement);
+    renderForms();
+    errors.reapply();
+    if (key) findByFocusKey(formRoot, key)?.focus();
+  },
+  announce,
+  clearErrors: () => errors.clear(),
+};
+
+const modelForm = new ModelForm(store, byId('model-form'), hooks);
+const regimenForm = new RegimenForm(store, byId('regimen-form'), hooks);
+const outputForm = new OutputForm(store, byId('output-form'), hooks);
+
+function renderScenarioFields(): void {
+  const host = byId('scenario-fields');
+  const description = store.scenario.description;
+  host.replaceChildren(textField(store, { path: 'title', label: 'Title', required: true, wide: true, maxLength: 200 }));
+  if (typeof description === 'string' && description) host.append(h('p', { class: 'description' }, description));
+}
+
+function renderForms(): void {
+  renderScenarioFields();
+  modelForm.render();
+  regimenForm.render();
+  outputForm.render();
+  drawNow();
+}
+
+// ---- drawings, redrawn from the form as it changes (once per frame at most) ----
+let drawPending = false;
+function drawNow(): void {
+  drawPending = false;
+  renderDiagram(store, byId('diagram'));
+  renderTimeline(store, byId('timeline'));
+}
+function scheduleDraw(): void {
+  if (drawPending) return;
+  drawPending = true;
+  requestAnimationFrame(drawNow);
+}
+
+// The timeline is drawn at its shown width: redraw it when the column changes width.
+{
+  const host = byId('timeline');
+  let lastWidth = host.clientWidth;
+  new ResizeObserver(() => {
+    if (host.clientWidth === lastWidth) return;
+    lastWidth = host.clientWidth;
+    scheduleDraw();
+  }).observe(host);
+}
+
+function markStale(): void {
+  staleNote.hidden = lastResult === null || store.revision === lastRevision;
+}
+
+store.subscribe((kind, path) => {
+  if (kind === 'value' && path) {
+    errors.clearField(path);
+    if (/^compartments\[\d+\]\.(label|volume)$/.test(path)) refreshCompartmentSelects(store, formRoot);
+  }
+  if (kind === 'replaced') renderForms();
+  else scheduleDraw();
+  markStale();
+});
+
+// ---- plot, figures, compare ----
+const plot = new PlotView(byId<HTMLCanvasElement>('plot'));
+const compare = new Compare(
+  () => (lastResult ? { result: lastResult, scenario: lastScenario } : null),
+  (message) => {
+    announce(message);
+    showResult();
+  },
+);
+const controls = new PlotControls(() => showResult());
+
+function showResult(): void {
+  const reference = compare.reference;
+  plot.update({ current: lastResult, reference: reference?.result ?? null, selected: [...controls.selected], log: controls.log, range: controls.range() });
+  renderFigures(figuresHost, lastResult, reference?.result ?? null, [...controls.selected], reference?.title ?? null);
+  exportButton.disabled = lastResult === null;
+  compare.refresh();
+  if (plot.referenceNote) byId('reference-note').append(` ${plot.referenceNote}`);
+}
+
+// ---- running ----
+let inFlight: AbortController | null = null;
+
+async function run(): Promise<void> {
+  inFlight?.abort();
+  const controller = new AbortController();
+  inFlight = controller;
+  const revision = store.revision;
+  const sent = structuredClone(store.scenario);
+  runStatus.textContent = 'Running…';
+  notice.textContent = '';
+  runButton.setAttribute('aria-busy', 'true');
+  const started = performance.now();
+  const outcome = await simulate(sent, controller.signal);
+  if (inFlight !== controller) return; // a newer run took over
+  inFlight = null;
+  runButton.removeAttribute('aria-busy');
+  switch (outcome.kind) {
+    case 'ok': {
+      lastResult = outcome.result;
+      lastScenario = sent;
+      lastRevision = revision;
+      errors.clear();
+      controls.setResult(lastResult);
+      showResult();
+      const d = lastResult.diagnostics;
+      const ms = Math.round(performance.now() - started);
+      const warn = d.warnings.length ? ` ${d.warnings.length} warning${d.warnings.length > 1 ? 's' : ''} — see the figures.` : '';
+      runStatus.textContent = `Done in ${fmt(ms)} ms: ${lastResult.times.length} reported times, ${d.path === 'exact' ? 'exact solution' : d.path === 'adaptive' ? 'adaptive integration' : 'fixed-step integration'}.${warn}`;
+      break;
+    }
+    case 'invalid':
+      errors.showInvalid(outcome.problems);
+      runStatus.textContent = 'Not run: the scenario has problems, listed below and beside the fields.';
+      break;
+    case 'failed':
+      errors.showFailure(outcome.problems);
+      runStatus.textContent = 'The simulation could not be completed.';
+      break;
+    case 'message':
+      errors.showMessage(outcome.text, 'The simulation did not run');
+      runStatus.textContent = 'Not run.';
+      break;
+    case 'aborted':
+      return;
+  }
+  markStale();
+}
+
+formRoot.addEventListener('submit', (ev) => {
+  ev.preventDefault();
+  void run();
+});
+
+// ---- loading scenarios ----
+function load(doc: ScenarioDoc): void {
+  errors.clear();
+  store.replace(doc);
+  lastRevision = -1;
+  markStale();
+}
+
+async function loadSample(id: string): Promise<void> {
+  const value = await fetchSample(id);
+  const problem = value === null ? 'it could not be fetched from the server' : formProblem(value);
+  if (problem) {
+    errors.showMessage(`The sample “${id}” could not be opened: ${problem}.`, 'Sample not loaded');
+    return;
+  }
+  load(value as ScenarioDoc);
+  sampleSelect.value = id;
+  announce(`Loaded the sample “${store.scenario.title ?? id}”.`);
+  await run();
+}
+
+sampleSelect.addEventListener('change', () => {
+  if (sampleSelect.value) void loadSample(sampleSelect.value);
+});
+
+byId('new-model').addEventListener('click', () => {
+  load(emptyScenario());
+  sampleSelect.value = '';
+  lastResult = null;
+  lastScenario = null;
+  controls.setResult(null);
+  showResult();
+  runStatus.textContent = 'New empty scenario. Add compartments, transfers and doses, then run.';
+  announce('Started a new, empty scenario.');
+  findByFocusKey(formRoot, 'key:add-compartment')?.focus();
+});
+
+byId('open-json-button').addEventListener('click', () => fileInput.click());
+fileInput.addEventListener('change', async () => {
+  const file = fileInput.files?.[0];
+  fileInput.value = '';
+  if (!file) return;
+  const opened = await openScenario(file);
+  if (!opened.ok) {
+    errors.showMessage(opened.message, 'File not opened');
+    return;
+  }
+  load(opened.doc);
+  sampleSelect.value = '';
+  announce(`Opened “${opened.name}”.`);
+  await run();
+});
+
+byId('save-json').addEventListener('click', () => {
+  saveScenario(store.scenario);
+  announce('Saved the scenario as JSON.');
+});
+
+exportButton.addEventListener('click', () => {
+  if (!lastResult) {
+    announce('Run the simulation first; the CSV holds its curves.');
+    return;
+  }
+  exportCurves(lastResult);
+  announce('Exported the curves as CSV.');
+});
+
+// ---- read-only hooks for the browser tests ----
+declare global {
+  interface Window {
+    __tidemark: { readonly lastResult: SimulationResultJson | null; readonly scenario: ScenarioDoc; readonly chart: PlotView['chart'] };
+  }
+}
+window.__tidemark = Object.freeze({
+  get lastResult() {
+    return lastResult;
+  },
+  get scenario() {
+    return store.scenario;
+  },
+  get chart() {
+    return plot.chart;
+  },
+});
+
+// ---- start: list the samples, open the default one and run it ----
+async function start(): Promise<void> {
+  renderForms();
+  showResult();
+  const samples = await fetchSamples();
+  if (!samples) {
+    errors.showMessage('The Tidemark server could not be reached, so the samples are not listed. Check that it is running, then reload the page.', 'Server not reachable');
+    return;
+  }
+  for (const s of samples) sampleSelect.append(h('option', { value: s.id, title: s.description }, s.title));
+  const first = samples.find((s) => s.id === defaultSample) ?? samples[0];
+  if (first) await loadSample(first.id);
+}
+
+void start();

@@ -1,0 +1,223 @@
+/**
+ * Quantities as the form sees them: a number box and a unit picker over the scenario's
+ * strings ("12 L", "0.9 1/h") or plain numbers (read in the scenario's units). Only what
+ * the page needs to draw (time placement, labels) is converted here; the server does the
+ * real unit handling.
+ */
+
+export type Dim = 'amount' | 'volume' | 'time' | 'rateConstant' | 'clearance' | 'amountRate' | 'concentration';
+
+export interface UnitSet {
+  amount: string;
+  volume: string;
+  time: string;
+}
+
+export const defaultUnits: UnitSet = { amount: 'mg', volume: 'L', time: 'h' };
+
+/** Units offered in each picker; a unit found in a file but not listed here is added to its picker. */
+export const unitChoices: Record<Dim, string[]> = {
+  amount: ['mg', 'ug', 'ng', 'g'],
+  volume: ['L', 'mL', 'dL'],
+  time: ['min', 'h', 'day', 'week', 's'],
+  rateConstant: ['1/h', '1/min', '1/day'],
+  clearance: ['L/h', 'mL/min', 'L/day', 'mL/h'],
+  amountRate: ['mg/h', 'mg/min', 'mg/day', 'ug/min', 'ug/h', 'g/day', 'g/h'],
+  concentration: ['mg/L', 'ug/mL', 'ug/L', 'ng/mL'],
+};
+
+/** The unit a plain number in this dimension is read in. */
+export function scenarioUnitOf(dim: Dim, u: UnitSet): string {
+  switch (dim) {
+    case 'amount':
+      return u.amount;
+    case 'volume':
+      return u.volume;
+    case 'time':
+      return u.time;
+    case 'rateConstant':
+      return `1/${u.time}`;
+    case 'clearance':
+      return `${u.volume}/${u.time}`;
+    case 'amountRate':
+      return `${u.amount}/${u.time}`;
+    case 'concentration':
+      return `${u.amount}/${u.volume}`;
+  }
+}
+
+export interface QuantityParts {
+  /** What goes in the number box. */
+  value: string;
+  /** The unit as written; null when the number box holds text that is not a number followed by a unit. */
+  unit: string | null;
+}
+
+const numberThenUnit = /^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$/;
+
+/** Splits a stored quantity into the number box and the unit picker. */
+export function splitQuantity(q: unknown, dim: Dim, u: UnitSet): QuantityParts {
+  if (q === undefined || q === null || q === '') return { value: '', unit: scenarioUnitOf(dim, u) };
+  if (typeof q === 'number') return { value: String(q), unit: scenarioUnitOf(dim, u) };
+  if (typeof q !== 'string') return { value: JSON.stringify(q), unit: null };
+  const m = numberThenUnit.exec(q);
+  if (!m) return { value: q, unit: null };
+  return { value: m[1], unit: m[2] === '' ? scenarioUnitOf(dim, u) : m[2] };
+}
+
+/** True when the text is a plain finite number as JSON and people write it. */
+export function isNumberText(text: string): boolean {
+  return /^\s*[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?\s*$/.test(text);
+}
+
+/** How a quantity reads in a label: the string as written, or a plain number with the scenario's unit. */
+export function quantityLabel(q: unknown, dim: Dim, u: UnitSet): string {
+  if (q === undefined || q === null || q === '') return '?';
+  if (typeof q === 'number') return `${q} ${scenarioUnitOf(dim, u)}`;
+  if (typeof q === 'string') return q.trim();
+  return '?';
+}
+
+// ---- small conversion tables, for drawing only ----
+
+const timeInHours: Record<string, number> = {
+  s: 1 / 3600,
+  sec: 1 / 3600,
+  second: 1 / 3600,
+  seconds: 1 / 3600,
+  min: 1 / 60,
+  minute: 1 / 60,
+  minutes: 1 / 60,
+  h: 1,
+  hr: 1,
+  hrs: 1,
+  hour: 1,
+  hours: 1,
+  d: 24,
+  day: 24,
+  days: 24,
+  week: 168,
+  weeks: 168,
+  wk: 168,
+};
+
+const amountInMg: Record<string, number> = {
+  ng: 1e-6,
+  ug: 1e-3,
+  mcg: 1e-3,
+  'µg': 1e-3,
+  'μg': 1e-3,
+  mg: 1,
+  g: 1e3,
+  kg: 1e6,
+};
+
+const volumeInL: Record<string, number> = { uL: 1e-6, mL: 1e-3, ml: 1e-3, dL: 0.1, dl: 0.1, L: 1, l: 1 };
+
+function factor(table: Record<string, number>, unit: string): number | null {
+  const f = table[unit.trim()];
+  return f === undefined ? null : f;
+}
+
+/** Factor turning a value in `from` into `to`, or null when either unit is not in the tables. */
+export function timeFactor(from: string, to: string): number | null {
+  const a = factor(timeInHours, from);
+  const b = factor(timeInHours, to);
+  return a === null || b === null ? null : a / b;
+}
+
+/** Concentration factor between two "amount/volume" units. */
+export function concentrationFactor(from: string, to: string): number | null {
+  const [fa, fv] = from.split('/');
+  const [ta, tv] = to.split('/');
+  if (fv === undefined || tv === undefined) return null;
+  const a1 = factor(amountInMg, fa);
+  const v1 = factor(volumeInL, fv);
+  const a2 = factor(amountInMg, ta);
+  const v2 = factor(volumeInL, tv);
+  if (a1 === null || v1 === null || a2 === null || v2 === null) return null;
+  return a1 / v1 / (a2 / v2);
+}
+
+/** A time quantity in the scenario's time unit, or null when it cannot be read here. */
+export function timeValue(q: unknown, u: UnitSet): number | null {
+  if (q === undefined || q === null || q === '') return null;
+  if (typeof q === 'number') return Number.isFinite(q) ? q : null;
+  if (typeof q !== 'string') return null;
+  const m = numberThenUnit.exec(q);
+  if (!m) return null;
+  const v = Number(m[1]);
+  if (m[2] === '') return v;
+  const f = timeFactor(m[2], u.time);
+  return f === null ? null : v * f;
+}
+
+/** An amount in mg-equivalents of the scenario's amount unit, or null. */
+function amountValue(q: unknown, u: UnitSet): number | null {
+  if (typeof q === 'number') return q;
+  if (typeof q !== 'string') return null;
+  const m = numberThenUnit.exec(q);
+  if (!m) return null;
+  const v = Number(m[1]);
+  if (m[2] === '') return v;
+  const a = factor(amountInMg, m[2]);
+  const b = factor(amountInMg, u.amount);
+  return a === null || b === null ? null : (v * a) / b;
+}
+
+/** An amount/time rate in the scenario's units, or null. */
+function amountRateValue(q: unknown, u: UnitSet): number | null {
+  if (typeof q === 'number') return q;
+  if (typeof q !== 'string') return null;
+  const m = numberThenUnit.exec(q);
+  if (!m) return null;
+  const v = Number(m[1]);
+  if (m[2] === '') return v;
+  const [am, tm] = m[2].split('/');
+  if (tm === undefined) return null;
+  const a = factor(amountInMg, am);
+  const b = factor(amountInMg, u.amount);
+  const t = timeFactor(tm, u.time);
+  return a === null || b === null || t === null ? null : (v * a) / b / t;
+}
+
+/** Infusion length from duration, or amount/rate; null for a bolus or when it cannot be read. */
+export function infusionLength(duration: unknown, rate: unknown, amount: unknown, u: UnitSet): number | null {
+  if (duration !== undefined) return timeValue(duration, u);
+  if (rate === undefined) return null;
+  const a = amountValue(amount, u);
+  const r = amountRateValue(rate, u);
+  return a === null || r === null || r <= 0 ? null : a / r;
+}
+
+/** Adds a time to a time quantity, keeping the unit of `base` when it can (for the loading-dose shift). */
+export function addTime(base: unknown, add: unknown, u: UnitSet): string | number | null {
+  const addV = timeValue(add, u);
+  const baseV = timeValue(base ?? 0, u);
+  if (addV === null || baseV === null) return null;
+  const total = baseV + addV;
+  // Keep the unit the interval was written in, which is usually the one people think in.
+  if (typeof add === 'string') {
+    const m = numberThenUnit.exec(add);
+    if (m && m[2] !== '') {
+      const f = timeFactor(u.time, m[2]);
+      if (f !== null) return `${tidy(total * f)} ${m[2]}`;
+    }
+  }
+  return tidy(total);
+}
+
+/** Doubles an amount, keeping its unit. */
+export function scaleQuantity(q: unknown, by: number): string | number | null {
+  if (typeof q === 'number') return tidy(q * by);
+  if (typeof q !== 'string') return null;
+  const m = numberThenUnit.exec(q);
+  if (!m) return null;
+  const v = tidy(Number(m[1]) * by);
+  return m[2] === '' ? v : `${v} ${m[2]}`;
+}
+
+/** Rounds away binary noise (0.1 + 0.2) without touching meaningful digits. */
+function tidy(v: number): number {
+  return Number(v.toPrecision(12));
+}
