@@ -39,7 +39,8 @@ export class CompartmentSystem implements OdeSystem {
   /** The first-order part as a dense row-major matrix (for the exact path and the Jacobian). */
   readonly linearMatrix: Float64Array;
   readonly linear: boolean;
-  private readonly rows: Int32Array;
+  /** The first-order part row by row (compressed sparse rows): row i is entries rowStart[i]..rowStart[i+1). */
+  private readonly rowStart: Int32Array;
   private readonly cols: Int32Array;
   private readonly vals: Float64Array;
   private readonly mmFrom: Int32Array;
@@ -74,8 +75,11 @@ export class CompartmentSystem implements OdeSystem {
     this.linear = saturable.length === 0;
 
     const entries: number[] = [];
-    for (let i = 0; i < n * n; i++) if (m[i] !== 0) entries.push(i);
-    this.rows = Int32Array.from(entries, (e) => Math.floor(e / n));
+    this.rowStart = new Int32Array(n + 1);
+    for (let i = 0; i < n; i++) {
+      for (let j = 0; j < n; j++) if (m[i * n + j] !== 0) entries.push(i * n + j);
+      this.rowStart[i + 1] = entries.length;
+    }
     this.cols = Int32Array.from(entries, (e) => e % n);
     this.vals = Float64Array.from(entries, (e) => m[e]);
     this.mmFrom = Int32Array.from(saturable, (s) => s.from);
@@ -87,11 +91,15 @@ export class CompartmentSystem implements OdeSystem {
 
   derivative(_t: number, y: Float64Array, out: Float64Array): void {
     const n = this.dimension;
-    for (let i = 0; i < n; i++) out[i] = this.input[i];
-    const rows = this.rows;
+    const input = this.input;
+    const start = this.rowStart;
     const cols = this.cols;
     const vals = this.vals;
-    for (let e = 0; e < vals.length; e++) out[rows[e]] += vals[e] * y[cols[e]];
+    for (let i = 0; i < n; i++) {
+      let s = input[i];
+      for (let e = start[i]; e < start[i + 1]; e++) s += vals[e] * y[cols[e]];
+      out[i] = s;
+    }
     for (let s = 0; s < this.mmFrom.length; s++) {
       const from = this.mmFrom[s];
       // Amounts a hair below zero (solver noise) must not drive a saturable flux backwards.

@@ -118,7 +118,9 @@ export class DenseStore implements Trajectory {
     this.chunkOf[this.count] = chunk;
     this.offsets[this.count] = this.used;
     this.forms[this.count] = form;
-    this.chunks[chunk].set(coef.subarray(0, size), this.used);
+    const target = this.chunks[chunk];
+    const at = this.used;
+    for (let i = 0; i < size; i++) target[at + i] = coef[i];
     this.used += size;
     this.count++;
   }

@@ -150,29 +150,52 @@ export class StiffnessMonitor {
   }
 }
 
-/** A tableau unpacked into flat arrays, with each row's nonzero columns listed. */
+/** The nonzero entries of one coefficient row: stage indices and weights. */
+interface SparseRow {
+  readonly cols: Int32Array;
+  readonly vals: Float64Array;
+}
+
+/** A tableau unpacked into sparse rows, so the stepping loops touch only nonzero coefficients. */
 interface Compiled {
   readonly tab: ExplicitTableau;
   readonly total: number;
   readonly end: number;
-  /** For full-stage row r: columns and coefficients of its nonzero a-entries. */
-  readonly rowCols: readonly Int32Array[];
-  readonly rowVals: readonly Float64Array[];
+  /** Full-stage row r of a (main stages, then f(t+h, y1) if not FSAL, then the dense stages). */
+  readonly rows: readonly SparseRow[];
   readonly rowC: Float64Array;
-  readonly b: Float64Array;
-  readonly e: Float64Array | null;
-  readonly e3: Float64Array | null;
-  readonly d: readonly Float64Array[];
+  readonly b: SparseRow;
+  readonly e: SparseRow | null;
+  readonly e3: SparseRow | null;
+  readonly d: readonly SparseRow[];
   readonly form: DenseForm;
 }
 
-const compiledCache = new WeakMap<ExplicitTableau, Compiled>();
-
-function padded(row: readonly number[], length: number): Float64Array {
-  const out = new Float64Array(length);
-  for (let j = 0; j < row.length && j < length; j++) out[j] = row[j];
-  return out;
+function sparse(row: readonly number[]): SparseRow {
+  const cols: number[] = [];
+  const vals: number[] = [];
+  row.forEach((v, j) => {
+    if (v !== 0) {
+      cols.push(j);
+      vals.push(v);
+    }
+  });
+  return { cols: Int32Array.from(cols), vals: Float64Array.from(vals) };
 }
+
+/** out = base + scale·Σ_q vals[q]·k_{cols[q]} (base null: zero), stage by stage. */
+function combine(k: Float64Array, n: number, row: SparseRow, scale: number, base: Float64Array | null, out: Float64Array): void {
+  if (base) for (let i = 0; i < n; i++) out[i] = base[i];
+  else for (let i = 0; i < n; i++) out[i] = 0;
+  const { cols, vals } = row;
+  for (let q = 0; q < cols.length; q++) {
+    const w = scale * vals[q];
+    const at = cols[q] * n;
+    for (let i = 0; i < n; i++) out[i] += w * k[at + i];
+  }
+}
+
+const compiledCache = new WeakMap<ExplicitTableau, Compiled>();
 
 function compile(tab: ExplicitTableau): Compiled {
   const cached = compiledCache.get(tab);
@@ -188,31 +211,16 @@ function compile(tab: ExplicitTableau): Compiled {
     rows.push(...tab.dense.extraA);
     nodes.push(...tab.dense.extraC);
   }
-  const rowCols: Int32Array[] = [];
-  const rowVals: Float64Array[] = [];
-  for (const row of rows) {
-    const cols: number[] = [];
-    const vals: number[] = [];
-    row.forEach((v, j) => {
-      if (v !== 0) {
-        cols.push(j);
-        vals.push(v);
-      }
-    });
-    rowCols.push(Int32Array.from(cols));
-    rowVals.push(Float64Array.from(vals));
-  }
   const compiled: Compiled = {
     tab,
     total,
     end: endSlopeIndex(tab),
-    rowCols,
-    rowVals,
+    rows: rows.map(sparse),
     rowC: Float64Array.from(nodes),
-    b: padded(tab.b, total),
-    e: tab.e ? padded(tab.e, total) : null,
-    e3: tab.e3 ? padded(tab.e3, total) : null,
-    d: tab.dense ? tab.dense.d.map((r) => padded(r, total)) : [],
+    b: sparse(tab.b),
+    e: tab.e ? sparse(tab.e) : null,
+    e3: tab.e3 ? sparse(tab.e3) : null,
+    d: tab.dense ? tab.dense.d.map(sparse) : [],
     form: tab.dense ? alternatingForm(4 + tab.dense.d.length) : hermiteForm,
   };
   compiledCache.set(tab, compiled);
@@ -232,6 +240,9 @@ interface Work {
   /** Argument of the stiffness-test stage. */
   readonly yStiff: Float64Array;
   readonly scale: Float64Array;
+  /** Error vectors of the embedded estimates (and scratch for dense rows). */
+  readonly err: Float64Array;
+  readonly err3: Float64Array;
   readonly coef: Float64Array;
 }
 
@@ -258,21 +269,16 @@ function freshWork(cm: Compiled, n: number): Work {
     arg: new Float64Array(n),
     yStiff: new Float64Array(n),
     scale: new Float64Array(n),
+    err: new Float64Array(n),
+    err3: new Float64Array(n),
     coef: new Float64Array(cm.form.vectors * n),
   };
 }
 
 /** Evaluates full-stage row r at t + c_r h from y0, writing the argument to w.arg. */
 function evalStage(system: OdeSystem, cm: Compiled, w: Work, r: number, t: number, h: number, stats: SolverStats): void {
-  const { n, k, y0, arg } = w;
-  const cols = cm.rowCols[r];
-  const vals = cm.rowVals[r];
-  for (let i = 0; i < n; i++) {
-    let s = 0;
-    for (let q = 0; q < cols.length; q++) s += vals[q] * k[cols[q] * n + i];
-    arg[i] = y0[i] + h * s;
-  }
-  system.derivative(t + cm.rowC[r] * h, arg, w.stage[r]);
+  combine(w.k, w.n, cm.rows[r], h, w.y0, w.arg);
+  system.derivative(t + cm.rowC[r] * h, w.arg, w.stage[r]);
   stats.derivativeEvaluations++;
 }
 
@@ -291,37 +297,21 @@ function attemptStep(system: OdeSystem, cm: Compiled, w: Work, t: number, h: num
     w.y1.set(w.arg);
     return;
   }
-  const { n, k, y0, y1 } = w;
-  const b = cm.b;
-  for (let i = 0; i < n; i++) {
-    let sum = 0;
-    for (let j = 0; j < s; j++) if (b[j] !== 0) sum += b[j] * k[j * n + i];
-    y1[i] = y0[i] + h * sum;
-  }
+  combine(w.k, w.n, cm.b, h, w.y0, w.y1);
 }
 
 /** Scaled RMS error (Hairer); DOP853's combined 5th/3rd-order estimate when e3 is present. */
 function errorNorm(cm: Compiled, w: Work, h: number, rtol: number, atol: number): number {
-  const { n, k, y0, y1, scale } = w;
+  const { n, k, y0, y1, scale, err, err3 } = w;
   fillScale(y0, y1, rtol, atol, scale);
-  const e = cm.e;
-  if (!e) return 0;
-  const e3 = cm.e3;
-  const s = cm.tab.stages;
+  if (!cm.e) return 0;
+  combine(k, n, cm.e, h, null, err);
   let sum5 = 0;
+  for (let i = 0; i < n; i++) sum5 += (err[i] / scale[i]) ** 2;
+  if (!cm.e3) return Math.sqrt(sum5 / n);
+  combine(k, n, cm.e3, h, null, err3);
   let sum3 = 0;
-  for (let i = 0; i < n; i++) {
-    let err = 0;
-    let err3 = 0;
-    for (let j = 0; j < s; j++) {
-      const kj = k[j * n + i];
-      err += e[j] * kj;
-      if (e3) err3 += e3[j] * kj;
-    }
-    sum5 += ((h * err) / scale[i]) ** 2;
-    sum3 += ((h * err3) / scale[i]) ** 2;
-  }
-  if (!e3) return Math.sqrt(sum5 / n);
+  for (let i = 0; i < n; i++) sum3 += (err3[i] / scale[i]) ** 2;
   const deno = sum5 + 0.01 * sum3;
   return deno > 0 ? sum5 / Math.sqrt(n * deno) : 0;
 }
@@ -352,13 +342,8 @@ function denseCoefficients(system: OdeSystem, cm: Compiled, w: Work, t: number, 
     coef[3 * n + i] = delta - h * f1[i] - bspl;
   }
   for (let v = 0; v < cm.d.length; v++) {
-    const d = cm.d[v];
-    const base = (4 + v) * n;
-    for (let i = 0; i < n; i++) {
-      let sum = 0;
-      for (let j = 0; j < cm.total; j++) if (d[j] !== 0) sum += d[j] * k[j * n + i];
-      coef[base + i] = h * sum;
-    }
+    combine(k, n, cm.d[v], h, null, w.err);
+    coef.set(w.err, (4 + v) * n);
   }
 }
 
