@@ -212,7 +212,6 @@ export function exposureFigures(model: Model, layout: StateLayout, probe: CurveP
   const slope = new Float64Array(n);
   const pair = new Float64Array(2);
   const timeTolerance = 1e-10 * Math.max(1, Math.abs(model.end), Math.abs(model.start));
-  let breakpoint = 0;
   let aucNow: Float64Array = new Float64Array(n);
 
   const closeInterval = (pc: (typeof perCompartment)[number], t: number, c: number, trough: boolean) => {
@@ -237,11 +236,43 @@ export function exposureFigures(model: Model, layout: StateLayout, probe: CurveP
     });
   };
 
+  // Context of the pair being refined, read by the two functions below (made once, not per pair).
+  const ctx = { index: 0, volume: 1, level: 0, inside: 0 };
+  const triple = new Float64Array(3);
+  const concentrationAt = (t: number, out: Float64Array, curvature: boolean) => {
+    probe.trajectory.stateAt(t, 'right', probe.state);
+    probe.slopeOf(probe.state, ctx.inside, probe.slope);
+    out[0] = probe.state[ctx.index] / ctx.volume;
+    out[1] = probe.slope[ctx.index] / ctx.volume;
+    if (curvature) {
+      probe.updateCurvature();
+      out[2] = probe.curvature[ctx.index] / ctx.volume;
+    }
+  };
+  const slopeFunction = (t: number, out: Float64Array) => {
+    concentrationAt(t, triple, true);
+    out[0] = triple[1];
+    out[1] = triple[2];
+  };
+  const levelFunction = (t: number, out: Float64Array) => {
+    concentrationAt(t, pair, false);
+    out[0] = pair[0] - ctx.level;
+    out[1] = pair[1];
+  };
+
+  const bps = schedule.breakpoints;
+  let bp = 0;
+  let ratesOf = -1;
   probe.trajectory.sample(rowTimes, rowSides, (row, state) => {
     const t = rowTimes[row];
-    const side = rowSides[row] === 0 ? 'left' : 'right';
-    breakpoint = probe.breakpointAt(t, side);
-    probe.slopeOf(state, breakpoint, slope);
+    const left = rowSides[row] === 0;
+    // Rows ascend, so the breakpoint in force only moves forward.
+    while (bp + 1 < bps.length && (left ? bps[bp + 1].time < t : bps[bp + 1].time <= t)) bp++;
+    if (ratesOf !== bp) {
+      probe.useRatesOf(bp);
+      ratesOf = bp;
+    }
+    probe.system.derivative(t, state, slope);
     aucNow = state;
     const boundary = isBoundary.has(t);
     const soleRow = !isBreakpoint.has(t) || t === model.start;
@@ -250,9 +281,15 @@ export function exposureFigures(model: Model, layout: StateLayout, probe: CurveP
       const c = state[i] / pc.volume;
       const s = slope[i] / pc.volume;
       if (t > pc.prevT) {
-        scanPair(pc, pc.prevT, pc.prevC, pc.prevS, t, c, s, breakpoint, side);
+        // Inside (prevT, t) the rates are those in force just before t.
+        const inside = left || !isBreakpoint.has(t) ? bp : bp - 1;
+        scanPair(pc, pc.prevT, pc.prevC, pc.prevS, t, c, s, inside);
+        if (ratesOf !== bp) {
+          probe.useRatesOf(bp);
+          ratesOf = bp;
+        }
       }
-      if (boundary && (side === 'left' || soleRow)) {
+      if (boundary && (left || soleRow)) {
         pc.current?.see(t, c);
         closeInterval(pc, t, c, true);
         pc.current = new Accumulator(t, pc.levels.length, state[layout.auc[i]]);
@@ -268,87 +305,49 @@ export function exposureFigures(model: Model, layout: StateLayout, probe: CurveP
     }
   });
 
-  function scanPair(
-    pc: (typeof perCompartment)[number],
-    a: number,
-    ca: number,
-    sa: number,
-    b: number,
-    cb: number,
-    sb: number,
-    bpIndex: number,
-    sideB: 'left' | 'right',
-  ): void {
-    // Rates in force inside (a, b): those of the breakpoint at or before a.
-    const inside = sideB === 'left' ? bpIndex : probe.breakpointAt(b, 'left');
-    const i = pc.index;
-    const v = pc.volume;
-    const concentrationAt = (t: number, out: Float64Array, curvature: boolean) => {
-      probe.trajectory.stateAt(t, 'right', probe.state);
-      probe.slopeOf(probe.state, inside, probe.slope);
-      out[0] = probe.state[i] / v;
-      out[1] = probe.slope[i] / v;
-      if (curvature) {
-        probe.updateCurvature();
-        out[2] = probe.curvature[i] / v;
-      }
-    };
-    const parts: [number, number, number, number, number, number][] = [];
-    if ((sa > 0 && sb < 0) || (sa < 0 && sb > 0)) {
-      const triple = new Float64Array(3);
-      const tStar = refineRoot(
-        (t, out) => {
-          concentrationAt(t, triple, true);
-          out[0] = triple[1];
-          out[1] = triple[2];
-        },
-        a,
-        b,
-        sa,
-        sb,
-        NaN,
-        NaN,
-        timeTolerance,
-      );
-      concentrationAt(tStar, triple, false);
-      const cStar = triple[0];
-      pc.current?.see(tStar, cStar);
-      pc.overall.see(tStar, cStar);
-      parts.push([a, ca, sa, tStar, cStar, 0], [tStar, cStar, 0, b, cb, sb]);
-    } else {
-      parts.push([a, ca, sa, b, cb, sb]);
+  function scanPair(pc: (typeof perCompartment)[number], a: number, ca: number, sa: number, b: number, cb: number, sb: number, inside: number): void {
+    if (!((sa > 0 && sb < 0) || (sa < 0 && sb > 0))) {
+      if (pc.levels.length > 0) scanMonotone(pc, a, ca, sa, b, cb, sb, inside);
+      return;
     }
-    for (const [p, cp, sp, q, cq, sq] of parts) {
-      pc.levels.forEach((level, li) => {
-        const L = level.value;
-        const dp = cp - L;
-        const dq = cq - L;
-        let over = 0;
-        if (dp >= 0 && dq >= 0) over = q - p;
-        else if ((dp < 0 && dq > 0) || (dp > 0 && dq < 0)) {
-          const tc = refineRoot(
-            (t, out) => {
-              concentrationAt(t, pair, false);
-              out[0] = pair[0] - L;
-              out[1] = pair[1];
-            },
-            p,
-            q,
-            dp,
-            dq,
-            sp,
-            sq,
-            timeTolerance,
-          );
-          over = dp > 0 ? tc - p : q - tc;
-          pc.crossingCount++;
-          if (pc.crossings.length < maxCrossingsListed) {
-            pc.crossings.push({ time: tc, threshold: level.threshold, edge: level.edge, direction: dp < 0 ? 'up' : 'down' });
-          }
+    ratesOf = -1;
+    ctx.index = pc.index;
+    ctx.volume = pc.volume;
+    ctx.inside = inside;
+    const tStar = refineRoot(slopeFunction, a, b, sa, sb, NaN, NaN, timeTolerance);
+    concentrationAt(tStar, triple, false);
+    const cStar = triple[0];
+    pc.current?.see(tStar, cStar);
+    pc.overall.see(tStar, cStar);
+    if (pc.levels.length > 0) {
+      scanMonotone(pc, a, ca, sa, tStar, cStar, 0, inside);
+      scanMonotone(pc, tStar, cStar, 0, b, cb, sb, inside);
+    }
+  }
+
+  /** Time over each level on a piece where C is monotone: at most one crossing per level. */
+  function scanMonotone(pc: (typeof perCompartment)[number], p: number, cp: number, sp: number, q: number, cq: number, sq: number, inside: number): void {
+    for (let li = 0; li < pc.levels.length; li++) {
+      const level = pc.levels[li];
+      const dp = cp - level.value;
+      const dq = cq - level.value;
+      let over = 0;
+      if (dp >= 0 && dq >= 0) over = q - p;
+      else if ((dp < 0 && dq > 0) || (dp > 0 && dq < 0)) {
+        ratesOf = -1;
+        ctx.index = pc.index;
+        ctx.volume = pc.volume;
+        ctx.inside = inside;
+        ctx.level = level.value;
+        const tc = refineRoot(levelFunction, p, q, dp, dq, sp, sq, timeTolerance);
+        over = dp > 0 ? tc - p : q - tc;
+        pc.crossingCount++;
+        if (pc.crossings.length < maxCrossingsListed) {
+          pc.crossings.push({ time: tc, threshold: level.threshold, edge: level.edge, direction: dp < 0 ? 'up' : 'down' });
         }
-        pc.overall.over[li] += over;
-        if (pc.current) pc.current.over[li] += over;
-      });
+      }
+      pc.overall.over[li] += over;
+      if (pc.current) pc.current.over[li] += over;
     }
   }
 
