@@ -7,7 +7,7 @@ import type { DenseForm } from './dense-store';
 import { IntegrationFailure } from './ode-system';
 import type { OdeSystem, SolverStats } from './ode-system';
 import { alternatingForm, endSlopeIndex, fullStageCount } from './tableau';
-import type { ExplicitTableau } from './tableau';
+import type { DenseSlope, ExplicitTableau } from './tableau';
 
 export interface AdaptiveOptions {
   rtol: number;
@@ -169,6 +169,8 @@ interface Compiled {
   readonly e3: SparseRow | null;
   readonly d: readonly SparseRow[];
   readonly form: DenseForm;
+  /** The tableau's dense check with the form whose slope it needs, or null. */
+  readonly denseCheck: { readonly weight: number; readonly form: DenseForm & DenseSlope } | null;
 }
 
 function sparse(row: readonly number[]): SparseRow {
@@ -222,6 +224,7 @@ function compile(tab: ExplicitTableau): Compiled {
     e3: tab.e3 ? sparse(tab.e3) : null,
     d: tab.dense ? tab.dense.d.map(sparse) : [],
     form: tab.dense ? alternatingForm(4 + tab.dense.d.length) : hermiteForm,
+    denseCheck: tab.denseCheck ? { weight: tab.denseCheck.weight, form: alternatingForm(4 + (tab.dense?.d.length ?? 0)) } : null,
   };
   compiledCache.set(tab, compiled);
   return compiled;
@@ -347,6 +350,23 @@ function denseCoefficients(system: OdeSystem, cm: Compiled, w: Work, t: number, 
   }
 }
 
+/**
+ * Scaled RMS of weight·h·(p'(t_m) − f(t_m, p(t_m))) at the middle of the step: how far the
+ * continuous extension strays from the differential equation between the steps.
+ */
+function denseDefect(system: OdeSystem, cm: Compiled, w: Work, t: number, h: number, stats: SolverStats, weight: number): number {
+  const check = cm.denseCheck;
+  if (!check) return 0;
+  const { n, arg, err, err3, scale } = w;
+  check.form.evaluate(0.5, w.coef, 0, n, arg);
+  check.form.slope(0.5, w.coef, 0, n, err);
+  system.derivative(t + 0.5 * h, arg, err3);
+  stats.derivativeEvaluations++;
+  let sum = 0;
+  for (let i = 0; i < n; i++) sum += ((weight * (err[i] - h * err3[i])) / scale[i]) ** 2;
+  return Math.sqrt(sum / n);
+}
+
 /** h·‖f(y1) − k_stage‖ / ‖y1 − Y_stage‖, Hairer's estimate of h|λ|. */
 function stiffnessRatio(cm: Compiled, w: Work, h: number): number {
   const test = cm.tab.stiffness;
@@ -462,6 +482,19 @@ export function integrateAdaptive(
     const badEnd = firstNonFinite(f1);
     if (badEnd >= 0) throw nonFinite(t + hStep, badEnd, 'derivative');
     denseCoefficients(system, cm, w, t, hStep, stats);
+    if (cm.denseCheck) {
+      const defect = denseDefect(system, cm, w, t, hStep, stats, cm.denseCheck.weight);
+      const fd = defect ** (1 / tableau.order) / ctl.safety;
+      if (!(defect <= 1)) {
+        // The values between the steps would miss the tolerance: retry smaller, as for a step error.
+        stats.rejectedSteps++;
+        stats.denseRejections++;
+        rejectedLast = true;
+        h = hStep / Math.min(1 / ctl.facMin, Number.isFinite(fd) ? fd : 1 / ctl.facMin);
+        continue;
+      }
+      hNew = Math.min(hNew, hStep / Math.max(1 / ctl.facMax, fd));
+    }
     store.append(t, hStep, cm.form, w.coef);
     stats.acceptedSteps++;
     if (firstStep === 0) firstStep = hStep;

@@ -14,6 +14,8 @@ export interface OdeSystem {
 export interface SolverStats {
   acceptedSteps: number;
   rejectedSteps: number;
+  /** Of the rejected steps, those rejected because the values between the steps missed the tolerance. */
+  denseRejections: number;
   derivativeEvaluations: number;
   jacobianEvaluations: number;
   /** Linear solves' LU factorisations (stiff method only). */
@@ -26,6 +28,7 @@ export function emptyStats(): SolverStats {
   return {
     acceptedSteps: 0,
     rejectedSteps: 0,
+    denseRejections: 0,
     derivativeEvaluations: 0,
     jacobianEvaluations: 0,
     factorizations: 0,

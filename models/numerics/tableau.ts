@@ -64,19 +64,31 @@ export interface ExplicitTableau {
   /** Method-specific continuous extension; null means cubic Hermite from (y0, f0, y1, f1). */
   readonly dense: DenseOutputData | null;
   readonly stiffness: StiffnessTest | null;
+  /**
+   * Check of the continuous extension between steps: its defect p'(t) − f(t, p(t)) at
+   * θ = 0.5 is weighted by `weight`·h and held to the tolerance like the step error
+   * (defect control, Enright 1989, "A new error-control for initial value solvers",
+   * Appl. Math. Comput. 31). null when the interpolant is as accurate as the steps.
+   */
+  readonly denseCheck: { readonly weight: number } | null;
   readonly controller: ControllerSettings;
 }
 
-const formsByCount = new Map<number, DenseForm>();
+/** dp/dθ of a dense form (divide by h for the time derivative). */
+export interface DenseSlope {
+  slope(theta: number, coef: Float64Array, offset: number, n: number, out: Float64Array): void;
+}
+
+const formsByCount = new Map<number, DenseForm & DenseSlope>();
 
 /**
  * The nested form y0 + θ(v1 + θ'(v2 + θ(v3 + θ'(v4 + …)))) with θ' = 1 − θ used by Hairer's
  * DOPRI5 (5 vectors) and DOP853 (8 vectors); with 4 vectors it is the cubic Hermite form.
  */
-export function alternatingForm(vectors: number): DenseForm {
+export function alternatingForm(vectors: number): DenseForm & DenseSlope {
   const cached = formsByCount.get(vectors);
   if (cached) return cached;
-  const form: DenseForm = {
+  const form: DenseForm & DenseSlope = {
     vectors,
     evaluate(theta, coef, offset, n, out) {
       const theta1 = 1 - theta;
@@ -86,6 +98,20 @@ export function alternatingForm(vectors: number): DenseForm {
           acc = coef[offset + v * n + i] + ((v & 1) === 0 ? theta : theta1) * acc;
         }
         out[i] = acc;
+      }
+    },
+    // The same nesting differentiated: (a + φ·b)' = φ'·b + φ·b', with φ = θ (φ' = 1) or 1 − θ (φ' = −1).
+    slope(theta, coef, offset, n, out) {
+      const theta1 = 1 - theta;
+      for (let i = 0; i < n; i++) {
+        let acc = coef[offset + (vectors - 1) * n + i];
+        let dacc = 0;
+        for (let v = vectors - 2; v >= 0; v--) {
+          const even = (v & 1) === 0;
+          dacc = (even ? 1 : -1) * acc + (even ? theta : theta1) * dacc;
+          acc = coef[offset + v * n + i] + (even ? theta : theta1) * acc;
+        }
+        out[i] = dacc;
       }
     },
   };
