@@ -146,7 +146,7 @@ export function simulateModel(model: Model): Outcome<SimulationResult> {
   warnings.push(...fixedStepWarnings(model, dispo), ...negativeAmountWarnings(model, rows.times, series), ...beyondEndWarnings(model));
   const probe = new CurveProbe(solution.trajectory, system, schedule);
   const compartmentFigures = exposureFigures(model, system.layout, probe);
-  const steady = steadyStateFigures(model, system, stats);
+  const steady = guardedSteadyState(model, system, stats);
   if (steady && !steady.reached) warnings.push(steady.message);
 
   const units = resultUnits(model);
@@ -175,6 +175,25 @@ export function simulateModel(model: Model): Outcome<SimulationResult> {
       },
     },
   };
+}
+
+/** The steady-state search runs many extra integrations; a failure there must not lose the curves. */
+function guardedSteadyState(model: Model, system: CompartmentSystem, stats: SolverStats): SteadyStateFigures | null {
+  try {
+    return steadyStateFigures(model, system, stats);
+  } catch (e) {
+    const why = e instanceof IntegrationFailure ? numericalProblem(e, model, system.layout).message : e instanceof Error ? e.message : String(e);
+    return {
+      period: NaN,
+      lines: [],
+      reached: false,
+      message: `steady state not determined: the search over dosing cycles failed (${why})`,
+      method: 'iterated',
+      cycles: 0,
+      residual: NaN,
+      compartments: [],
+    };
+  }
 }
 
 export function resultUnits(model: Model): ResultUnits {

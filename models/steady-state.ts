@@ -133,6 +133,41 @@ function maxAbs(v: Float64Array, count: number): number {
   return m;
 }
 
+/**
+ * Compartments that receive drug from the maintenance doses but have no way out of the body,
+ * directly or through others: drug piles up there, so there is no steady state whatever the
+ * rates (checked on the graph, since I − e^{Mτ} is then only nearly singular in floating point).
+ */
+export function trappedCompartments(model: Model, lines: Model['doseLines']): number[] {
+  const n = model.compartments.length;
+  const next: number[][] = Array.from({ length: n }, () => []);
+  const previous: number[][] = Array.from({ length: n }, () => []);
+  const exits = new Set<number>();
+  for (const t of model.transfers) {
+    if (t.to === null) exits.add(t.from);
+    else {
+      next[t.from].push(t.to);
+      previous[t.to].push(t.from);
+    }
+  }
+  const walk = (starts: Iterable<number>, edges: number[][]): Set<number> => {
+    const seen = new Set<number>(starts);
+    const stack = [...seen];
+    while (stack.length > 0) {
+      for (const m of edges[stack.pop() as number]) {
+        if (!seen.has(m)) {
+          seen.add(m);
+          stack.push(m);
+        }
+      }
+    }
+    return seen;
+  };
+  const reached = walk(lines.map((l) => l.into), next);
+  const canLeave = walk(exits, previous);
+  return [...reached].filter((c) => !canLeave.has(c)).sort((a, b) => a - b);
+}
+
 /** Average bioavailable input rate of the cycle against the largest rate saturable elimination can reach. */
 function capacityProblem(model: Model, cycle: Administration[], period: number): string | null {
   if (model.transfers.some((t) => t.to === null && t.kinetics.kind === 'first-order')) return null;
@@ -182,6 +217,14 @@ export function steadyStateFigures(model: Model, system: CompartmentSystem, stat
   });
   if (period === null) {
     return notReached(NaN, 'no steady state computed: the dosing intervals of the repeating lines have no common period');
+  }
+  const trapped = trappedCompartments(model, lines);
+  if (trapped.length > 0) {
+    const names = trapped.map((c) => `'${model.compartments[c].id}'`).join(', ');
+    return notReached(
+      period,
+      `no steady state: ${names} ${trapped.length > 1 ? 'receive' : 'receives'} drug but ${trapped.length > 1 ? 'have' : 'has'} no way out of the body, directly or through other compartments, so drug accumulates without limit`,
+    );
   }
   const cycle = cycleAdministrations(lines, period);
   const capacity = capacityProblem(model, cycle, period);

@@ -33,11 +33,13 @@ export interface AdaptiveResult {
 const EPS = Number.EPSILON;
 
 /**
- * Smallest step allowed at time t. Hairer's codes stop when 0.1|h| ≤ |t|·uround;
- * the span term keeps the rule meaningful when the segment starts at t = 0.
+ * Smallest step allowed at time t: one that still changes t in floating point (Hairer's codes
+ * stop when 0.1|h| ≤ |t|·uround). Near t = 0 a tiny floor relative to the span keeps a step
+ * that keeps shrinking from running on for ever; it must not be larger than the tiny first
+ * steps a near-empty state with a large infusion rate legitimately asks for.
  */
 export function minimumStep(t: number, t1: number): number {
-  return 10 * EPS * Math.max(Math.abs(t), Math.abs(t1));
+  return 10 * EPS * Math.max(Math.abs(t), 1e-12 * Math.abs(t1 - t));
 }
 
 /** Index of the first non-finite entry, or −1. */
@@ -433,7 +435,9 @@ export function integrateAdaptive(
 
   const hMax = Math.min(options.maxStep ?? span, span);
   let h =
-    options.initialStep !== undefined && options.initialStep > 0
+    // A hint too small to make progress (the first step of a segment that began near zero) is
+    // replaced by the automatic estimate.
+    options.initialStep !== undefined && options.initialStep > 1e3 * minimumStep(t0, t1)
       ? Math.min(options.initialStep, hMax)
       : initialStepSize(system, t0, w.y0, f0, tableau.order, rtol, atol, hMax, w.y1, w.arg, stats);
 

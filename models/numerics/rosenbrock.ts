@@ -310,7 +310,9 @@ export function integrateRosenbrock(
 
   const hMax = Math.min(options.maxStep ?? span, span);
   let h =
-    options.initialStep !== undefined && options.initialStep > 0
+    // A hint too small to make progress (the first step of a segment that began near zero) is
+    // replaced by the automatic estimate.
+    options.initialStep !== undefined && options.initialStep > 1e3 * minimumStep(t0, t1)
       ? Math.min(options.initialStep, hMax)
       : initialStepSize(system, t0, wk.y0, wk.f0, tableau.order, rtol, atol, hMax, wk.y1, wk.arg, stats);
 
