@@ -2,7 +2,7 @@
  * The one stepping engine for every explicit Runge–Kutta tableau (tableau.ts): adaptive
  * with an embedded pair, or fixed-step. Work arrays are allocated once per call.
  */
-import { DenseStore, hermiteForm } from './dense-store';
+import { DenseStore, hermiteCoefficients, hermiteForm } from './dense-store';
 import type { DenseForm } from './dense-store';
 import { IntegrationFailure } from './ode-system';
 import type { OdeSystem, SolverStats } from './ode-system';
@@ -338,14 +338,7 @@ function denseCoefficients(system: OdeSystem, cm: Compiled, w: Work, t: number, 
   const f1 = w.stage[cm.end];
   const firstExtra = cm.end + 1;
   for (let r = firstExtra; r < cm.total; r++) evalStage(system, cm, w, r, t, h, stats);
-  for (let i = 0; i < n; i++) {
-    const delta = y1[i] - y0[i];
-    const bspl = h * f0[i] - delta;
-    coef[i] = y0[i];
-    coef[n + i] = delta;
-    coef[2 * n + i] = bspl;
-    coef[3 * n + i] = delta - h * f1[i] - bspl;
-  }
+  hermiteCoefficients(h, y0, f0, y1, f1, coef);
   for (let v = 0; v < cm.d.length; v++) {
     combine(k, n, cm.d[v], h, null, w.err);
     coef.set(w.err, (4 + v) * n);
@@ -398,6 +391,19 @@ function nonFinite(t: number, component: number, what: string): IntegrationFailu
   );
 }
 
+/** Loads y(t0) into the work arrays and evaluates the first slope, failing on non-finite values. */
+function startSegment(system: OdeSystem, w: Work, t0: number, y: Float64Array, stats: SolverStats): Float64Array {
+  w.y0.set(y);
+  const bad0 = firstNonFinite(w.y0);
+  if (bad0 >= 0) throw nonFinite(t0, bad0, 'initial value');
+  const f0 = w.stage[0];
+  system.derivative(t0, w.y0, f0);
+  stats.derivativeEvaluations++;
+  const badF = firstNonFinite(f0);
+  if (badF >= 0) throw nonFinite(t0, badF, 'derivative');
+  return f0;
+}
+
 /**
  * Adaptive integration of y from t0 to exactly t1 with an embedded pair. A trial step
  * that produces non-finite values is treated as rejected (the step shrinks); the failure
@@ -424,14 +430,7 @@ export function integrateAdaptive(
   const span = t1 - t0;
   if (span === 0) return { lastStep: options.initialStep ?? 0, firstStep: options.initialStep ?? 0, stiffAt: null };
 
-  w.y0.set(y);
-  const bad0 = firstNonFinite(w.y0);
-  if (bad0 >= 0) throw nonFinite(t0, bad0, 'initial value');
-  const f0 = w.stage[0];
-  system.derivative(t0, w.y0, f0);
-  stats.derivativeEvaluations++;
-  const badF = firstNonFinite(f0);
-  if (badF >= 0) throw nonFinite(t0, badF, 'derivative');
+  const f0 = startSegment(system, w, t0, y, stats);
 
   const hMax = Math.min(options.maxStep ?? span, span);
   let h =
@@ -548,12 +547,7 @@ export function integrateFixed(
   const n = system.dimension;
   const cm = compile(tableau);
   const w = makeWork(cm, n);
-  w.y0.set(y);
-  const bad0 = firstNonFinite(w.y0);
-  if (bad0 >= 0) throw nonFinite(t0, bad0, 'initial value');
-  const f0 = w.stage[0];
-  system.derivative(t0, w.y0, f0);
-  stats.derivativeEvaluations++;
+  const f0 = startSegment(system, w, t0, y, stats);
   // Tolerance on the count so that h = span/N gives exactly N steps despite rounding.
   const steps = Math.max(1, Math.ceil(span / h - 1e-9));
   for (let m = 0; m < steps; m++) {

@@ -11,6 +11,7 @@ import { IntegrationFailure } from './ode-system';
 import type { OdeSystem, SolverStats } from './ode-system';
 import { fastestComponent, fillScale, firstNonFinite, initialStepSize, minimumStep } from './explicit-rk';
 import type { Row } from './tableau';
+import { luFactor, luSolve } from '../linalg/lu';
 
 export interface RosenbrockTableau {
   readonly name: string;
@@ -84,57 +85,6 @@ export interface RosenbrockOptions {
   maxStep?: number;
 }
 
-/** In-place LU with partial pivoting of the row-major n×n matrix; false when singular. */
-function luFactor(a: Float64Array, n: number, piv: Int32Array): boolean {
-  for (let k = 0; k < n; k++) {
-    let p = k;
-    let max = Math.abs(a[k * n + k]);
-    for (let i = k + 1; i < n; i++) {
-      const v = Math.abs(a[i * n + k]);
-      if (v > max) {
-        max = v;
-        p = i;
-      }
-    }
-    piv[k] = p;
-    if (!(max > 0) || !Number.isFinite(max)) return false;
-    if (p !== k) {
-      for (let j = 0; j < n; j++) {
-        const tmp = a[k * n + j];
-        a[k * n + j] = a[p * n + j];
-        a[p * n + j] = tmp;
-      }
-    }
-    const inv = 1 / a[k * n + k];
-    for (let i = k + 1; i < n; i++) {
-      const l = (a[i * n + k] *= inv);
-      if (l !== 0) for (let j = k + 1; j < n; j++) a[i * n + j] -= l * a[k * n + j];
-    }
-  }
-  return true;
-}
-
-/** Solves (LU) x = b in place, with the row interchanges recorded by luFactor. */
-function luSolve(a: Float64Array, n: number, piv: Int32Array, b: Float64Array): void {
-  for (let k = 0; k < n; k++) {
-    const p = piv[k];
-    if (p !== k) {
-      const tmp = b[k];
-      b[k] = b[p];
-      b[p] = tmp;
-    }
-  }
-  for (let i = 1; i < n; i++) {
-    let s = b[i];
-    for (let j = 0; j < i; j++) s -= a[i * n + j] * b[j];
-    b[i] = s;
-  }
-  for (let i = n - 1; i >= 0; i--) {
-    let s = b[i];
-    for (let j = i + 1; j < n; j++) s -= a[i * n + j] * b[j];
-    b[i] = s / a[i * n + i];
-  }
-}
 
 /** Per-call work arrays. */
 interface Work {
