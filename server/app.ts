@@ -10,6 +10,7 @@ import { limits } from '../models/limits.ts';
 import { normaliseScenario } from '../models/normalize.ts';
 import { scenarioJsonSchema } from '../models/json-schema.ts';
 import type { Problem } from '../models/problems.ts';
+import { readReportRequest, reportFileNameOf } from './report/request.ts';
 import type { Sample } from './samples.ts';
 import type { SimulationPool } from './worker-pool.ts';
 
@@ -69,6 +70,23 @@ export function createApp(options: AppOptions): express.Express {
 
   api.post('/simulate', json, async (req: Request, res: Response) => {
     const reply = await options.pool.run({ kind: 'simulate', scenario: req.body, maxOutputPoints: options.limits.maxOutputPoints });
+    res.status(reply.status).type(reply.contentType).send(reply.body);
+  });
+
+  // The printable report: a plain scenario, or { scenario, reference }. PDF on success; the
+  // same JSON problems as /simulate otherwise (400 invalid, 422 numerical failure).
+  api.post('/report', json, async (req: Request, res: Response) => {
+    const request = readReportRequest(req.body);
+    const reply = await options.pool.run({ kind: 'report', scenario: request.scenario, reference: request.reference, maxOutputPoints: options.limits.maxOutputPoints });
+    if (reply.status === 200 && typeof reply.body !== 'string') {
+      res
+        .status(200)
+        .type('application/pdf')
+        .set('Content-Disposition', `attachment; filename="${reportFileNameOf(request.scenario)}"`)
+        .set('Cache-Control', 'no-store')
+        .send(Buffer.from(reply.body.buffer, reply.body.byteOffset, reply.body.byteLength));
+      return;
+    }
     res.status(reply.status).type(reply.contentType).send(reply.body);
   });
 

@@ -1,11 +1,12 @@
 /**
- * Command line: simulate, validate, schema. Exit 0 on success, 1 when the scenario is
+ * Command line: simulate, report, validate, schema. Exit 0 on success, 1 when the scenario is
  * invalid or the computation fails, 2 on a usage error. Errors go to stderr as
  * "path: message" lines, never as stack traces.
  */
 import { readFileSync, writeFileSync } from 'node:fs';
 import { summaryText } from '../models/summary-text.ts';
 import { describeProblems, normaliseScenario, resultToCsv, resultToJsonText, scenarioJsonSchema, simulate, type Problem } from '../models/index.ts';
+import { buildReport } from './report/report.ts';
 
 const usage = `Tidemark — pharmacokinetic compartment-model simulator
 
@@ -13,6 +14,10 @@ usage:
   tidemark simulate FILE [--format json|csv|text] [--out FILE]
                                  simulate a scenario (JSON result on stdout by default;
                                  text = a readable summary of the figures)
+  tidemark report FILE [--out report.pdf] [--reference FILE]
+                                 write the printable concentration report (PDF; by default
+                                 tidemark-<title>-<fingerprint>.pdf here); a reference
+                                 scenario is drawn dashed over the curves
   tidemark validate FILE                                     check a scenario and list every problem
   tidemark schema                                            print the JSON Schema of the scenario format
 
@@ -24,6 +29,8 @@ export interface CliOutcome {
   stderr: string;
   /** File to write instead of stdout. */
   file?: { path: string; text: string };
+  /** A binary file to write (the PDF report). */
+  binaryFile?: { path: string; bytes: Uint8Array };
 }
 
 function readScenario(path: string | undefined): { ok: true; value: unknown } | { ok: false; message: string } {
@@ -98,6 +105,24 @@ export function runCli(args: string[]): CliOutcome {
         ? { code: 0, stdout: '', stderr: warnings + `wrote ${out}\n`, file: { path: out, text } }
         : { code: 0, stdout: text, stderr: warnings };
     }
+    case 'report': {
+      const unknown = [...options.keys()].filter((k) => k !== 'out' && k !== 'reference');
+      if (unknown.length > 0) return fail(`unknown option --${unknown[0]}`);
+      if (positional.length > 1) return fail(`unexpected argument '${positional[1]}'`);
+      const input = readScenario(positional[0]);
+      if (!input.ok) return fail(input.message);
+      const referenceFile = options.get('reference');
+      let reference: unknown;
+      if (referenceFile !== undefined) {
+        const read = readScenario(referenceFile);
+        if (!read.ok) return fail(read.message);
+        reference = read.value;
+      }
+      const report = buildReport(reference === undefined ? { scenario: input.value } : { scenario: input.value, reference });
+      if (!report.ok) return problems(report.problems, positional[0]);
+      const out = options.get('out') ?? report.fileName;
+      return { code: 0, stdout: '', stderr: `wrote ${out} (${report.pages} pages, scenario fingerprint ${report.fingerprint})\n`, binaryFile: { path: out, bytes: report.bytes } };
+    }
     case undefined:
     case 'help':
     case '--help':
@@ -117,11 +142,12 @@ function main(): void {
     process.exitCode = 1;
     return;
   }
-  if (outcome.file) {
+  const file = outcome.file ? { path: outcome.file.path, data: outcome.file.text } : outcome.binaryFile ? { path: outcome.binaryFile.path, data: outcome.binaryFile.bytes } : null;
+  if (file) {
     try {
-      writeFileSync(outcome.file.path, outcome.file.text);
+      writeFileSync(file.path, file.data);
     } catch (e) {
-      process.stderr.write(`cannot write '${outcome.file.path}': ${(e as Error).message}\n`);
+      process.stderr.write(`cannot write '${file.path}': ${(e as Error).message}\n`);
       process.exitCode = 1;
       return;
     }

@@ -1,14 +1,18 @@
 /** Messages between the HTTP thread and the simulation workers. */
 export interface JobRequest {
   id: number;
-  kind: 'simulate';
+  /** 'simulate': the result as JSON; 'report': the printable report as PDF bytes. */
+  kind: 'simulate' | 'report';
   scenario: unknown;
   maxOutputPoints: number;
+  /** Report only: a reference scenario drawn dashed over the first. */
+  reference?: unknown;
 }
 
 export interface JobReply {
   id: number;
   status: number;
   contentType: string;
-  body: string;
+  /** Text (JSON), or the bytes of a binary answer such as a PDF (moved, not copied, between threads). */
+  body: string | Uint8Array;
 }

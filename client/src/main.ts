@@ -19,6 +19,7 @@ import { OutputForm } from './output-form.ts';
 import { PlotControls } from './plot-controls.ts';
 import { PlotView } from './plot.ts';
 import { RegimenForm } from './regimen-form.ts';
+import { addReportButton } from './report.ts';
 import { emptyScenario, formProblem, ScenarioStore, type ScenarioDoc } from './store.ts';
 import { renderTimeline } from './timeline.ts';
 
@@ -247,6 +248,16 @@ fileInput.addEventListener('change', async () => {
 byId('save-json').addEventListener('click', () => {
   saveScenario(store.scenario);
   announce('Saved the scenario as JSON.');
+});
+
+// The printable report of the scenario on screen, with the kept reference when there is one.
+addReportButton(exportButton, {
+  scenario: () => store.scenario,
+  reference: () => compare.reference?.scenario ?? null,
+  announce,
+  showInvalid: (problems) => errors.showInvalid(problems),
+  showFailure: (problems) => errors.showFailure(problems),
+  showMessage: (text, title) => errors.showMessage(text, title),
 });
 
 exportButton.addEventListener('click', () => {

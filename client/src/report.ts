@@ -1,0 +1,125 @@
+/**
+ * "Download report": sends the scenario on screen (and the kept compare reference, when
+ * there is one) to /api/report and saves the PDF the server answers. Problems come back as
+ * for a run: beside their fields (400) or in the summary (422, busy, unreachable).
+ */
+import type { Problem } from './api.ts';
+import { unreachable } from './api.ts';
+import { h } from './dom.ts';
+
+export type ReportOutcome =
+  | { kind: 'ok'; blob: Blob; filename: string }
+  | { kind: 'invalid'; problems: Problem[] }
+  | { kind: 'failed'; problems: Problem[] }
+  | { kind: 'message'; text: string };
+
+/** The file name from `Content-Disposition: attachment; filename="…"`, or a fallback. */
+export function filenameFrom(header: string | null, fallback: string): string {
+  const match = header ? /filename="([^"]+)"/.exec(header) : null;
+  return match ? match[1] : fallback;
+}
+
+function problemsOf(body: unknown): Problem[] {
+  const list = (body as { problems?: unknown } | null)?.problems;
+  if (!Array.isArray(list)) return [];
+  return list
+    .filter((p): p is Problem => typeof p === 'object' && p !== null && typeof (p as Problem).message === 'string')
+    .map((p) => ({ path: typeof p.path === 'string' ? p.path : '', message: p.message }));
+}
+
+export async function requestReport(scenario: unknown, reference: unknown | null): Promise<ReportOutcome> {
+  let res: Response;
+  try {
+    res = await fetch('api/report', {
+      method: 'POST',
+      headers: { 'content-type': 'application/json', accept: 'application/pdf, application/json' },
+      body: JSON.stringify(reference === null ? scenario : { scenario, reference }),
+    });
+  } catch {
+    return { kind: 'message', text: unreachable };
+  }
+  if (res.status === 200 && (res.headers.get('content-type') ?? '').includes('application/pdf')) {
+    const blob = await res.blob();
+    return { kind: 'ok', blob, filename: filenameFrom(res.headers.get('content-disposition'), 'tidemark-report.pdf') };
+  }
+  let body: unknown = null;
+  try {
+    body = await res.json();
+  } catch {
+    body = null;
+  }
+  const problems = problemsOf(body);
+  switch (res.status) {
+    case 400:
+      return problems.length ? { kind: 'invalid', problems } : { kind: 'message', text: 'The server did not accept the scenario.' };
+    case 422:
+      return { kind: 'failed', problems: problems.length ? problems : [{ path: '', message: 'The computation did not finish.' }] };
+    case 413:
+      return { kind: 'message', text: 'The scenario is too large for the server to accept.' };
+    case 503:
+      return { kind: 'message', text: 'The server is busy with other simulations. Wait a moment and try again.' };
+    default:
+      return { kind: 'message', text: `The server could not make the report (status ${res.status}). Try again in a moment.` };
+  }
+}
+
+function save(blob: Blob, filename: string): void {
+  const url = URL.createObjectURL(blob);
+  const a = h('a', { href: url, download: filename, class: 'visually-hidden' });
+  document.body.append(a);
+  a.click();
+  a.remove();
+  setTimeout(() => URL.revokeObjectURL(url), 1000);
+}
+
+export interface ReportHooks {
+  /** The scenario as it stands in the forms. */
+  scenario: () => unknown;
+  /** The kept reference's scenario, or null. */
+  reference: () => unknown | null;
+  announce: (message: string) => void;
+  showInvalid: (problems: Problem[]) => void;
+  showFailure: (problems: Problem[]) => void;
+  showMessage: (text: string, title: string) => void;
+}
+
+/** Adds the button after `anchor` (the CSV export) and wires it. */
+export function addReportButton(anchor: HTMLElement, hooks: ReportHooks): HTMLButtonElement {
+  const button = h(
+    'button',
+    { type: 'button', id: 'download-report', 'data-testid': 'download-report', title: 'A printable PDF of the scenario on screen: model, regimen, plots, figures and the check of the numbers' },
+    'Download report',
+  );
+  anchor.after(button);
+  button.addEventListener('click', async () => {
+    if (button.getAttribute('aria-busy') === 'true') return;
+    button.setAttribute('aria-busy', 'true');
+    button.disabled = true;
+    const reference = hooks.reference();
+    hooks.announce(reference === null ? 'Making the report…' : 'Making the report, with the kept reference drawn dashed…');
+    try {
+      const outcome = await requestReport(structuredClone(hooks.scenario()), reference);
+      switch (outcome.kind) {
+        case 'ok':
+          save(outcome.blob, outcome.filename);
+          hooks.announce(`Downloaded the report as ${outcome.filename}.`);
+          break;
+        case 'invalid':
+          hooks.showInvalid(outcome.problems);
+          hooks.announce('No report: the scenario has problems, listed with the fields.');
+          break;
+        case 'failed':
+          hooks.showFailure(outcome.problems);
+          hooks.announce('No report: the simulation could not be completed.');
+          break;
+        case 'message':
+          hooks.showMessage(outcome.text, 'No report');
+          break;
+      }
+    } finally {
+      button.removeAttribute('aria-busy');
+      button.disabled = false;
+    }
+  });
+  return button;
+}

@@ -1,0 +1,73 @@
+// `tidemark report FILE --out report.pdf`: in-process for content, one real subprocess for
+// the written file and the exit code. Exit codes as the other commands: 0 written, 1 invalid
+// scenario or failed computation, 2 usage error.
+import { spawnSync } from 'node:child_process';
+import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { scenarioFingerprint } from '../../models/fingerprint.ts';
+import { runCli } from '../../server/cli.ts';
+import { pdfPages, readSample, removeTempFiles, root } from './helpers.ts';
+
+const velarin = join(root, 'samples/velarin-oral-bid.json');
+let dir: string;
+
+beforeAll(() => {
+  dir = mkdtempSync(join(tmpdir(), 'tidemark-cli-report-'));
+});
+afterAll(() => {
+  rmSync(dir, { recursive: true, force: true });
+  removeTempFiles();
+});
+
+describe('report command', () => {
+  it('returns the PDF to write at --out', () => {
+    const target = join(dir, 'in-process.pdf');
+    const out = runCli(['report', velarin, '--out', target]);
+    expect(out.code).toBe(0);
+    expect(out.binaryFile?.path).toBe(target);
+    const bytes = out.binaryFile?.bytes ?? new Uint8Array();
+    expect(Buffer.from(bytes.subarray(0, 5)).toString('latin1')).toBe('%PDF-');
+    expect(out.stderr).toContain(`wrote ${target}`);
+    expect(out.stderr).toContain(scenarioFingerprint(readSample('velarin-oral-bid')));
+  });
+
+  it('names the file after the title and fingerprint when --out is not given', () => {
+    const out = runCli(['report', velarin]);
+    expect(out.code).toBe(0);
+    expect(out.binaryFile?.path).toBe(`tidemark-velarin-400-mg-by-mouth-twice-daily-${scenarioFingerprint(readSample('velarin-oral-bid'))}.pdf`);
+  });
+
+  it('draws a reference given with --reference', () => {
+    const other = join(dir, 'reference.json');
+    writeFileSync(other, JSON.stringify({ ...readSample('velarin-oral-bid'), title: 'Velarin reference run' }));
+    const out = runCli(['report', velarin, '--out', join(dir, 'ref.pdf'), '--reference', other]);
+    expect(out.code).toBe(0);
+    const text = pdfPages(out.binaryFile?.bytes ?? new Uint8Array()).join('\n');
+    expect(text).toContain('Velarin reference run');
+  });
+
+  it('exits 1 with path: message lines for an invalid scenario', () => {
+    const bad = join(dir, 'bad.json');
+    writeFileSync(bad, JSON.stringify({ ...readSample('velarin-oral-bid'), doses: [{ into: 'tisue', amount: 100 }] }));
+    const out = runCli(['report', bad, '--out', join(dir, 'never.pdf')]);
+    expect(out.code).toBe(1);
+    expect(out.binaryFile).toBeUndefined();
+    expect(out.stderr).toContain("doses[0].into: no compartment named 'tisue'");
+  });
+
+  it('exits 2 for usage errors', () => {
+    expect(runCli(['report']).code).toBe(2);
+    expect(runCli(['report', velarin, '--format', 'pdf']).code).toBe(2);
+    expect(runCli(['report', join(dir, 'missing.json')]).code).toBe(2);
+  });
+
+  it('writes the file from a real process and exits 0', () => {
+    const target = join(dir, 'process.pdf');
+    const done = spawnSync('npx', ['tsx', 'server/cli.ts', 'report', velarin, '--out', target], { cwd: root, encoding: 'utf8' });
+    expect(done.status).toBe(0);
+    expect(existsSync(target)).toBe(true);
+    expect(readFileSync(target).subarray(0, 5).toString('latin1')).toBe('%PDF-');
+  });
+});
