@@ -186,7 +186,7 @@ function capacityProblem(model: Model, cycle: Administration[], period: number):
 /**
  * The repeating lines that make up the maintenance regimen: those still running at the
  * end of the span (so a dose change counts from its new dose), or, when every line has
- * stopped, all of them (the regimen as if continued).
+ * stopped, those still running at the last dose (the regimen as if continued).
  */
 export function maintenanceLines(model: Model): Model['doseLines'] {
   const repeating = model.doseLines.filter((l) => l.every !== null && l.count > 0);
@@ -195,7 +195,12 @@ export function maintenanceLines(model: Model): Model['doseLines'] {
     const lastGiven = l.firstGiven + (l.count - 1) * every;
     return l.beyondEnd > 0 || lastGiven + every >= model.end - 1e-9 * every;
   });
-  return running.length > 0 ? running : repeating;
+  if (running.length > 0 || repeating.length === 0) return running;
+  // All stopped before the end (a washout is being watched): the regimen that was given last,
+  // not a loading series that ended earlier.
+  const lastGiven = (l: Model['doseLines'][number]) => l.firstGiven + (l.count - 1) * (l.every as number);
+  const latest = Math.max(...repeating.map(lastGiven));
+  return repeating.filter((l) => lastGiven(l) + (l.every as number) > latest);
 }
 
 export function steadyStateFigures(model: Model, system: CompartmentSystem, stats: SolverStats): SteadyStateFigures | null {
@@ -235,21 +240,25 @@ export function steadyStateFigures(model: Model, system: CompartmentSystem, stat
   const cycleStats: SolverStats = { ...stats };
   const map = cycleMap(model, system, schedule, cycleStats);
   const first = map.run(new Float64Array(nc));
-  const found = choosePath(model) === 'exact' ? closedForm(system, period, first) : iterate(model, map, first);
+  const dosePerCycle = cycle.reduce((sum, a) => sum + a.amount, 0);
+  const found =
+    choosePath(model) === 'exact'
+      ? closedForm(system, period, first)
+      : iterate(model, map, first, system.layout.eliminated, dosePerCycle);
   if (!found.ok) return notReached(period, found.message, map.runs);
 
   const periodic = found.state;
-  const approach = approachToSteadyState(model, system, map, first, periodic);
   const cycleModel: Model = { ...model, administrations: cycle, start: 0, end: period };
   const run = solveSchedule(cycleModel, system, schedule, padState(periodic, system.dimension), cycleStats);
   const figures = exposureFigures(cycleModel, system.layout, new CurveProbe(run.trajectory, system, schedule));
+  const tracked = figures.map((f) => model.compartments.findIndex((c) => c.id === f.compartment));
+  const approach = approachToSteadyState(model, system, lines, period, figures.map((f) => f.overall.auc), tracked, cycleStats);
   const compartments = figures.map((f, k) => {
     const index = model.compartments.findIndex((c) => c.id === f.compartment);
-    const aucIndex = system.layout.auc[index];
     const auc = f.overall.auc;
     const cavg = auc / period;
-    const firstAuc = first[aucIndex];
     const a = approach[k];
+    const firstAuc = a.firstAuc;
     return {
       compartment: f.compartment,
       cmax: f.overall.cmax,
@@ -309,8 +318,14 @@ function closedForm(system: CompartmentSystem, period: number, first: Float64Arr
   return { ok: true, state: x, residual: 0 };
 }
 
-/** Fixed-point iteration of the cycle map, with Newton steps once the plain iteration is slow. */
-function iterate(model: Model, map: CycleMap, first: Float64Array): Found {
+/**
+ * Fixed-point iteration of the cycle map, with Newton steps once the plain iteration is slow.
+ * A candidate is accepted only when (a) the error bound r/(1 − ρ) of a contraction with rate ρ,
+ * estimated from one more cycle, is within tolerance — a small change per cycle alone is not
+ * enough when the map barely contracts near saturation — and (b) one cycle eliminates what one
+ * cycle doses, which rules out a state that is merely growing slowly in relative terms.
+ */
+function iterate(model: Model, map: CycleMap, first: Float64Array, eliminatedIndex: number, dosePerCycle: number): Found {
   const nc = map.schedule.breakpoints[0].rates.length;
   const tolerance = Math.max(1e-10, 100 * model.solver.rtol);
   let x = first.slice(0, nc);
@@ -323,7 +338,19 @@ function iterate(model: Model, map: CycleMap, first: Float64Array): Found {
   let residual = residualOf(x, px);
   let plain = 0;
   while (map.runs < limits.steadyStateCycles) {
-    if (residual <= tolerance) return { ok: true, state: px, residual };
+    if (residual <= tolerance) {
+      const full = map.run(px);
+      const next = full.slice(0, nc);
+      const r2 = residualOf(px, next);
+      const rho = residual > 0 ? Math.min(0.999999, r2 / residual) : 0;
+      const bound = r2 / (1 - rho);
+      const balance = Math.abs(full[eliminatedIndex] - dosePerCycle) / Math.max(dosePerCycle, 1e-300);
+      if (bound <= tolerance && balance <= 10 * tolerance) return { ok: true, state: next, residual: bound };
+      x = px;
+      px = next;
+      residual = r2;
+      continue;
+    }
     if (plain < 8) {
       // A few plain cycles first: cheap, and they bring the state near the attracting cycle.
       x = px;
@@ -374,71 +401,79 @@ interface Approach {
   time95: number | null;
   cycles90: number | null;
   cycles95: number | null;
+  /** AUC over the first cycle of the maintenance regimen given alone from empty. */
+  firstAuc: number;
+}
+
+/** The maintenance lines as actually given from the first maintenance dose for `cycles` cycles (no wrapping). */
+function unwrappedAdministrations(lines: Model['doseLines'], period: number, cycles: number): Administration[] {
+  const origin = Math.min(...lines.map((l) => l.firstGiven));
+  const out: Administration[] = [];
+  for (const l of lines) {
+    const every = l.every as number;
+    const count = Math.round((cycles * period) / every);
+    for (let m = 0; m < count; m++) {
+      const given = l.firstGiven - origin + m * every;
+      out.push({ line: l.line, occurrence: m, into: l.into, given, arrival: given + l.lag, nominal: l.nominal, amount: l.nominal * l.bioavailability, duration: l.duration });
+    }
+  }
+  return out.sort((p, q) => p.arrival - q.arrival);
 }
 
 /**
- * How fast the maintenance regimen alone (no loading dose) approaches steady state: the
- * AUC of cycle n from empty, as a fraction f_n of the steady-state cycle AUC. The time is
- * interpolated in ln(1 − f) between cycles, which is exact for one-compartment kinetics
- * (1 − f_n = e^{−nkτ}, so t90 = ln 10/k ≈ 3.3 half-lives).
+ * How fast the maintenance regimen alone (no loading dose) approaches steady state: it is
+ * simulated as given, from empty, and the AUC of cycle n is compared with the steady-state
+ * cycle AUC as a fraction f_n. The time is interpolated in ln(1 − f) between cycles, which is
+ * exact for one-compartment kinetics (1 − f_n = e^{−nkτ}, so t90 = ln 10/k ≈ 3.3 half-lives).
+ * Lags and infusions that run past a cycle end fall in the next cycle, as they do in practice.
  */
 function approachToSteadyState(
   model: Model,
   system: CompartmentSystem,
-  map: CycleMap,
-  first: Float64Array,
-  periodic: Float64Array,
+  lines: Model['doseLines'],
+  period: number,
+  steadyAuc: number[],
+  tracked: number[],
+  stats: SolverStats,
 ): Approach[] {
   const layout = system.layout;
-  const tracked = model.compartments.map((c, i) => i).filter((i) => model.compartments[i].volume !== null);
-  const period = map.schedule.end;
-  const steadyAuc = (() => {
-    const end = map.run(periodic);
-    return tracked.map((i) => end[layout.auc[i]]);
-  })();
-  const result: Approach[] = tracked.map(() => ({ time90: null, time95: null, cycles90: null, cycles95: null }));
-  const previous = tracked.map(() => 0);
-  const budget = choosePath(model) === 'exact' ? 100_000 : Math.max(0, limits.steadyStateCycles - map.runs);
-  const next = choosePath(model) === 'exact' ? affineCycle(system, period, first) : (x: Float64Array) => map.run(x);
-  let state = first;
-  for (let n = 1; n <= budget; n++) {
-    let done = true;
-    tracked.forEach((ci, k) => {
-      const f = steadyAuc[k] > 0 ? state[layout.auc[ci]] / steadyAuc[k] : 1;
-      const r = result[k];
-      for (const [target, key, cycles] of [
-        [0.9, 'time90', 'cycles90'],
-        [0.95, 'time95', 'cycles95'],
-      ] as const) {
-        if (r[key] === null && f >= target) {
-          const lo = Math.log(Math.max(1e-300, 1 - previous[k]));
-          const hi = Math.log(Math.max(1e-300, 1 - f));
-          const frac = hi < lo ? (Math.log(1 - target) - lo) / (hi - lo) : 1;
-          r[key] = (n - 1 + Math.min(1, Math.max(0, frac))) * period;
-          r[cycles] = n;
+  const nc = layout.compartments;
+  const y = new Float64Array(system.dimension);
+  let result: Approach[] = [];
+  for (let cycles = 16; ; cycles *= 4) {
+    const admins = unwrappedAdministrations(lines, period, cycles);
+    const schedule = buildSchedule(admins, nc, 0, cycles * period);
+    const run = solveSchedule({ ...model, administrations: admins, start: 0, end: cycles * period }, system, schedule, new Float64Array(system.dimension), stats);
+    const aucAt = (t: number, c: number) => {
+      run.trajectory.stateAt(t, 'left', y);
+      return y[layout.auc[c]];
+    };
+    result = tracked.map((c, k) => {
+      const r: Approach = { time90: null, time95: null, cycles90: null, cycles95: null, firstAuc: aucAt(period, c) };
+      if (!(steadyAuc[k] > 0)) return r;
+      let previous = 0;
+      let before = 0;
+      for (let n = 1; n <= cycles && r.time95 === null; n++) {
+        const after = aucAt(n * period, c);
+        const f = (after - before) / steadyAuc[k];
+        before = after;
+        for (const [target, key, count] of [
+          [0.9, 'time90', 'cycles90'],
+          [0.95, 'time95', 'cycles95'],
+        ] as const) {
+          if (r[key] === null && f >= target) {
+            const lo = Math.log(Math.max(1e-300, 1 - previous));
+            const hi = Math.log(Math.max(1e-300, 1 - f));
+            const frac = hi < lo ? (Math.log(1 - target) - lo) / (hi - lo) : 1;
+            r[key] = (n - 1 + Math.min(1, Math.max(0, frac))) * period;
+            r[count] = n;
+          }
         }
+        previous = f;
       }
-      previous[k] = f;
-      if (r.time95 === null) done = false;
+      return r;
     });
-    if (done) break;
-    state = next(state);
+    const pending = result.some((r, k) => steadyAuc[k] > 0 && r.time95 === null);
+    if (!pending || cycles * 4 > limits.steadyStateCycles) return result;
   }
-  return result;
-}
-
-/** The exact cycle map on the full state (AUC and eliminated states reset each cycle), as x ↦ Φx + g. */
-function affineCycle(system: CompartmentSystem, period: number, first: Float64Array): (x: Float64Array) => Float64Array {
-  const n = system.dimension;
-  const nc = system.layout.compartments;
-  const phi = expmScaled(system.linearMatrix, n, period, new Float64Array(n * n), createExpmWorkspace(n));
-  return (x) => {
-    const out = first.slice();
-    for (let i = 0; i < n; i++) {
-      let s = 0;
-      for (let j = 0; j < nc; j++) s += phi[i * n + j] * x[j];
-      out[i] += s;
-    }
-    return out;
-  };
 }
