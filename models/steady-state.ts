@@ -254,7 +254,6 @@ export function steadyStateFigures(model: Model, system: CompartmentSystem, stat
   const tracked = figures.map((f) => model.compartments.findIndex((c) => c.id === f.compartment));
   const approach = approachToSteadyState(model, system, lines, period, figures.map((f) => f.overall.auc), tracked, cycleStats);
   const compartments = figures.map((f, k) => {
-    const index = model.compartments.findIndex((c) => c.id === f.compartment);
     const auc = f.overall.auc;
     const cavg = auc / period;
     const a = approach[k];

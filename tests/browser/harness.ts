@@ -4,10 +4,10 @@
  * pool, and Debian's Chromium driven by playwright-core. No browser is ever downloaded.
  */
 import { spawnSync } from 'node:child_process';
-import { existsSync, mkdirSync, readdirSync, statSync } from 'node:fs';
+import { existsSync, mkdirSync, readdirSync, rmSync, statSync } from 'node:fs';
 import type { Server } from 'node:http';
 import type { AddressInfo } from 'node:net';
-import { join } from 'node:path';
+import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { chromium, type Browser } from 'playwright-core';
 import { createApp, defaultServerLimits } from '../../server/app.ts';
@@ -35,10 +35,46 @@ function newestMtime(path: string): number {
 export function ensureClientBuilt(): void {
   const index = join(clientDir, 'index.html');
   const sources = [join(repoRoot, 'client'), join(repoRoot, 'vite.config.ts'), join(repoRoot, 'models/summary-text.ts')];
-  if (existsSync(index) && statSync(index).mtimeMs >= Math.max(...sources.map(newestMtime))) return;
-  const built = spawnSync('npx', ['vite', 'build', '--logLevel', 'warn'], { cwd: repoRoot, encoding: 'utf8' });
-  if (built.status !== 0 || !existsSync(index)) {
-    throw new Error(`\`npx vite build\` failed (status ${built.status}):\n${built.stdout}\n${built.stderr}`);
+  const fresh = () => existsSync(index) && statSync(index).mtimeMs >= Math.max(...sources.map(newestMtime));
+  if (fresh()) return;
+  // Browser test files run in parallel processes, and the build empties dist/client first:
+  // one build at a time, and a file that waited finds the page already built.
+  withBuildLock(() => {
+    if (fresh()) return;
+    const built = spawnSync('npx', ['vite', 'build', '--logLevel', 'warn'], { cwd: repoRoot, encoding: 'utf8' });
+    if (built.status !== 0 || !existsSync(index)) {
+      throw new Error(`\`npx vite build\` failed (status ${built.status}):\n${built.stdout}\n${built.stderr}`);
+    }
+  });
+}
+
+/** A lock directory beside dist/client (mkdir is atomic); one left by a crashed build is taken over after 5 min. */
+function withBuildLock(build: () => void): void {
+  const lock = join(repoRoot, 'dist/.client-build.lock');
+  const staleMs = 300_000;
+  mkdirSync(dirname(lock), { recursive: true });
+  const pause = new Int32Array(new SharedArrayBuffer(4));
+  for (;;) {
+    try {
+      mkdirSync(lock);
+      break;
+    } catch (err) {
+      if ((err as NodeJS.ErrnoException).code !== 'EEXIST') throw err;
+    }
+    let age = 0;
+    try {
+      age = Date.now() - statSync(lock).mtimeMs;
+    } catch {
+      continue; // released between the two calls
+    }
+    if (age > staleMs) rmSync(lock, { recursive: true, force: true });
+    // The other process is building (a few seconds); look again shortly.
+    else Atomics.wait(pause, 0, 0, 200);
+  }
+  try {
+    build();
+  } finally {
+    rmSync(lock, { recursive: true, force: true });
   }
 }
 

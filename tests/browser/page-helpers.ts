@@ -3,7 +3,8 @@
  * select what is there, type key by key), waiting for a run to finish, reading the plot's
  * pixels, and recording console errors, uncaught exceptions and CSP violations.
  */
-import type { Locator, Page, Response } from 'playwright-core';
+import { readFile } from 'node:fs/promises';
+import type { BrowserContext, Locator, Page, Response } from 'playwright-core';
 
 declare global {
   interface Window {
@@ -133,4 +134,48 @@ export async function recordPage(page: Page): Promise<PageRecord> {
     if (r.status() >= 400) record.failedResponses.push({ status: r.status(), url: r.url() });
   });
   return record;
+}
+
+/**
+ * Does `action` and waits until the page holds a new result object (a run that ended in a
+ * 200) and the Run button is no longer busy. For runs started other than by clicking Run:
+ * opening a file, pressing Enter in a field.
+ */
+export async function afterNewResult<T>(page: Page, action: () => Promise<T>): Promise<T> {
+  const before = await page.evaluateHandle(() => window.__tidemark.lastResult);
+  const out = await action();
+  await page.waitForFunction((prev) => window.__tidemark.lastResult !== null && window.__tidemark.lastResult !== prev, before);
+  await page.waitForFunction(() => !document.getElementById('run')?.hasAttribute('aria-busy'));
+  await before.dispose();
+  return out;
+}
+
+export interface Downloaded {
+  /** The name the page gave the file. */
+  filename: string;
+  bytes: Buffer;
+}
+
+/** Does `action` (a click that saves a file) and returns the file the browser received. Needs a context with `acceptDownloads`. */
+export async function captureDownload(page: Page, action: () => Promise<unknown>): Promise<Downloaded> {
+  const [download] = await Promise.all([page.waitForEvent('download'), action()]);
+  const path = await download.path();
+  const failure = await download.failure();
+  if (failure !== null) throw new Error(`the download of ${download.suggestedFilename()} failed: ${failure}`);
+  return { filename: download.suggestedFilename(), bytes: await readFile(path) };
+}
+
+/**
+ * A new page of the context at the app, waited on until the default sample has been run by
+ * the page itself (so nothing of that first run lands on what the test does next).
+ */
+export async function openApp(context: BrowserContext, baseUrl: string, viewport?: { width: number; height: number }): Promise<{ page: Page; record: PageRecord }> {
+  const page = await context.newPage();
+  // Waits are for events, not fixed sleeps; the bound only ends a run that hangs (2 cores, often busy).
+  page.setDefaultTimeout(60_000);
+  if (viewport) await page.setViewportSize(viewport);
+  const record = await recordPage(page);
+  await page.goto(baseUrl, { waitUntil: 'networkidle' });
+  await page.waitForFunction(() => window.__tidemark.lastResult !== null && !document.getElementById('run')?.hasAttribute('aria-busy'));
+  return { page, record };
 }
