@@ -21,8 +21,13 @@ export class PropagatorCache {
     private readonly capacity = 4096,
   ) {
     this.ws = createExpmWorkspace(n + 1);
+    let fastest = 0;
+    for (let i = 0; i < n; i++) fastest = Math.max(fastest, -matrix[i * n + i]);
+    this.fastestRate = fastest;
   }
 
+  /** Largest −M_ii: an upper bound of the decay rate of the fastest mode in compartment models. */
+  readonly fastestRate: number;
   private lastH = NaN;
   private lastKey = -1;
   private last: Propagator | null = null;
@@ -155,17 +160,28 @@ export class LinearTrajectory implements Trajectory {
     this.cache.advanceOnce(x0, h, this.keys[k], out, this.one);
   }
 
-  /** Each piece cut into equal parts, so that turning points are bracketed for the metrics. */
-  knots(subdivisions = 24): Float64Array {
-    const pieces = this.times.length;
-    const out = new Float64Array(pieces * subdivisions + 1);
-    for (let k = 0; k < pieces; k++) {
+  /**
+   * Times that bracket every turning point and crossing for the metrics: in each piece, steps
+   * of a fifth of the fastest time constant just after the breakpoint (where fast phases turn),
+   * growing by a quarter each until a 24th of the piece.
+   */
+  knots(): Float64Array {
+    const out: number[] = [];
+    const fastest = this.fastestRate;
+    for (let k = 0; k < this.times.length; k++) {
       const a = this.times[k];
-      const h = (this.pieceEnd(k) - a) / subdivisions;
-      for (let j = 0; j < subdivisions; j++) out[k * subdivisions + j] = a + j * h;
+      const b = this.pieceEnd(k);
+      const widest = (b - a) / 24;
+      let h = fastest > 0 ? Math.min(widest, 0.2 / fastest) : widest;
+      for (let t = a; t < b - 1e-9 * widest; t += h, h = Math.min(1.25 * h, widest)) out.push(t);
     }
-    out[pieces * subdivisions] = this.end;
-    return out;
+    out.push(this.end);
+    return Float64Array.from(out);
+  }
+
+  /** Largest first-order rate out of any state (−diagonal of the matrix). */
+  private get fastestRate(): number {
+    return this.cache.fastestRate;
   }
 
   /**
