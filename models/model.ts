@@ -60,6 +60,8 @@ export interface DoseLineSummary {
   count: number;
   /** Doses the line asks for (by count, or a single dose) that arrive at or after the end and are left out. */
   beyondEnd: number;
+  /** When the first dose left out because the span ended was to be given; null if the line ended within the span. */
+  nextGiven: number | null;
 }
 
 export interface ModelThreshold {

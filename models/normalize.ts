@@ -233,12 +233,14 @@ function readDoses(
     if (d.every === undefined && d.count !== undefined && d.count > 1) r.fail(`${path}.count`, 'needs `every` (the dosing interval)');
     if (d.every === undefined && d.until !== undefined) r.fail(`${path}.until`, 'needs `every` (the dosing interval)');
     if (d.count !== undefined && d.until !== undefined) r.fail(`${path}.until`, 'give `count` or `until`, not both');
+    if (until !== null && at !== null && until < at) r.fail(`${path}.until`, `is before the first dose at ${at} ${r.units.time}`);
     if (into === undefined || amount === null || at === null || (d.every !== undefined && every === null)) return;
 
     const bioavailability = d.bioavailability ?? 1;
     const last = every === null ? at : d.count !== undefined ? at + (d.count - 1) * every : (until ?? span.end);
     let count = 0;
     let beyondEnd = 0;
+    let nextGiven: number | null = null;
     for (let j = 0; ; j++) {
       const given = every === null ? at : at + j * every;
       if (j > 0 && (every === null || given > last + 1e-9 * every)) break;
@@ -248,6 +250,7 @@ function readDoses(
         // dose given within the span past its end.
         if (d.count !== undefined) beyondEnd = d.count - j;
         else if (every === null || given < span.end) beyondEnd = 1;
+        nextGiven = given;
         break;
       }
       if (administrations.length >= limits.administrations) {
@@ -279,6 +282,7 @@ function readDoses(
       every,
       count,
       beyondEnd,
+      nextGiven,
     });
   });
   if (tooMany) {

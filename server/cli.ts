@@ -3,7 +3,8 @@
  * invalid or the computation fails, 2 on a usage error. Errors go to stderr as
  * "path: message" lines, never as stack traces.
  */
-import { readFileSync, writeFileSync } from 'node:fs';
+import { readFileSync, realpathSync, writeFileSync } from 'node:fs';
+import { fileURLToPath } from 'node:url';
 import { summaryText } from '../models/summary-text.ts';
 import { describeProblems, normaliseScenario, resultToCsv, resultToJsonText, scenarioJsonSchema, simulate, type Problem } from '../models/index.ts';
 import { buildReport } from './report/report.ts';
@@ -157,4 +158,6 @@ function main(): void {
   process.exitCode = outcome.code;
 }
 
-if (import.meta.url === `file://${process.argv[1]}`) main();
+// Run only as the program itself (not when imported by tests); paths compared as files, since
+// the module URL is percent-encoded (a space becomes %20) and argv[1] is not.
+if (process.argv[1] && fileURLToPath(import.meta.url) === realpathSync(process.argv[1])) main();

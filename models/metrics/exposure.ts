@@ -137,11 +137,35 @@ function windowFigures(
 }
 
 /** Times that open dosing intervals: distinct administration times within [start, end). */
-export function intervalStarts(model: Model): Float64Array {
-  const times = Array.from(new Set(model.administrations.map((a) => a.given)))
+export function intervalStarts(model: Model, breakpoints: Float64Array): Float64Array {
+  const tolerance = 1e-12 * Math.max(1, Math.abs(model.end), Math.abs(model.start));
+  const sorted = model.administrations
+    .map((a) => a.given)
     .filter((t) => t >= model.start && t < model.end)
     .sort((a, b) => a - b);
-  return Float64Array.from(times);
+  // Times that differ by unit-conversion rounding ("8 h" × 3 against "1 day") are one start,
+  // snapped to the breakpoint there so that the boundary rows and the start coincide exactly.
+  const out: number[] = [];
+  for (const t of sorted) {
+    if (out.length > 0 && t - out[out.length - 1] <= tolerance) continue;
+    const near = nearest(breakpoints, t);
+    out.push(near !== null && Math.abs(near - t) <= tolerance ? near : t);
+  }
+  return Float64Array.from(out);
+}
+
+function nearest(sorted: Float64Array, t: number): number | null {
+  let lo = 0;
+  let hi = sorted.length - 1;
+  if (hi < 0) return null;
+  while (lo < hi) {
+    const mid = (lo + hi) >>> 1;
+    if (sorted[mid] < t) lo = mid + 1;
+    else hi = mid;
+  }
+  const a = sorted[lo];
+  const b = lo > 0 ? sorted[lo - 1] : a;
+  return Math.abs(a - t) <= Math.abs(b - t) ? a : b;
 }
 
 /** Sorted unique union of the given ascending arrays. */
@@ -161,7 +185,7 @@ function mergeTimes(lists: Float64Array[]): Float64Array {
 export function exposureFigures(model: Model, layout: StateLayout, probe: CurveProbe): CompartmentFigures[] {
   const schedule = probe.schedule;
   const bpTimes = Float64Array.from(schedule.breakpoints, (b) => b.time);
-  const starts = intervalStarts(model);
+  const starts = intervalStarts(model, bpTimes);
   const scan = mergeTimes([probe.trajectory.knots(), bpTimes, starts, Float64Array.of(model.start, model.end)]).filter(
     (t) => t >= model.start && t <= model.end,
   );
@@ -203,7 +227,7 @@ export function exposureFigures(model: Model, layout: StateLayout, probe: CurveP
       crossingCount: 0,
       prevC: 0,
       prevS: 0,
-      prevT: NaN,
+      prevT: model.start,
       lastC: 0,
     };
   });
@@ -288,6 +312,17 @@ export function exposureFigures(model: Model, layout: StateLayout, probe: CurveP
           probe.useRatesOf(bp);
           ratesOf = bp;
         }
+      } else if (!left && t === pc.prevT && c !== pc.prevC) {
+        // A bolus jumps the concentration across a level: a crossing with no time spent between.
+        for (const level of pc.levels) {
+          const up = pc.prevC < level.value && c >= level.value;
+          const down = pc.prevC > level.value && c <= level.value;
+          if (!up && !down) continue;
+          pc.crossingCount++;
+          if (pc.crossings.length < maxCrossingsListed) {
+            pc.crossings.push({ time: t, threshold: level.threshold, edge: level.edge, direction: up ? 'up' : 'down' });
+          }
+        }
       }
       if (boundary && (left || soleRow)) {
         pc.current?.see(t, c);
@@ -351,9 +386,12 @@ export function exposureFigures(model: Model, layout: StateLayout, probe: CurveP
     }
   }
 
+  const dueTolerance = 1e-9 * Math.max(1, Math.abs(model.end));
+  const doseDueAtEnd = model.doseLines.some((l) => l.nextGiven !== null && Math.abs(l.nextGiven - model.end) <= dueTolerance);
   return perCompartment.map((pc) => {
-    // The last interval ends with the span; it has a trough only if a dose is given exactly at the end.
-    closeInterval(pc, model.end, pc.lastC, false);
+    // The last interval ends with the span; its trough is the concentration at the end when the
+    // regimen's next dose falls due exactly then (the span was cut at a dosing time).
+    closeInterval(pc, model.end, pc.lastC, doseDueAtEnd);
     return {
       compartment: model.compartments[pc.index].id,
       overall: {

@@ -96,6 +96,7 @@ const cases: Case[] = [
   ['count without every', (s) => (s.doses[1].count = 3), 'doses[1].count', /^needs `every`/],
   ['until without every', (s) => (s.doses[1].until = 20), 'doses[1].until', /^needs `every`/],
   ['until with count', (s) => Object.assign(s.doses[1], { every: 6, count: 3, until: 20 }), 'doses[1].until', /give `count` or `until`, not both/],
+  ['until before the first dose', (s) => Object.assign(s.doses[1], { at: 10, every: 4, until: 5 }), 'doses[1].until', /^is before the first dose at 10 h$/],
   ['bioavailability above 1', (s) => (s.doses[0].bioavailability = 1.5), 'doses[0].bioavailability', /1/],
   ['dose before the start of the span', (s) => (s.output.start = 1), 'doses[0].at', /before output\.start/],
   ['threshold with above = below', (s) => (s.output.thresholds = [{ compartment: 'central', above: 5, below: 5 }]), 'output.thresholds[0].below', /must be greater than `above`/],

@@ -151,7 +151,8 @@ function doseJson(d: GenDose): DoseInput {
   if (d.repeat) {
     out.every = d.repeat.every;
     if ('count' in d.repeat) out.count = d.repeat.count;
-    if ('until' in d.repeat) out.until = d.repeat.until;
+    // `until` before `at` is an input error (tested in bad-input); here it means a single dose.
+    if ('until' in d.repeat) out.until = Math.max(d.repeat.until, d.at);
   }
   return out;
 }
@@ -197,7 +198,7 @@ function arrivals(m: GenModel): Arrival[] {
     if (d.repeat === null) given.push(d.at);
     else if ('count' in d.repeat) for (let j = 0; j < d.repeat.count; j++) given.push(d.at + j * d.repeat.every);
     else {
-      const last = 'until' in d.repeat ? d.repeat.until : m.end;
+      const last = 'until' in d.repeat ? Math.max(d.repeat.until, d.at) : m.end;
       given.push(d.at);
       for (let t = d.at + d.repeat.every; t <= last; t += d.repeat.every) given.push(t);
     }
