@@ -7,7 +7,6 @@ import helmet from 'helmet';
 import { existsSync } from 'node:fs';
 import { join } from 'node:path';
 import { limits } from '../models/limits.ts';
-import { normaliseScenario } from '../models/normalize.ts';
 import { scenarioJsonSchema } from '../models/json-schema.ts';
 import type { Problem } from '../models/problems.ts';
 import { readReportRequest, reportFileNameOf } from './report/request.ts';
@@ -90,21 +89,10 @@ export function createApp(options: AppOptions): express.Express {
     res.status(reply.status).type(reply.contentType).send(reply.body);
   });
 
-  api.post('/validate', json, (req: Request, res: Response) => {
-    const model = normaliseScenario(req.body);
-    if (!model.ok) {
-      sendProblems(res, 400, model.problems);
-      return;
-    }
-    const m = model.value;
-    res.json({
-      valid: true,
-      compartments: m.compartments.length,
-      transfers: m.transfers.length,
-      administrations: m.administrations.length,
-      outputPoints: m.outputTimes.length,
-      linear: m.linear,
-    });
+  // Validation can be as heavy as expanding a long schedule, so it runs in the pool too.
+  api.post('/validate', json, async (req: Request, res: Response) => {
+    const reply = await options.pool.run({ kind: 'validate', scenario: req.body, maxOutputPoints: options.limits.maxOutputPoints });
+    res.status(reply.status).type(reply.contentType).send(reply.body);
   });
 
   api.get('/schema', (_req, res) => {

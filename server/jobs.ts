@@ -1,8 +1,8 @@
 /** Messages between the HTTP thread and the simulation workers. */
 export interface JobRequest {
   id: number;
-  /** 'simulate': the result as JSON; 'report': the printable report as PDF bytes. */
-  kind: 'simulate' | 'report';
+  /** 'simulate': the result as JSON; 'report': the printable report as PDF bytes; 'validate': a summary or the problems. */
+  kind: 'simulate' | 'report' | 'validate';
   scenario: unknown;
   maxOutputPoints: number;
   /** Report only: a reference scenario drawn dashed over the first. */

@@ -32,6 +32,18 @@ export function runJob(job: Omit<JobRequest, 'id'>): Omit<JobReply, 'id'> {
       },
     ]);
   }
+  if (job.kind === 'validate') {
+    const m = model.value;
+    const summary = {
+      valid: true,
+      compartments: m.compartments.length,
+      transfers: m.transfers.length,
+      administrations: m.administrations.length,
+      outputPoints: points,
+      linear: m.linear,
+    };
+    return { status: 200, contentType: 'application/json', body: JSON.stringify(summary) };
+  }
   const result = simulateModel(model.value);
   if (!result.ok) return problems(422, result.problems);
   return { status: 200, contentType: 'application/json', body: resultToJsonText(result.value) };

@@ -41,6 +41,9 @@ export class SimulationPool {
   private readonly queue: Pending[] = [];
   private nextId = 1;
   private closed = false;
+  /** Workers that died before they were ready, in a row; past a few the pool stops respawning. */
+  private startFailures = 0;
+  private broken = false;
 
   constructor(readonly options: PoolOptions) {
     for (let i = 0; i < options.size; i++) this.slots.push(this.spawn());
@@ -48,6 +51,7 @@ export class SimulationPool {
 
   run(job: Omit<JobRequest, 'id'>): Promise<Reply> {
     if (this.closed) return Promise.resolve(errorReply(503, 'the server is shutting down'));
+    if (this.broken) return Promise.resolve(errorReply(500, 'the simulation workers cannot start; see the server log'));
     if (this.queue.length >= this.options.maxQueue) {
       return Promise.resolve(errorReply(503, 'the server is busy with other simulations; try again shortly'));
     }
@@ -76,6 +80,7 @@ export class SimulationPool {
     worker.on('message', (reply: JobReply | { ready: true }) => {
       if ('ready' in reply) {
         slot.ready = true;
+        this.startFailures = 0;
         this.dispatch();
         return;
       }
@@ -83,7 +88,10 @@ export class SimulationPool {
       if (!pending || pending.job.id !== reply.id) return;
       this.finish(slot, { status: reply.status, contentType: reply.contentType, body: reply.body });
     });
-    worker.on('error', (e) => this.replace(slot, errorReply(500, `internal error in the simulation worker: ${e.message}`)));
+    worker.on('error', (e) => {
+      console.error(`simulation worker failed: ${e.message}`);
+      this.replace(slot, errorReply(500, `internal error in the simulation worker: ${e.message}`));
+    });
     worker.on('exit', () => {
       if (!this.closed && this.slots.includes(slot)) this.replace(slot, errorReply(500, 'the simulation worker stopped unexpectedly'));
     });
@@ -109,7 +117,12 @@ export class SimulationPool {
     slot.current = null;
     this.slots.splice(index, 1);
     void slot.worker.terminate();
-    if (!this.closed) this.slots.push(this.spawn());
+    if (!slot.ready && ++this.startFailures >= 3) {
+      // A worker that cannot even load would be replaced for ever: give up and answer the queue.
+      this.broken = true;
+      for (const p of this.queue.splice(0)) p.resolve(errorReply(500, 'the simulation workers cannot start; see the server log'));
+    }
+    if (!this.closed && !this.broken) this.slots.push(this.spawn());
     pending?.resolve(reply);
     this.dispatch();
   }

@@ -111,6 +111,9 @@ describe('other routes', () => {
       .send({ ...velarin, compartments: [{ id: 'gut' }, { id: 'central', volume: '-42 L' }] })
       .expect(400);
     expect(bad.body.problems).toContainEqual({ path: 'compartments[1].volume', message: 'must be positive' });
+    // The same output-point limit as /api/simulate, so "valid" means the server will run it.
+    const many = await request(app).post('/api/validate').send({ ...velarin, output: { end: '7 day', step: '1 s' } }).expect(400);
+    expect(many.body.problems[0].path).toBe('output.step');
   });
 
   it('GET /api/schema is the JSON Schema of the scenario', async () => {
