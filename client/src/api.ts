@@ -28,6 +28,25 @@ function isProblemList(v: unknown): v is { problems: Problem[] } {
   return Array.isArray(p) && p.every((x) => typeof x === 'object' && x !== null && typeof (x as Problem).message === 'string');
 }
 
+/** What an error answer from the API means for the user, for a run or a report. */
+export type Failure = { kind: 'invalid'; problems: Problem[] } | { kind: 'failed'; problems: Problem[] } | { kind: 'message'; text: string };
+
+export function failureOf(status: number, body: unknown, action: 'run' | 'report'): Failure {
+  const problems = problemsOf(body);
+  switch (status) {
+    case 400:
+      return problems.length ? { kind: 'invalid', problems } : { kind: 'message', text: 'The server did not accept the scenario.' };
+    case 422:
+      return { kind: 'failed', problems: problems.length ? problems : [{ path: '', message: 'The computation did not finish.' }] };
+    case 413:
+      return { kind: 'message', text: 'The scenario is too large for the server to accept. Shorten it (fewer dose lines or output times) and try again.' };
+    case 503:
+      return { kind: 'message', text: 'The server is busy with other simulations. Wait a moment and try again.' };
+    default:
+      return { kind: 'message', text: `The server could not ${action === 'run' ? 'complete the run' : 'make the report'} (status ${status}). Try again in a moment.` };
+  }
+}
+
 function problemsOf(v: unknown): Problem[] {
   if (!isProblemList(v)) return [];
   return v.problems.map((p) => ({ path: typeof p.path === 'string' ? p.path : '', message: p.message }));
@@ -66,19 +85,7 @@ export async function simulate(scenario: unknown, signal: AbortSignal): Promise<
   if (res.status === 200) {
     return isResult(body) ? { kind: 'ok', result: body } : { kind: 'message', text: 'The server sent an answer the page could not read. Try again; if it persists, restart the server.' };
   }
-  const problems = problemsOf(body);
-  switch (res.status) {
-    case 400:
-      return problems.length ? { kind: 'invalid', problems } : { kind: 'message', text: 'The server did not accept the scenario.' };
-    case 422:
-      return { kind: 'failed', problems: problems.length ? problems : [{ path: '', message: 'The computation did not finish.' }] };
-    case 413:
-      return { kind: 'message', text: 'The scenario is too large for the server to accept. Shorten it (fewer dose lines or output times) and try again.' };
-    case 503:
-      return { kind: 'message', text: 'The server is busy with other simulations. Wait a moment and run again.' };
-    default:
-      return { kind: 'message', text: `The server could not complete the run (status ${res.status}). Try again in a moment.` };
-  }
+  return failureOf(res.status, body, 'run');
 }
 
 export async function fetchSamples(): Promise<SampleInfo[] | null> {

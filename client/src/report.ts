@@ -4,7 +4,7 @@
  * for a run: beside their fields (400) or in the summary (422, busy, unreachable).
  */
 import type { Problem } from './api.ts';
-import { unreachable } from './api.ts';
+import { failureOf, unreachable } from './api.ts';
 import { h } from './dom.ts';
 
 export type ReportOutcome =
@@ -19,13 +19,6 @@ export function filenameFrom(header: string | null, fallback: string): string {
   return match ? match[1] : fallback;
 }
 
-function problemsOf(body: unknown): Problem[] {
-  const list = (body as { problems?: unknown } | null)?.problems;
-  if (!Array.isArray(list)) return [];
-  return list
-    .filter((p): p is Problem => typeof p === 'object' && p !== null && typeof (p as Problem).message === 'string')
-    .map((p) => ({ path: typeof p.path === 'string' ? p.path : '', message: p.message }));
-}
 
 export async function requestReport(scenario: unknown, reference: unknown | null): Promise<ReportOutcome> {
   let res: Response;
@@ -48,19 +41,7 @@ export async function requestReport(scenario: unknown, reference: unknown | null
   } catch {
     body = null;
   }
-  const problems = problemsOf(body);
-  switch (res.status) {
-    case 400:
-      return problems.length ? { kind: 'invalid', problems } : { kind: 'message', text: 'The server did not accept the scenario.' };
-    case 422:
-      return { kind: 'failed', problems: problems.length ? problems : [{ path: '', message: 'The computation did not finish.' }] };
-    case 413:
-      return { kind: 'message', text: 'The scenario is too large for the server to accept.' };
-    case 503:
-      return { kind: 'message', text: 'The server is busy with other simulations. Wait a moment and try again.' };
-    default:
-      return { kind: 'message', text: `The server could not make the report (status ${res.status}). Try again in a moment.` };
-  }
+  return failureOf(res.status, body, 'report');
 }
 
 function save(blob: Blob, filename: string): void {
