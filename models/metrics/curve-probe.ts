@@ -26,20 +26,6 @@ export class CurveProbe {
     this.jac = new Float64Array(n * n);
   }
 
-  /** Index of the breakpoint whose rates are in force at t (from the left or the right). */
-  breakpointAt(t: number, side: 'left' | 'right'): number {
-    const bps = this.schedule.breakpoints;
-    let lo = 0;
-    let hi = bps.length - 1;
-    while (lo < hi) {
-      const mid = (lo + hi + 1) >>> 1;
-      const s = bps[mid].time;
-      if (side === 'left' ? s < t : s <= t) lo = mid;
-      else hi = mid - 1;
-    }
-    return lo;
-  }
-
   useRatesOf(breakpoint: number): void {
     const input = this.system.input;
     input.fill(0);
