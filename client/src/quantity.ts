@@ -139,46 +139,46 @@ export function concentrationFactor(from: string, to: string): number | null {
   return a1 / v1 / (a2 / v2);
 }
 
-/** A time quantity in the scenario's time unit, or null when it cannot be read here. */
-export function timeValue(q: unknown, u: UnitSet): number | null {
-  if (q === undefined || q === null || q === '') return null;
+/**
+ * A quantity as a number in the scenario's units: a plain number as it is, a string with a
+ * unit through `convert` (the factor from that unit to the scenario's, or null if unknown here).
+ */
+function valueIn(q: unknown, convert: (unit: string) => number | null): number | null {
   if (typeof q === 'number') return Number.isFinite(q) ? q : null;
   if (typeof q !== 'string') return null;
   const m = numberThenUnit.exec(q);
   if (!m) return null;
   const v = Number(m[1]);
   if (m[2] === '') return v;
-  const f = timeFactor(m[2], u.time);
+  const f = convert(m[2]);
   return f === null ? null : v * f;
 }
 
-/** An amount in mg-equivalents of the scenario's amount unit, or null. */
+/** A time quantity in the scenario's time unit, or null when it cannot be read here. */
+export function timeValue(q: unknown, u: UnitSet): number | null {
+  if (q === undefined || q === null || q === '') return null;
+  return valueIn(q, (unit) => timeFactor(unit, u.time));
+}
+
+/** An amount in the scenario's amount unit, or null. */
 function amountValue(q: unknown, u: UnitSet): number | null {
-  if (typeof q === 'number') return q;
-  if (typeof q !== 'string') return null;
-  const m = numberThenUnit.exec(q);
-  if (!m) return null;
-  const v = Number(m[1]);
-  if (m[2] === '') return v;
-  const a = factor(amountInMg, m[2]);
-  const b = factor(amountInMg, u.amount);
-  return a === null || b === null ? null : (v * a) / b;
+  return valueIn(q, (unit) => {
+    const a = factor(amountInMg, unit);
+    const b = factor(amountInMg, u.amount);
+    return a === null || b === null ? null : a / b;
+  });
 }
 
 /** An amount/time rate in the scenario's units, or null. */
 function amountRateValue(q: unknown, u: UnitSet): number | null {
-  if (typeof q === 'number') return q;
-  if (typeof q !== 'string') return null;
-  const m = numberThenUnit.exec(q);
-  if (!m) return null;
-  const v = Number(m[1]);
-  if (m[2] === '') return v;
-  const [am, tm] = m[2].split('/');
-  if (tm === undefined) return null;
-  const a = factor(amountInMg, am);
-  const b = factor(amountInMg, u.amount);
-  const t = timeFactor(tm, u.time);
-  return a === null || b === null || t === null ? null : (v * a) / b / t;
+  return valueIn(q, (unit) => {
+    const [am, tm] = unit.split('/');
+    if (tm === undefined) return null;
+    const a = factor(amountInMg, am);
+    const b = factor(amountInMg, u.amount);
+    const t = timeFactor(tm, u.time);
+    return a === null || b === null || t === null ? null : a / b / t;
+  });
 }
 
 /** Infusion length from duration, or amount/rate; null for a bolus or when it cannot be read. */

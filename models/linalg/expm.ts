@@ -217,6 +217,14 @@ function balancingPower(target: number, value: number): number {
   return Math.pow(2, Math.max(-1000, Math.min(1000, e)));
 }
 
+/** Zeroes the dim×dim block matrix and writes M·h into its top-left n×n corner. */
+function placeScaledBlock(m: Float64Array, n: number, h: number, aug: Float64Array, dim: number): void {
+  aug.fill(0, 0, dim * dim);
+  for (let i = 0; i < n; i++) {
+    for (let j = 0; j < n; j++) aug[i * dim + j] = m[i * n + j] * h;
+  }
+}
+
 /**
  * Φ = e^{Mh} and g = ∫₀ʰ e^{Ms} ds · r from one exponential of the block matrix
  * [[Mh, c·rh], [0, 0]], whose top-right column is c·g (Van Loan 1978, "Computing
@@ -245,10 +253,7 @@ export function propagator(
 
   const dim = n + 1;
   checkCapacity(ws, dim);
-  aug.fill(0, 0, dim * dim);
-  for (let i = 0; i < n; i++) {
-    for (let j = 0; j < n; j++) aug[i * dim + j] = m[i * n + j] * h;
-  }
+  placeScaledBlock(m, n, h, aug, dim);
   const aNorm = norm1(aug, dim);
   const c = balancingPower(aNorm > 0 ? aNorm : 1, rNorm);
   for (let i = 0; i < n; i++) aug[i * dim + n] = r[i] * h * c;
@@ -275,10 +280,7 @@ export function expmIntegral(
   const dim = 2 * n;
   checkCapacity(ws, dim);
   const { aug, augOut } = ws;
-  aug.fill(0, 0, dim * dim);
-  for (let i = 0; i < n; i++) {
-    for (let j = 0; j < n; j++) aug[i * dim + j] = m[i * n + j] * h;
-  }
+  placeScaledBlock(m, n, h, aug, dim);
   const aNorm = norm1(aug, dim);
   if (!Number.isFinite(aNorm) || !Number.isFinite(h)) throw new RangeError('expmIntegral: non-finite matrix or step');
   if (h === 0) return out.fill(0, 0, n * n);
