@@ -50,7 +50,7 @@ export interface SteadyStateFigures {
   method: 'closed-form' | 'iterated';
   /** Dosing cycles simulated to find it and its figures (the closed form needs two). */
   cycles: number;
-  /** Largest |P(x) − x| relative to the largest amount at the accepted state. */
+  /** Largest |P(x) − x| relative to the largest amount at the accepted state or the amount dosed per cycle, whichever is larger. */
   residual: number;
   compartments: SteadyStateCompartment[];
 }
@@ -329,10 +329,13 @@ function iterate(model: Model, map: CycleMap, first: Float64Array, eliminatedInd
   const tolerance = Math.max(1e-10, 100 * model.solver.rtol);
   let x = first.slice(0, nc);
   let px = map.run(x).slice(0, nc);
+  // Relative to the amounts at the cycle start, but never to less than one cycle's doses: when
+  // each cycle washes out (a trough of 1e-15 mg after a 100 mg dose), the rounding noise left in
+  // the trough is no change at all.
   const residualOf = (a: Float64Array, b: Float64Array) => {
     let r = 0;
     for (let i = 0; i < nc; i++) r = Math.max(r, Math.abs(b[i] - a[i]));
-    return r / Math.max(maxAbs(b, nc), 1e-300);
+    return r / Math.max(maxAbs(b, nc), dosePerCycle, 1e-300);
   };
   let residual = residualOf(x, px);
   let plain = 0;
