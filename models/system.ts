@@ -5,7 +5,7 @@
  * the cumulative amount eliminated from the body (for the mass balance).
  */
 import type { Model } from './model.ts';
-import type { OdeSystem } from './numerics/ode-system.ts';
+import type { DerivativeCode, OdeSystem } from './numerics/ode-system.ts';
 
 export interface StateLayout {
   /** Number of compartments; amounts occupy indices 0..compartments-1. */
@@ -48,6 +48,8 @@ export class CompartmentSystem implements OdeSystem {
   private readonly mmVmax: Float64Array;
   private readonly mmKm: Float64Array;
   private readonly mmInvVolume: Float64Array;
+  /** The derivative as straight-line code for the compiled step kernels; built on first use. */
+  private straightLine: DerivativeCode | null = null;
 
   constructor(model: Model) {
     const layout = stateLayout(model);
@@ -108,6 +110,47 @@ export class CompartmentSystem implements OdeSystem {
       out[from] -= flux;
       out[this.mmTo[s]] += flux;
     }
+  }
+
+  /**
+   * derivative() written out for this model's sparsity: parameters are read from p
+   * (the sparse values, then Vmax, Km and 1/V of each saturable flux), so models of the
+   * same shape share one compiled kernel whatever their values.
+   */
+  get code(): DerivativeCode {
+    if (this.straightLine) return this.straightLine;
+    const n = this.dimension;
+    const sat = this.mmFrom.length;
+    const params = new Float64Array(this.vals.length + 3 * sat);
+    params.set(this.vals);
+    const base = this.vals.length;
+    for (let s = 0; s < sat; s++) {
+      params[base + 3 * s] = this.mmVmax[s];
+      params[base + 3 * s + 1] = this.mmKm[s];
+      params[base + 3 * s + 2] = this.mmInvVolume[s];
+    }
+    const { rowStart, cols, mmFrom, mmTo } = this;
+    this.straightLine = {
+      params,
+      input: this.input,
+      emit(y, f) {
+        const lines: string[] = [];
+        for (let i = 0; i < n; i++) {
+          let expr = `u[${i}]`;
+          for (let e = rowStart[i]; e < rowStart[i + 1]; e++) expr += ` + p[${e}] * ${y(cols[e])}`;
+          lines.push(`let ${f(i)} = ${expr};`);
+        }
+        for (let s = 0; s < sat; s++) {
+          const at = base + 3 * s;
+          lines.push(
+            `{ const c = Math.max(0, ${y(mmFrom[s])} * p[${at + 2}]); const flux = (p[${at}] * c) / (p[${at + 1}] + c); ` +
+              `${f(mmFrom[s])} -= flux; ${f(mmTo[s])} += flux; }`,
+          );
+        }
+        return lines.join('\n');
+      },
+    };
+    return this.straightLine;
   }
 
   jacobian(_t: number, y: Float64Array, out: Float64Array): void {

@@ -27,7 +27,7 @@ export interface SegmentSettings {
 
 /** Carried from one segment to the next by the driver. */
 export interface IntegratorState {
-  /** First accepted step of the last explicit segment: segments after repeated doses start alike. */
+  /** The step proposed after the first step of the last explicit segment: segments after repeated doses start alike. */
   explicitStep: number | null;
   /** Last step proposed by the Rosenbrock method. */
   stiffStep: number | null;
@@ -90,7 +90,7 @@ export function integrateSegment(
     case 'dop853': {
       const tab = settings.method === 'dopri5' ? DOPRI5 : DOP853;
       const opts = { rtol, atol, maxSteps, maxStep, initialStep: hint(state.explicitStep) };
-      state.explicitStep = integrateAdaptive(system, t0, t1, y, tab, opts, store, stats).firstStep;
+      state.explicitStep = integrateAdaptive(system, t0, t1, y, tab, opts, store, stats).restartStep;
       state.stiff = false;
       return { methods: [settings.method] };
     }
@@ -124,7 +124,7 @@ function integrateAuto(
   const name: ConcreteMethod = explicit === DOP853 ? 'dop853' : 'dopri5';
   const opts = { rtol, atol, maxSteps, maxStep, initialStep: hint(state.explicitStep) };
   const result = integrateAdaptive(system, t0, t1, y, explicit, opts, store, stats, new StiffnessMonitor());
-  state.explicitStep = result.firstStep;
+  state.explicitStep = result.restartStep;
   if (result.stiffAt === null) {
     state.stiff = false;
     return { methods: [name] };

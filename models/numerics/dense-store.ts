@@ -107,20 +107,38 @@ export class DenseStore implements Trajectory {
   /** Records one accepted step on [t0, t0 + h]; `coef` holds form.vectors × n values. */
   append(t0: number, h: number, form: DenseForm, coef: Float64Array): void {
     const size = form.vectors * this.dimension;
-    if (this.count === this.t0s.length) this.growSteps();
+    const at = this.reserve(size);
+    const target = this.openChunk;
+    for (let i = 0; i < size; i++) target[at + i] = coef[i];
+    this.commit(t0, h, form, size);
+  }
+
+  /**
+   * Room for the next step's `size` coefficients: returns the offset in openChunk where a
+   * solver may write them before commit(). Writing without committing is harmless (a
+   * rejected step): the next reservation reuses the place.
+   */
+  reserve(size: number): number {
     if (this.used + size > chunkSize) {
       this.chunks.push(new Float64Array(Math.max(chunkSize, size)));
       this.used = 0;
     }
-    const chunk = this.chunks.length - 1;
+    return this.used;
+  }
+
+  /** The chunk that reserve() points into. */
+  get openChunk(): Float64Array {
+    return this.chunks[this.chunks.length - 1];
+  }
+
+  /** Records the step on [t0, t0 + h] whose `size` coefficients were written at the reserved offset. */
+  commit(t0: number, h: number, form: DenseForm, size: number): void {
+    if (this.count === this.t0s.length) this.growSteps();
     this.t0s[this.count] = t0;
     this.hs[this.count] = h;
-    this.chunkOf[this.count] = chunk;
+    this.chunkOf[this.count] = this.chunks.length - 1;
     this.offsets[this.count] = this.used;
     this.forms[this.count] = form;
-    const target = this.chunks[chunk];
-    const at = this.used;
-    for (let i = 0; i < size; i++) target[at + i] = coef[i];
     this.used += size;
     this.count++;
   }

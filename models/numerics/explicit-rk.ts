@@ -1,13 +1,16 @@
 /**
  * The one stepping engine for every explicit Runge–Kutta tableau (tableau.ts): adaptive
- * with an embedded pair, or fixed-step. Work arrays are allocated once per call.
+ * with an embedded pair, or fixed-step. It decides on steps; the arithmetic of a step is
+ * a StepKernel (rk-step.ts), interpreted from the tableau or compiled from it. Work arrays
+ * are allocated once per tableau and state size.
  */
-import { DenseStore, hermiteCoefficients, hermiteForm } from './dense-store';
-import type { DenseForm } from './dense-store';
+import { DenseStore } from './dense-store';
 import { IntegrationFailure } from './ode-system';
 import type { OdeSystem, SolverStats } from './ode-system';
-import { alternatingForm, endSlopeIndex, fullStageCount } from './tableau';
-import type { DenseSlope, ExplicitTableau } from './tableau';
+import { freshWork, interpretedKernel, unpack } from './rk-step';
+import type { StepKernel, UnpackedTableau, Work } from './rk-step';
+import { compiledKernel, stepCompilationEnabled } from './rk-step-compiler';
+import type { ExplicitTableau } from './tableau';
 
 export interface AdaptiveOptions {
   rtol: number;
@@ -22,10 +25,12 @@ export interface AdaptiveResult {
   /** The controller's proposal for the next step. */
   lastStep: number;
   /**
-   * The first accepted step of this call: the hint for the next segment, which after the
-   * next dose usually starts with the same fast transient as this one did.
+   * The controller's proposal after the first accepted step of this call: the first step
+   * to try in the next segment, which after the next dose usually starts with the same
+   * transient as this one did. (Reusing the first accepted step itself would carry a
+   * cautious starting step from segment to segment, each regrowing it step by step.)
    */
-  firstStep: number;
+  restartStep: number;
   /** Time at which the stiffness monitor fired (y holds the state there), or null. */
   stiffAt: number | null;
 }
@@ -42,7 +47,6 @@ export function minimumStep(t: number, t1: number): number {
   return 10 * EPS * Math.max(Math.abs(t), 1e-12 * Math.abs(t1 - t));
 }
 
-/** Index of the first non-finite entry, or −1. */
 /**
  * The state component changing fastest relative to its tolerance, |f_i|/(atol + rtol|y_i|):
  * the one that holds the step size down, named when the integration gives up.
@@ -60,6 +64,19 @@ export function fastestComponent(y: Float64Array, f: Float64Array, rtol: number,
   return best;
 }
 
+/** x^k for a small non-negative integer k, by repeated multiplication. */
+function intPow(x: number, k: number): number {
+  let r = 1;
+  for (let i = 0; i < k; i++) r *= x;
+  return r;
+}
+
+/** dst = src over the first n entries (a plain loop: cheaper than TypedArray.set for a few entries). */
+function copy(src: Float64Array, dst: Float64Array, n: number): void {
+  for (let i = 0; i < n; i++) dst[i] = src[i];
+}
+
+/** Index of the first non-finite entry, or −1. */
 export function firstNonFinite(v: Float64Array): number {
   for (let i = 0; i < v.length; i++) if (!Number.isFinite(v[i])) return i;
   return -1;
@@ -152,218 +169,43 @@ export class StiffnessMonitor {
   }
 }
 
-/** The nonzero entries of one coefficient row: stage indices and weights. */
-interface SparseRow {
-  readonly cols: Int32Array;
-  readonly vals: Float64Array;
-}
-
-/** A tableau unpacked into sparse rows, so the stepping loops touch only nonzero coefficients. */
-interface Compiled {
-  readonly tab: ExplicitTableau;
-  readonly total: number;
-  readonly end: number;
-  /** Full-stage row r of a (main stages, then f(t+h, y1) if not FSAL, then the dense stages). */
-  readonly rows: readonly SparseRow[];
-  readonly rowC: Float64Array;
-  readonly b: SparseRow;
-  readonly e: SparseRow | null;
-  readonly e3: SparseRow | null;
-  readonly d: readonly SparseRow[];
-  readonly form: DenseForm;
-  /** The tableau's dense check with the form whose slope it needs, or null. */
-  readonly denseCheck: { readonly weight: number; readonly form: DenseForm & DenseSlope } | null;
-}
-
-function sparse(row: readonly number[]): SparseRow {
-  const cols: number[] = [];
-  const vals: number[] = [];
-  row.forEach((v, j) => {
-    if (v !== 0) {
-      cols.push(j);
-      vals.push(v);
-    }
-  });
-  return { cols: Int32Array.from(cols), vals: Float64Array.from(vals) };
-}
-
-/** out = base + scale·Σ_q vals[q]·k_{cols[q]} (base null: zero), stage by stage. */
-function combine(k: Float64Array, n: number, row: SparseRow, scale: number, base: Float64Array | null, out: Float64Array): void {
-  if (base) for (let i = 0; i < n; i++) out[i] = base[i];
-  else for (let i = 0; i < n; i++) out[i] = 0;
-  const { cols, vals } = row;
-  for (let q = 0; q < cols.length; q++) {
-    const w = scale * vals[q];
-    const at = cols[q] * n;
-    for (let i = 0; i < n; i++) out[i] += w * k[at + i];
-  }
-}
-
-const compiledCache = new WeakMap<ExplicitTableau, Compiled>();
-
-function compile(tab: ExplicitTableau): Compiled {
-  const cached = compiledCache.get(tab);
-  if (cached) return cached;
-  const total = fullStageCount(tab);
-  const rows: (readonly number[])[] = [...tab.a];
-  const nodes: number[] = [...tab.c];
-  if (!tab.fsal) {
-    rows.push(tab.b);
-    nodes.push(1);
-  }
-  if (tab.dense) {
-    rows.push(...tab.dense.extraA);
-    nodes.push(...tab.dense.extraC);
-  }
-  const compiled: Compiled = {
-    tab,
-    total,
-    end: endSlopeIndex(tab),
-    rows: rows.map(sparse),
-    rowC: Float64Array.from(nodes),
-    b: sparse(tab.b),
-    e: tab.e ? sparse(tab.e) : null,
-    e3: tab.e3 ? sparse(tab.e3) : null,
-    d: tab.dense ? tab.dense.d.map(sparse) : [],
-    form: tab.dense ? alternatingForm(4 + tab.dense.d.length) : hermiteForm,
-    denseCheck: tab.denseCheck ? { weight: tab.denseCheck.weight, form: alternatingForm(4 + (tab.dense?.d.length ?? 0)) } : null,
-  };
-  compiledCache.set(tab, compiled);
-  return compiled;
-}
-
-/** Per-call work arrays. */
-interface Work {
-  readonly n: number;
-  /** Full stage list, stage j at [j·n, (j+1)·n). */
-  readonly k: Float64Array;
-  /** Views of k, one per stage, made once so that stepping allocates nothing. */
-  readonly stage: readonly Float64Array[];
-  readonly y0: Float64Array;
-  readonly y1: Float64Array;
-  readonly arg: Float64Array;
-  /** Argument of the stiffness-test stage. */
-  readonly yStiff: Float64Array;
-  readonly scale: Float64Array;
-  /** Error vectors of the embedded estimates (and scratch for dense rows). */
-  readonly err: Float64Array;
-  readonly err3: Float64Array;
-  readonly coef: Float64Array;
-}
-
 const workCache = new Map<string, Work>();
 
 /** Work arrays for (tableau, n), made once and reused by every segment (calls never nest). */
-function makeWork(cm: Compiled, n: number): Work {
-  const key = `${cm.tab.name}:${n}`;
+function makeWork(u: UnpackedTableau, n: number): Work {
+  const key = `${u.tab.name}:${n}`;
   const cached = workCache.get(key);
   if (cached) return cached;
-  const work = freshWork(cm, n);
+  const work = freshWork(u, n);
   workCache.set(key, work);
   return work;
 }
 
-function freshWork(cm: Compiled, n: number): Work {
-  const k = new Float64Array(cm.total * n);
-  return {
-    n,
-    k,
-    stage: Array.from({ length: cm.total }, (_, j) => k.subarray(j * n, (j + 1) * n)),
-    y0: new Float64Array(n),
-    y1: new Float64Array(n),
-    arg: new Float64Array(n),
-    yStiff: new Float64Array(n),
-    scale: new Float64Array(n),
-    err: new Float64Array(n),
-    err3: new Float64Array(n),
-    coef: new Float64Array(cm.form.vectors * n),
-  };
-}
+/** Kernels by system and tableau, bound to the shared work arrays of (tableau, n); loaded before use. */
+const kernelCache = new WeakMap<OdeSystem, Map<UnpackedTableau, { compiled: boolean; kernel: StepKernel }>>();
 
-/** Evaluates full-stage row r at t + c_r h from y0, writing the argument to w.arg. */
-function evalStage(system: OdeSystem, cm: Compiled, w: Work, r: number, t: number, h: number, stats: SolverStats): void {
-  combine(w.k, w.n, cm.rows[r], h, w.y0, w.arg);
-  system.derivative(t + cm.rowC[r] * h, w.arg, w.stage[r]);
-  stats.derivativeEvaluations++;
-}
-
-/**
- * Stages 2…s from k_1 = f(t, y0) already in place; y1 = y0 + hΣ b_j k_j. With FSAL the last
- * stage's argument is y1 itself, so it is copied from there rather than recomputed.
- */
-function attemptStep(system: OdeSystem, cm: Compiled, w: Work, t: number, h: number, stats: SolverStats): void {
-  const s = cm.tab.stages;
-  const stiffStage = cm.tab.stiffness ? cm.tab.stiffness.stage : -1;
-  for (let r = 1; r < s; r++) {
-    evalStage(system, cm, w, r, t, h, stats);
-    if (r === stiffStage) w.yStiff.set(w.arg);
+/** The compiled kernel when the system offers its code and compilation is allowed; else the interpreter. */
+function kernelFor(system: OdeSystem, u: UnpackedTableau, w: Work): StepKernel {
+  const wanted = stepCompilationEnabled() && system.code !== undefined;
+  let bySystem = kernelCache.get(system);
+  const cached = bySystem?.get(u);
+  if (cached && cached.compiled === wanted) {
+    cached.kernel.load();
+    return cached.kernel;
   }
-  if (cm.tab.fsal) {
-    w.y1.set(w.arg);
-    return;
+  const compiled = wanted && system.code ? compiledKernel(system.code, u, w) : null;
+  const kernel = compiled ?? interpretedKernel(system, u, w);
+  if (!bySystem) {
+    bySystem = new Map();
+    kernelCache.set(system, bySystem);
   }
-  combine(w.k, w.n, cm.b, h, w.y0, w.y1);
-}
-
-/** Scaled RMS error (Hairer); DOP853's combined 5th/3rd-order estimate when e3 is present. */
-function errorNorm(cm: Compiled, w: Work, h: number, rtol: number, atol: number): number {
-  const { n, k, y0, y1, scale, err, err3 } = w;
-  fillScale(y0, y1, rtol, atol, scale);
-  if (!cm.e) return 0;
-  combine(k, n, cm.e, h, null, err);
-  let sum5 = 0;
-  for (let i = 0; i < n; i++) sum5 += (err[i] / scale[i]) ** 2;
-  if (!cm.e3) return Math.sqrt(sum5 / n);
-  combine(k, n, cm.e3, h, null, err3);
-  let sum3 = 0;
-  for (let i = 0; i < n; i++) sum3 += (err3[i] / scale[i]) ** 2;
-  const deno = sum5 + 0.01 * sum3;
-  return deno > 0 ? sum5 / Math.sqrt(n * deno) : 0;
-}
-
-/** f(t+h, y1) into its slot (one evaluation unless the tableau is FSAL). */
-function endSlope(system: OdeSystem, cm: Compiled, w: Work, t: number, h: number, stats: SolverStats): Float64Array {
-  const f1 = w.stage[cm.end];
-  if (!cm.tab.fsal) {
-    system.derivative(t + h, w.y1, f1);
-    stats.derivativeEvaluations++;
-  }
-  return f1;
-}
-
-/** Fills w.coef with the accepted step's continuous extension (extra stages evaluated here). */
-function denseCoefficients(system: OdeSystem, cm: Compiled, w: Work, t: number, h: number, stats: SolverStats): void {
-  const { n, k, y0, y1, coef } = w;
-  const f0 = w.stage[0];
-  const f1 = w.stage[cm.end];
-  const firstExtra = cm.end + 1;
-  for (let r = firstExtra; r < cm.total; r++) evalStage(system, cm, w, r, t, h, stats);
-  hermiteCoefficients(h, y0, f0, y1, f1, coef);
-  for (let v = 0; v < cm.d.length; v++) {
-    combine(k, n, cm.d[v], h, null, w.err);
-    coef.set(w.err, (4 + v) * n);
-  }
-}
-
-/**
- * Scaled RMS of weight·h·(p'(t_m) − f(t_m, p(t_m))) at the middle of the step: how far the
- * continuous extension strays from the differential equation between the steps.
- */
-function denseDefect(system: OdeSystem, cm: Compiled, w: Work, t: number, h: number, stats: SolverStats, weight: number): number {
-  const check = cm.denseCheck;
-  if (!check) return 0;
-  const { n, arg, err, err3, scale } = w;
-  check.form.evaluate(0.5, w.coef, 0, n, arg);
-  check.form.slope(0.5, w.coef, 0, n, err);
-  system.derivative(t + 0.5 * h, arg, err3);
-  stats.derivativeEvaluations++;
-  let sum = 0;
-  for (let i = 0; i < n; i++) sum += ((weight * (err[i] - h * err3[i])) / scale[i]) ** 2;
-  return Math.sqrt(sum / n);
+  bySystem.set(u, { compiled: wanted, kernel });
+  kernel.load();
+  return kernel;
 }
 
 /** h·‖f(y1) − k_stage‖ / ‖y1 − Y_stage‖, Hairer's estimate of h|λ|. */
-function stiffnessRatio(cm: Compiled, w: Work, h: number): number {
+function stiffnessRatio(cm: UnpackedTableau, w: Work, h: number): number {
   const test = cm.tab.stiffness;
   if (!test) return 0;
   const { n, k, y1, yStiff } = w;
@@ -424,11 +266,12 @@ export function integrateAdaptive(
   checkSpan(t0, t1);
   const { rtol, atol, maxSteps } = options;
   const n = system.dimension;
-  const cm = compile(tableau);
+  const cm = unpack(tableau);
   const w = makeWork(cm, n);
+  const kernel = kernelFor(system, cm, w);
   const ctl = tableau.controller;
   const span = t1 - t0;
-  if (span === 0) return { lastStep: options.initialStep ?? 0, firstStep: options.initialStep ?? 0, stiffAt: null };
+  if (span === 0) return { lastStep: options.initialStep ?? 0, restartStep: options.initialStep ?? 0, stiffAt: null };
 
   const f0 = startSegment(system, w, t0, y, stats);
 
@@ -445,7 +288,7 @@ export function integrateAdaptive(
   let rejectedLast = false;
   let nonFiniteComponent = -1;
   let attempts = 0;
-  let firstStep = 0;
+  let restartStep = 0;
   let t = t0;
 
   for (;;) {
@@ -463,9 +306,10 @@ export function integrateAdaptive(
     const hStep = last ? t1 - t : h;
     attempts++;
 
-    attemptStep(system, cm, w, t, hStep, stats);
+    const estimate = kernel.attempt(t, hStep, rtol, atol);
+    stats.derivativeEvaluations += cm.attemptEvaluations;
     const bad = firstNonFinite(w.y1);
-    const err = bad >= 0 ? Infinity : errorNorm(cm, w, hStep, rtol, atol);
+    const err = bad >= 0 ? Infinity : estimate;
     if (!(err <= 1)) {
       nonFiniteComponent = bad;
       stats.rejectedSteps++;
@@ -481,26 +325,31 @@ export function integrateAdaptive(
     let hNew = hStep / fac;
     errOld = Math.max(err, 1e-4);
 
-    const f1 = endSlope(system, cm, w, t, hStep, stats);
+    const size = cm.form.vectors * n;
+    const at = store.reserve(size);
+    const defect = kernel.complete(t, hStep, store.openChunk, at);
+    stats.derivativeEvaluations += cm.completeEvaluations;
+    const f1 = w.stage[cm.end];
     const badEnd = firstNonFinite(f1);
     if (badEnd >= 0) throw nonFinite(t + hStep, badEnd, 'derivative');
-    denseCoefficients(system, cm, w, t, hStep, stats);
     if (cm.denseCheck) {
-      const defect = denseDefect(system, cm, w, t, hStep, stats, cm.denseCheck.weight);
-      const fd = defect ** (1 / tableau.order) / ctl.safety;
       if (!(defect <= 1)) {
         // The values between the steps would miss the tolerance: retry smaller, as for a step error.
+        const fd = defect ** (1 / tableau.order) / ctl.safety;
         stats.rejectedSteps++;
         stats.denseRejections++;
         rejectedLast = true;
         h = hStep / Math.min(1 / ctl.facMin, Number.isFinite(fd) ? fd : 1 / ctl.facMin);
         continue;
       }
-      hNew = Math.min(hNew, hStep / Math.max(1 / ctl.facMax, fd));
+      // The defect limits the next step only when fd = defect^(1/order)/safety exceeds the step
+      // error's factor hStep/hNew: compared in powers, which spares a pow() on most steps.
+      if (defect > intPow((hStep / hNew) * ctl.safety, tableau.order)) {
+        hNew = Math.min(hNew, hStep / Math.max(1 / ctl.facMax, defect ** (1 / tableau.order) / ctl.safety));
+      }
     }
-    store.append(t, hStep, cm.form, w.coef);
+    store.commit(t, hStep, cm.form, size);
     stats.acceptedSteps++;
-    if (firstStep === 0) firstStep = hStep;
 
     const stiffNow =
       stiffness !== undefined && tableau.stiffness !== null && stiffness.wantsCheck()
@@ -509,17 +358,19 @@ export function integrateAdaptive(
 
     if (rejectedLast) hNew = Math.min(hNew, hStep);
     rejectedLast = false;
+    // A last step shortened to land on t1 says nothing against the step it replaced.
+    if (restartStep === 0) restartStep = last ? Math.max(hNew, h) : hNew;
     t = last ? t1 : t + hStep;
-    w.y0.set(w.y1);
-    if (cm.end !== 0) f0.set(f1);
+    copy(w.y1, w.y0, n);
+    if (cm.end !== 0) copy(f1, f0, n);
 
     if (last) {
       y.set(w.y0);
-      return { lastStep: Math.max(hNew, h), firstStep, stiffAt: null };
+      return { lastStep: Math.max(hNew, h), restartStep, stiffAt: null };
     }
     if (stiffNow) {
       y.set(w.y0);
-      return { lastStep: hNew, firstStep, stiffAt: t };
+      return { lastStep: hNew, restartStep, stiffAt: t };
     }
     h = Math.min(hNew, hMax);
   }
@@ -545,8 +396,9 @@ export function integrateFixed(
   const span = t1 - t0;
   if (span === 0) return;
   const n = system.dimension;
-  const cm = compile(tableau);
+  const cm = unpack(tableau);
   const w = makeWork(cm, n);
+  const kernel = kernelFor(system, cm, w);
   const f0 = startSegment(system, w, t0, y, stats);
   // Tolerance on the count so that h = span/N gives exactly N steps despite rounding.
   const steps = Math.max(1, Math.ceil(span / h - 1e-9));
@@ -554,17 +406,21 @@ export function integrateFixed(
     const t = t0 + m * h;
     const tNext = m === steps - 1 ? t1 : t0 + (m + 1) * h;
     const hStep = tNext - t;
-    attemptStep(system, cm, w, t, hStep, stats);
+    kernel.attempt(t, hStep, 0, 1);
+    stats.derivativeEvaluations += cm.attemptEvaluations;
     const bad = firstNonFinite(w.y1);
     if (bad >= 0) throw nonFinite(tNext, bad, 'value');
-    const f1 = endSlope(system, cm, w, t, hStep, stats);
+    const size = cm.form.vectors * n;
+    const at = store.reserve(size);
+    kernel.complete(t, hStep, store.openChunk, at);
+    store.commit(t, hStep, cm.form, size);
+    stats.derivativeEvaluations += cm.completeEvaluations;
+    const f1 = w.stage[cm.end];
     const badEnd = firstNonFinite(f1);
     if (badEnd >= 0) throw nonFinite(tNext, badEnd, 'derivative');
-    denseCoefficients(system, cm, w, t, hStep, stats);
-    store.append(t, hStep, cm.form, w.coef);
     stats.acceptedSteps++;
-    w.y0.set(w.y1);
-    if (cm.end !== 0) f0.set(f1);
+    copy(w.y1, w.y0, n);
+    if (cm.end !== 0) copy(f1, f0, n);
   }
   y.set(w.y0);
 }

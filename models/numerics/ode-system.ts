@@ -8,6 +8,25 @@ export interface OdeSystem {
   derivative(t: number, y: Float64Array, out: Float64Array): void;
   /** Writes the Jacobian ∂f/∂y into `out`, row-major (out[i*n + j] = ∂f_i/∂y_j). */
   jacobian(t: number, y: Float64Array, out: Float64Array): void;
+  /**
+   * The same derivative as straight-line statements, for the compiled step kernels
+   * (rk-step-compiler.ts); absent, the kernels call derivative(). Only for systems
+   * that do not depend on t between events.
+   */
+  readonly code?: DerivativeCode;
+}
+
+/**
+ * An autonomous derivative written out as statements over scalar locals. The statements
+ * may read `p[j]` (params, fixed) and `u[i]` (input, read at every call) and nothing else;
+ * they must declare each f(i) with `let` and may declare block-scoped temporaries.
+ * Identical arithmetic, in the same order, as derivative(): compiled and interpreted runs
+ * agree bit for bit.
+ */
+export interface DerivativeCode {
+  readonly params: Float64Array;
+  readonly input: Float64Array;
+  emit(y: (i: number) => string, f: (i: number) => string): string;
 }
 
 /** Counters every integrator adds to; the driver reports them as diagnostics. */
