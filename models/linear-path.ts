@@ -7,9 +7,38 @@ import { createExpmWorkspace, createPropagator, propagator, type ExpmWorkspace, 
 import type { Trajectory } from './numerics/dense-store.ts';
 import type { CompartmentSystem } from './system.ts';
 
+/**
+ * A propagator with Φ stored by its nonzero entries: compartment models leave many exact
+ * zeros in Φ (nothing flows back into a gut depot, and AUC and eliminated amounts never
+ * feed back), and marching the output grid is one product with Φ per row.
+ */
+export interface SparsePropagator {
+  readonly rowStart: Int32Array;
+  readonly cols: Int32Array;
+  readonly vals: Float64Array;
+  readonly g: Float64Array;
+}
+
+function sparsePropagator(p: Propagator, n: number): SparsePropagator {
+  const cols: number[] = [];
+  const vals: number[] = [];
+  const rowStart = new Int32Array(n + 1);
+  for (let i = 0; i < n; i++) {
+    for (let j = 0; j < n; j++) {
+      const v = p.phi[i * n + j];
+      if (v !== 0) {
+        cols.push(j);
+        vals.push(v);
+      }
+    }
+    rowStart[i + 1] = cols.length;
+  }
+  return { rowStart, cols: Int32Array.from(cols), vals: Float64Array.from(vals), g: p.g.slice() };
+}
+
 /** Propagators keyed by (step, input vector); regular grids reuse a handful of them. */
 export class PropagatorCache {
-  private readonly cache = new Map<string, Propagator>();
+  private readonly cache = new Map<string, SparsePropagator>();
   private readonly ws: ExpmWorkspace;
   computed = 0;
 
@@ -30,9 +59,9 @@ export class PropagatorCache {
   readonly fastestRate: number;
   private lastH = NaN;
   private lastKey = -1;
-  private last: Propagator | null = null;
+  private last: SparsePropagator | null = null;
 
-  get(h: number, rateKey: number): Propagator {
+  get(h: number, rateKey: number): SparsePropagator {
     // Steps that differ only in the last bits (t − t0 on a grid) share one propagator; the
     // relative change of 1e-12 in h is far below any tolerance a user can ask for.
     if (rateKey === this.lastKey && Math.abs(h - this.lastH) <= 1e-12 * h && this.last) return this.last;
@@ -44,10 +73,10 @@ export class PropagatorCache {
     return hit;
   }
 
-  private compute(key: string, h: number, rateKey: number): Propagator {
+  private compute(key: string, h: number, rateKey: number): SparsePropagator {
     if (this.cache.size >= this.capacity) this.cache.clear();
     const input = this.inputs[rateKey];
-    const p = propagator(this.matrix, this.n, h, isZero(input) ? null : input, this.ws, createPropagator(this.n));
+    const p = sparsePropagator(propagator(this.matrix, this.n, h, isZero(input) ? null : input, this.ws, createPropagator(this.n)), this.n);
     this.computed++;
     this.cache.set(key, p);
     return p;
@@ -58,7 +87,7 @@ export class PropagatorCache {
     const input = this.inputs[rateKey];
     propagator(this.matrix, this.n, h, isZero(input) ? null : input, this.ws, scratch);
     this.computed++;
-    apply(scratch, x, this.n, out);
+    applyDense(scratch, x, this.n, out);
   }
 
   /** out ← Φ(h)·x + g(h) with a cached propagator; out must not be x. */
@@ -74,11 +103,22 @@ function isZero(v: Float64Array): boolean {
 }
 
 /** out = Φ·x + g (out and x distinct). */
-function apply(p: Propagator, x: Float64Array, n: number, out: Float64Array): void {
+function applyDense(p: Propagator, x: Float64Array, n: number, out: Float64Array): void {
+  const { phi, g } = p;
   for (let i = 0; i < n; i++) {
-    let s = p.g[i];
+    let s = g[i];
     const row = i * n;
-    for (let j = 0; j < n; j++) s += p.phi[row + j] * x[j];
+    for (let j = 0; j < n; j++) s += phi[row + j] * x[j];
+    out[i] = s;
+  }
+}
+
+/** out = Φ·x + g over Φ's nonzero entries (out and x distinct). */
+function apply(p: SparsePropagator, x: Float64Array, n: number, out: Float64Array): void {
+  const { rowStart, cols, vals, g } = p;
+  for (let i = 0; i < n; i++) {
+    let s = g[i];
+    for (let e = rowStart[i]; e < rowStart[i + 1]; e++) s += vals[e] * x[cols[e]];
     out[i] = s;
   }
 }
@@ -190,21 +230,29 @@ export class LinearTrajectory implements Trajectory {
    */
   sample(times: Float64Array, sides: Uint8Array, write: (row: number, state: Float64Array) => void): void {
     const n = this.dimension;
-    const x = new Float64Array(n);
-    const next = new Float64Array(n);
+    let x = new Float64Array(n);
+    let next = new Float64Array(n);
+    const starts = this.times;
+    const last = starts.length - 1;
     let piece = -1;
+    let k = 0;
     let at = 0;
     for (let row = 0; row < times.length; row++) {
       const t = times[row];
-      const k = this.locate(t, sides[row] === 0 ? 'left' : 'right');
+      // Rows ascend, so the piece only moves forward: the last one starting before t (left
+      // limit) or at t (right limit), as locate() would find.
+      if (sides[row] === 0) while (k < last && starts[k + 1] < t) k++;
+      else while (k < last && starts[k + 1] <= t) k++;
       if (k !== piece) {
         piece = k;
         this.pieceState(k, x);
-        at = this.times[k];
+        at = starts[k];
       }
       if (t > at) {
-        this.cache.advance(x, t - at, this.keys[k], next);
-        x.set(next);
+        apply(this.cache.get(t - at, this.keys[k]), x, n, next);
+        const swap = x;
+        x = next;
+        next = swap;
         at = t;
       }
       write(row, x);

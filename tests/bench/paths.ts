@@ -27,16 +27,18 @@ export class GridSeries {
   readonly write: (row: number, state: ArrayLike<number>) => void;
 
   constructor(rows: number) {
-    this.gut = new Float64Array(rows);
-    this.central = new Float64Array(rows);
-    this.peripheral = new Float64Array(rows);
-    this.concentration = new Float64Array(rows);
+    // One allocation for the four columns (the same for every path timed).
+    const all = new Float64Array(4 * rows);
+    const gut = (this.gut = all.subarray(0, rows));
+    const central = (this.central = all.subarray(rows, 2 * rows));
+    const peripheral = (this.peripheral = all.subarray(2 * rows, 3 * rows));
+    const concentration = (this.concentration = all.subarray(3 * rows, 4 * rows));
     const invV1 = 1 / halvexin.v1;
     this.write = (row, state) => {
-      this.gut[row] = state[0];
-      this.central[row] = state[1];
-      this.peripheral[row] = state[2];
-      this.concentration[row] = state[1] * invV1;
+      gut[row] = state[0];
+      central[row] = state[1];
+      peripheral[row] = state[2];
+      concentration[row] = state[1] * invV1;
     };
   }
 }
