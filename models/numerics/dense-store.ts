@@ -69,8 +69,13 @@ export function hermiteCoefficients(
   }
 }
 
-/** Coefficients live in fixed-size chunks, so growing never copies what is stored. */
-const chunkSize = 1 << 16;
+/**
+ * Coefficients live in fixed-size chunks, so growing never copies what is stored. 64 KiB
+ * chunks stay below the size at which the allocator maps fresh pages from the system (and
+ * the kernel zero-fills them page by page), which made 512 KiB chunks cost more than the
+ * steps written into them.
+ */
+const chunkSize = 1 << 13;
 
 export class DenseStore implements Trajectory {
   readonly dimension: number;

@@ -92,11 +92,17 @@ export function alternatingForm(vectors: number): DenseForm & DenseSlope {
     vectors,
     evaluate(theta, coef, offset, n, out) {
       const theta1 = 1 - theta;
+      // Factors alternate from the top vector down; taken two at a time, so no test per vector.
+      const first = ((vectors - 2) & 1) === 0 ? theta : theta1;
+      const second = first === theta ? theta1 : theta;
       for (let i = 0; i < n; i++) {
         let acc = coef[offset + (vectors - 1) * n + i];
-        for (let v = vectors - 2; v >= 0; v--) {
-          acc = coef[offset + v * n + i] + ((v & 1) === 0 ? theta : theta1) * acc;
+        let v = vectors - 2;
+        for (; v >= 1; v -= 2) {
+          acc = coef[offset + v * n + i] + first * acc;
+          acc = coef[offset + (v - 1) * n + i] + second * acc;
         }
+        if (v === 0) acc = coef[offset + i] + first * acc;
         out[i] = acc;
       }
     },
