@@ -7,7 +7,7 @@ import { emptyStats, IntegrationFailure } from '../../models/numerics/ode-system
 import type { OdeSystem } from '../../models/numerics/ode-system';
 import { integrateRosenbrock } from '../../models/numerics/rosenbrock';
 import type { RosenbrockOptions } from '../../models/numerics/rosenbrock';
-import { createIntegratorState, integrateSegment } from '../../models/numerics/auto-integrator';
+import { createIntegratorState, HIGH_ORDER_RTOL, integrateSegment } from '../../models/numerics/auto-integrator';
 import type { MethodName, SegmentSettings } from '../../models/numerics/auto-integrator';
 import {
   blowUp,
@@ -105,7 +105,8 @@ function segment(system: OdeSystem, t1: number, y0: number[], settings: SegmentS
 }
 
 describe('automatic method selection', () => {
-  const settings = (method: MethodName): SegmentSettings => ({ method, rtol: 1e-6, atol: 1e-9, maxSteps: 1e6 });
+  // rtol 1e-5: above HIGH_ORDER_RTOL, so 'auto' starts with DOPRI5.
+  const settings = (method: MethodName): SegmentSettings => ({ method, rtol: 1e-5, atol: 1e-9, maxSteps: 1e6 });
 
   it('switches to Rosenbrock on the stiff pair and uses far fewer steps than DOPRI5 alone', () => {
     const exact = stiffPairExact(10, 2, 0); // eigen-decomposition, λ = −1, −10⁴
@@ -118,17 +119,27 @@ describe('automatic method selection', () => {
     // DOPRI5 is held at h ≈ 3.3/10⁴ by stability: ≈ 3·10⁴ steps over [0, 10].
     expect(explicit.stats.acceptedSteps).toBeGreaterThan(20000);
     expect(auto.stats.acceptedSteps * 50).toBeLessThan(explicit.stats.acceptedSteps);
-    for (const r of [auto, explicit]) expect(maxAbsDiff(r.y, exact)).toBeLessThan(10 * (1e-9 + 1e-6 * exact[0]));
+    for (const r of [auto, explicit]) expect(maxAbsDiff(r.y, exact)).toBeLessThan(10 * (1e-9 + 1e-5 * exact[0]));
     expect(auto.store.end).toBe(10);
   });
 
-  it('stays explicit on a non-stiff problem and picks DOP853 at rtol ≤ 1e-8', () => {
+  it(`stays explicit on a non-stiff problem and picks DOP853 at rtol ≤ ${HIGH_ORDER_RTOL}`, () => {
     const loose = segment(oscillator, 10, [1, 0], settings('auto'));
     expect(loose.result.methods).toEqual(['dopri5']);
     expect(loose.stats.stiffSwitches).toBe(0);
-    const tight = segment(oscillator, 10, [1, 0], { method: 'auto', rtol: 1e-9, atol: 1e-12, maxSteps: 1e6 });
-    expect(tight.result.methods).toEqual(['dop853']);
-    expect(maxAbsDiff(tight.y, [Math.cos(10), -Math.sin(10)])).toBeLessThan(1e-8); // 10·rtol
+    for (const rtol of [HIGH_ORDER_RTOL, 1e-9]) {
+      const tight = segment(oscillator, 10, [1, 0], { method: 'auto', rtol, atol: rtol * 1e-3, maxSteps: 1e6 });
+      expect(tight.result.methods).toEqual(['dop853']);
+      expect(maxAbsDiff(tight.y, [Math.cos(10), -Math.sin(10)])).toBeLessThan(10 * rtol);
+    }
+  });
+
+  it('hands over from DOP853 to Rosenbrock as well', () => {
+    const exact = stiffPairExact(10, 2, 0);
+    const auto = segment(stiffPair, 10, [2, 0], { method: 'auto', rtol: 1e-7, atol: 1e-10, maxSteps: 1e6 });
+    expect(auto.result.methods).toEqual(['dop853', 'rosenbrock']);
+    expect(auto.stats.stiffSwitches).toBe(1);
+    expect(maxAbsDiff(auto.y, exact)).toBeLessThan(10 * (1e-10 + 1e-7 * exact[0]));
   });
 
   it('tries the explicit pair again on the next segment and carries step hints', () => {
