@@ -5,6 +5,7 @@
 import type { Schedule } from './events.ts';
 import { createExpmWorkspace, createPropagator, propagator, type ExpmWorkspace, type Propagator } from './linalg/expm.ts';
 import type { Trajectory } from './numerics/dense-store.ts';
+import { codeGenerationEnabled, compileSource, index } from './numerics/generated-code.ts';
 import type { CompartmentSystem } from './system.ts';
 
 /**
@@ -17,6 +18,35 @@ export interface SparsePropagator {
   readonly cols: Int32Array;
   readonly vals: Float64Array;
   readonly g: Float64Array;
+  /** The product Φ·x + g as straight-line code for this sparsity pattern, or null (then a loop). */
+  readonly product: Product | null;
+}
+
+type Product = (vals: Float64Array, g: Float64Array, x: Float64Array, out: Float64Array) => void;
+
+/** Products by sparsity pattern: every model of one shape, and every step size, shares them. */
+const products = new Map<string, Product | null>();
+const MAX_PRODUCTS = 256;
+
+/**
+ * out_i = g_i + Σ vals[e]·x[cols[e]], written out entry by entry in the loop's order (so
+ * the bits are the loop's); null where code generation is off or refused.
+ */
+function productFor(rowStart: Int32Array, cols: Int32Array, n: number): Product | null {
+  if (!codeGenerationEnabled() || cols.length > 4096) return null;
+  const key = `${n}|${rowStart.join(',')}|${cols.join(',')}`;
+  if (products.has(key)) return products.get(key) ?? null;
+  const lines: string[] = ['"use strict";'];
+  for (let j = 0; j < n; j++) lines.push(`const x${j} = x[${index(j)}];`);
+  for (let i = 0; i < n; i++) {
+    let expr = `g[${index(i)}]`;
+    for (let e = rowStart[i]; e < rowStart[i + 1]; e++) expr += ` + vals[${index(e)}] * x${index(cols[e])}`;
+    lines.push(`out[${index(i)}] = ${expr};`);
+  }
+  const product = compileSource<Product>(['vals', 'g', 'x', 'out'], lines.join('\n'));
+  if (products.size >= MAX_PRODUCTS) products.clear();
+  products.set(key, product);
+  return product;
 }
 
 function sparsePropagator(p: Propagator, n: number): SparsePropagator {
@@ -33,7 +63,8 @@ function sparsePropagator(p: Propagator, n: number): SparsePropagator {
     }
     rowStart[i + 1] = cols.length;
   }
-  return { rowStart, cols: Int32Array.from(cols), vals: Float64Array.from(vals), g: p.g.slice() };
+  const colIndex = Int32Array.from(cols);
+  return { rowStart, cols: colIndex, vals: Float64Array.from(vals), g: p.g.slice(), product: productFor(rowStart, colIndex, n) };
 }
 
 /** Propagators keyed by (step, input vector); regular grids reuse a handful of them. */
@@ -115,6 +146,10 @@ function applyDense(p: Propagator, x: Float64Array, n: number, out: Float64Array
 
 /** out = Φ·x + g over Φ's nonzero entries (out and x distinct). */
 function apply(p: SparsePropagator, x: Float64Array, n: number, out: Float64Array): void {
+  if (p.product) {
+    p.product(p.vals, p.g, x, out);
+    return;
+  }
   const { rowStart, cols, vals, g } = p;
   for (let i = 0; i < n; i++) {
     let s = g[i];

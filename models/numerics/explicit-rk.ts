@@ -9,7 +9,8 @@ import { IntegrationFailure } from './ode-system';
 import type { OdeSystem, SolverStats } from './ode-system';
 import { freshWork, interpretedKernel, unpack } from './rk-step';
 import type { StepKernel, UnpackedTableau, Work } from './rk-step';
-import { compiledKernel, stepCompilationEnabled } from './rk-step-compiler';
+import { codeGenerationEnabled } from './generated-code';
+import { compiledKernel } from './rk-step-compiler';
 import type { ExplicitTableau } from './tableau';
 
 export interface AdaptiveOptions {
@@ -186,7 +187,7 @@ const kernelCache = new WeakMap<OdeSystem, Map<UnpackedTableau, { compiled: bool
 
 /** The compiled kernel when the system offers its code and compilation is allowed; else the interpreter. */
 function kernelFor(system: OdeSystem, u: UnpackedTableau, w: Work): StepKernel {
-  const wanted = stepCompilationEnabled() && system.code !== undefined;
+  const wanted = codeGenerationEnabled() && system.code !== undefined;
   let bySystem = kernelCache.get(system);
   const cached = bySystem?.get(u);
   if (cached && cached.compiled === wanted) {

@@ -11,22 +11,12 @@
  * state is too large for straight-line code to pay, compiledKernel returns null and the
  * engine interprets the rows instead.
  */
+import { codeGenerationEnabled, compileSource, index as idx, literal as lit } from './generated-code';
 import type { DerivativeCode } from './ode-system';
 import type { SparseRow, StepKernel, UnpackedTableau, Work } from './rk-step';
 
 /** Above this state size the unrolled code grows large and stops paying; the interpreter takes over. */
 export const MAX_COMPILED_DIMENSION = 48;
-
-let compilationEnabled = true;
-
-/** Turns kernel compilation on or off (tests and the benchmark compare both). */
-export function setStepCompilation(enabled: boolean): void {
-  compilationEnabled = enabled;
-}
-
-export function stepCompilationEnabled(): boolean {
-  return compilationEnabled;
-}
 
 /**
  * The compiled phases close over fixed arrays: the work arrays of (tableau, n) and one
@@ -49,24 +39,11 @@ type InstanceFactory = (
   y1: Float64Array,
   yStiff: Float64Array,
   scale: Float64Array,
-
 ) => Pick<StepKernel, 'attempt' | 'complete'>;
 
 /** Instances by work arrays and source text: models of the same shape share one compiled (and warmed-up) kernel. */
 const instances = new WeakMap<Work, Map<string, CompiledInstance>>();
 const MAX_INSTANCES = 64;
-
-/** A coefficient as a literal that parses back to the same double. */
-function lit(x: number): string {
-  if (!Number.isFinite(x)) throw new RangeError(`non-finite coefficient ${x}`);
-  const s = String(x);
-  return x < 0 || Object.is(x, -0) ? `(${s})` : s;
-}
-
-const idx = (i: number): string => {
-  if (!Number.isInteger(i) || i < 0) throw new RangeError(`bad index ${i}`);
-  return String(i);
-};
 
 /** Local names: y0 → a_i, y1 → b_i, stage r's slope → k{r}_i, its argument → x{r}_i. */
 const A = (i: number) => `a${i}`;
@@ -204,13 +181,8 @@ function instanceFor(source: string, code: DerivativeCode, w: Work): CompiledIns
   let bySource = instances.get(w);
   const cached = bySource?.get(source);
   if (cached) return cached;
-  let factory: InstanceFactory;
-  try {
-    factory = new Function('p', 'u', 'y0', 'k', 'y1', 'yStiff', 'scale', source) as InstanceFactory;
-  } catch {
-    // Code generation refused (EvalError under a strict Content-Security-Policy).
-    return null;
-  }
+  const factory = compileSource<InstanceFactory>(['p', 'u', 'y0', 'k', 'y1', 'yStiff', 'scale'], source);
+  if (!factory) return null;
   const p = new Float64Array(code.params.length);
   const u = new Float64Array(code.input.length);
   const phases = factory(p, u, w.y0, w.k, w.y1, w.yStiff, w.scale);
@@ -229,7 +201,7 @@ function instanceFor(source: string, code: DerivativeCode, w: Work): CompiledIns
  * do. `w` must be the shared work arrays of (tableau, n): the kernel is bound to them.
  */
 export function compiledKernel(code: DerivativeCode, u: UnpackedTableau, w: Work): StepKernel | null {
-  if (!compilationEnabled || w.n > MAX_COMPILED_DIMENSION || code.input.length !== w.n) return null;
+  if (!codeGenerationEnabled() || w.n > MAX_COMPILED_DIMENSION || code.input.length !== w.n) return null;
   const instance = instanceFor(kernelSource(code, u, w.n), code, w);
   if (!instance) return null;
   return {

@@ -78,11 +78,14 @@ export interface EngineRun {
   trajectory: Trajectory;
 }
 
-/** One engine run: solveSchedule from the empty state, then the trajectory sampled on the output rows. */
-export function runEngine(p: Prepared): EngineRun {
+/**
+ * One engine run: solveSchedule from the empty state, then the trajectory sampled on the
+ * output rows, into `grid` (the timed jobs pass one made beforehand, as for odex, so that
+ * no path is timed allocating its output).
+ */
+export function runEngine(p: Prepared, grid = new GridSeries(p.rows.times.length)): EngineRun {
   const stats = emptyStats();
   const solution = solveSchedule(p.model, p.system, p.schedule, new Float64Array(p.system.dimension), stats);
-  const grid = new GridSeries(p.rows.times.length);
   solution.trajectory.sample(p.rows.times, p.rows.sides, grid.write);
   return { grid, stats, methodsUsed: solution.methodsUsed, propagators: solution.propagators, trajectory: solution.trajectory };
 }
@@ -152,6 +155,7 @@ export function runOdex(
   rtol: number,
   atol: number,
   start: OdexStart = 'default',
+  grid = new GridSeries(rows.times.length),
 ): OdexRun {
   const { ka, k10, k12, k21 } = rates;
   const k1 = k10 + k12;
@@ -175,7 +179,6 @@ export function runOdex(
   solver.absoluteTolerance = atol;
   solver.maxSteps = 1_000_000;
 
-  const grid = new GridSeries(rows.times.length);
   const times = rows.times;
   const sides = rows.sides;
   const total = times.length;

@@ -3,8 +3,13 @@
  * doses (two-compartment model, hourly output), against an independent closed form and
  * against odex. Prints tables and writes every figure to tests/artifacts/bench.json.
  *
- * Timings are wall-clock medians (performance.now()) over interleaved rounds after two
- * warm-up rounds; they depend on the machine and on whatever else it runs at the time.
+ * Timings are wall-clock medians (performance.now()) of consecutive runs of each job after
+ * two warm-up runs (timing.ts says why not interleaved); they depend on the machine and on
+ * whatever else it runs at the time.
+ *
+ * The script runs as one JavaScript bundle (esbuild, packages left external) under plain
+ * node: run through tsx's module loader, every path measured 20–40% slower, the faster
+ * ones more, which is the loader's cost and not the engine's.
  */
 import { spawnSync } from 'node:child_process';
 import { mkdirSync, writeFileSync } from 'node:fs';
@@ -13,10 +18,10 @@ import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { simulate, simulateModel } from '../../models/simulate.ts';
 import { singleDose, singleDoseVsExpm, superposed } from './closed-form.ts';
-import { prepare, readModel, runEngine, runOdex, type EngineRun, type OdexRun } from './paths.ts';
+import { GridSeries, prepare, readModel, runEngine, runOdex, type EngineRun, type OdexRun } from './paths.ts';
 import { phaseNames, simulatePhases, type PhaseName } from './phases.ts';
 import { AMOUNT_SCALE, halvexin, linearScenario, saturableScenario, type SolverBlock } from './scenario.ts';
-import { summarise, timeRounds, type Job, type Timing } from './timing.ts';
+import { summarise, timeBlocks, type Job, type Timing } from './timing.ts';
 
 const here = dirname(fileURLToPath(import.meta.url));
 const root = join(here, '..', '..');
@@ -149,23 +154,26 @@ interface RunRow {
 type AnyRun = { engine: EngineRun } | { odex: OdexRun };
 const jobs: Job<AnyRun>[] = [];
 const meta = new Map<string, { path: RunRow['path']; method: string; rtol: number | null; solver: SolverBlock | null }>();
-jobs.push({ key: 'exact', run: () => ({ engine: runEngine(exactPrepared) }) });
+const exactGrid = new GridSeries(rows.times.length);
+jobs.push({ key: 'exact', run: () => ({ engine: runEngine(exactPrepared, exactGrid) }) });
 meta.set('exact', { path: 'exact', method: 'exact', rtol: null, solver: { method: 'exact' } });
 for (const method of METHODS) {
   for (const rtol of TOLERANCES) {
     const solver: SolverBlock = { method, rtol, atol: atolOf(rtol) };
     const p = prepare(linearScenario(solver), method === 'auto');
     const key = `${method}@${rtol}`;
-    jobs.push({ key, run: () => ({ engine: runEngine(p) }) });
+    const grid = new GridSeries(rows.times.length);
+    jobs.push({ key, run: () => ({ engine: runEngine(p, grid) }) });
     meta.set(key, { path: 'adaptive', method, rtol, solver });
   }
 }
 for (const rtol of ODEX_TOLERANCES) {
   const key = `odex@${rtol}`;
-  jobs.push({ key, run: () => ({ odex: runOdex(exactPrepared.schedule, rows, rtol, atolOf(rtol), ODEX_FIRST_STEP) }) });
+  const grid = new GridSeries(rows.times.length);
+  jobs.push({ key, run: () => ({ odex: runOdex(exactPrepared.schedule, rows, rtol, atolOf(rtol), ODEX_FIRST_STEP, grid) }) });
   meta.set(key, { path: 'odex', method: 'odex', rtol, solver: null });
 }
-const timed = timeRounds(jobs, { warmups: 2, minReps: 5, maxReps: 9, budgetMs: 25_000 });
+const timed = timeBlocks(jobs, { warmups: 2, minReps: 7, maxReps: 11, budgetMs: 1_500 });
 
 // Full simulate() (normalise, solve, grid, exposure figures, steady state) for context: the
 // exact path and each adaptive method at rtol 1e-8 (all tolerances would double the run time).
@@ -179,7 +187,7 @@ for (const [key, m] of meta) {
     run: m.method === 'auto' ? () => simulateModel(readModel(scenario, true)) : () => simulate(scenario),
   });
 }
-const simTimed = new Map(timeRounds(simJobs, { warmups: 2, minReps: 5, maxReps: 7, budgetMs: 8_000 }).map((r) => [r.key, r.timing]));
+const simTimed = new Map(timeBlocks(simJobs, { warmups: 2, minReps: 5, maxReps: 7, budgetMs: 1_500 }).map((r) => [r.key, r.timing]));
 
 const runs: RunRow[] = timed.map(({ key, timing, value }) => {
   const m = meta.get(key) as NonNullable<ReturnType<typeof meta.get>>;
@@ -339,7 +347,7 @@ const satCheck = simulate(saturable);
 if (!satCheck.ok) throw new Error(JSON.stringify(satCheck.problems));
 const satCentral = satCheck.value.compartments[1].concentration as Float64Array;
 const satCmax = satCentral.reduce((m, v) => Math.max(m, v), 0);
-const [satTimed] = timeRounds([{ key: 'saturable', run: () => simulate(saturable) }], { warmups: 2, minReps: 9, maxReps: 15, budgetMs: 4000 });
+const [satTimed] = timeBlocks([{ key: 'saturable', run: () => simulate(saturable) }], { warmups: 2, minReps: 9, maxReps: 15, budgetMs: 4000 });
 const phaseSamples = new Map<PhaseName, number[]>(phaseNames.map((n) => [n, []]));
 for (let i = 0; i < 7; i++) {
   const ph = simulatePhases(saturable);

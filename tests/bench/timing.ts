@@ -60,30 +60,12 @@ export interface JobResult<T> {
 }
 
 /**
- * Times several jobs in interleaved rounds (every job once per round, alternating the
- * order), so that load from elsewhere on the machine falls on all of them alike rather
- * than on whichever happened to run at a busy moment. `warmups` untimed rounds first;
- * then at least minReps rounds, more (up to maxReps) while the budget lasts.
+ * Times several jobs one after another, each in its own block of consecutive calls
+ * (timeIt: warm-ups, then the timed repetitions). Blocks rather than interleaved rounds:
+ * odex allocates fresh arrays at every right-hand-side call, and interleaved, the garbage
+ * collection it causes fell on whichever job ran next — the exact path measured up to 1.7×
+ * and the adaptive path 2× slower after an odex run than after their own.
  */
-export function timeRounds<T>(jobs: Job<T>[], options: TimeOptions = {}): JobResult<T>[] {
-  const { warmups = 2, minReps = 5, maxReps = 9, budgetMs = 30_000 } = options;
-  const values = new Map<string, T>();
-  const samples = new Map<string, number[]>(jobs.map((j) => [j.key, []]));
-  for (let w = 0; w < warmups; w++) for (const job of jobs) values.set(job.key, job.run());
-  const started = performance.now();
-  for (let round = 0; round < maxReps; round++) {
-    if (round >= minReps && performance.now() - started > budgetMs) break;
-    const order = round % 2 === 0 ? jobs : [...jobs].reverse();
-    for (const job of order) {
-      const t0 = performance.now();
-      const value = job.run();
-      (samples.get(job.key) as number[]).push(performance.now() - t0);
-      values.set(job.key, value);
-    }
-  }
-  return jobs.map((job) => ({
-    key: job.key,
-    timing: summarise(samples.get(job.key) as number[]),
-    value: values.get(job.key) as T,
-  }));
+export function timeBlocks<T>(jobs: Job<T>[], options: TimeOptions = {}): JobResult<T>[] {
+  return jobs.map((job) => ({ key: job.key, ...timeIt(job.run, options) }));
 }

@@ -8,14 +8,15 @@
 import fc from 'fast-check';
 import { afterEach, describe, expect, it, vi } from 'vitest';
 import { normaliseScenario } from '../../models/normalize.ts';
-import { kernelSource, setStepCompilation } from '../../models/numerics/rk-step-compiler.ts';
+import { setCodeGeneration } from '../../models/numerics/generated-code.ts';
+import { kernelSource } from '../../models/numerics/rk-step-compiler.ts';
 import { unpack } from '../../models/numerics/rk-step.ts';
 import { DOP853, DOPRI5, EULER, HEUN, RK4 } from '../../models/numerics/tableaux.ts';
 import { simulate, simulateModel, type SimulationResult } from '../../models/simulate.ts';
 import { CompartmentSystem } from '../../models/system.ts';
 
 afterEach(() => {
-  setStepCompilation(true);
+  setCodeGeneration(true);
   vi.unstubAllGlobals();
 });
 
@@ -45,7 +46,7 @@ function scenario(method: string, extra: Record<string, unknown> = {}) {
 }
 
 function run(method: string, compiled: boolean, extra: Record<string, unknown> = {}): SimulationResult {
-  setStepCompilation(compiled);
+  setCodeGeneration(compiled);
   const result = simulate(scenario(method, extra));
   if (!result.ok) throw new Error(JSON.stringify(result.problems));
   return result.value;
@@ -91,7 +92,7 @@ describe('compiled step kernels', () => {
     const refused = simulateModel(model.value);
     vi.unstubAllGlobals();
     expect(refusals).toBeGreaterThan(0);
-    setStepCompilation(false);
+    setCodeGeneration(false);
     const interpreted = simulateModel(model.value);
     if (!refused.ok || !interpreted.ok) throw new Error('simulation failed');
     expect(refused.value.diagnostics.methodsUsed).toEqual(['dop853']);
