@@ -65,6 +65,17 @@ export function fastestComponent(y: Float64Array, f: Float64Array, rtol: number,
   return best;
 }
 
+/**
+ * x^p, by square roots when p is 1/2, 1/4 or 1/8 (DOP853's exponents: its controller takes
+ * two such powers on every step, and Math.pow costs several times a square root).
+ */
+function power(x: number, p: number): number {
+  if (p === 0.125) return Math.sqrt(Math.sqrt(Math.sqrt(x)));
+  if (p === 0.25) return Math.sqrt(Math.sqrt(x));
+  if (p === 0.5) return Math.sqrt(x);
+  return x ** p;
+}
+
 /** x^k for a small non-negative integer k, by repeated multiplication. */
 function intPow(x: number, k: number): number {
   let r = 1;
@@ -321,8 +332,8 @@ export function integrateAdaptive(
     }
     nonFiniteComponent = -1;
 
-    const fac11 = err ** alpha;
-    const fac = Math.max(1 / ctl.facMax, Math.min(1 / ctl.facMin, fac11 / errOld ** ctl.beta / ctl.safety));
+    const fac11 = power(err, alpha);
+    const fac = Math.max(1 / ctl.facMax, Math.min(1 / ctl.facMin, fac11 / (ctl.beta === 0 ? 1 : errOld ** ctl.beta) / ctl.safety));
     let hNew = hStep / fac;
     errOld = Math.max(err, 1e-4);
 
@@ -346,7 +357,7 @@ export function integrateAdaptive(
       // The defect limits the next step only when fd = defect^(1/order)/safety exceeds the step
       // error's factor hStep/hNew: compared in powers, which spares a pow() on most steps.
       if (defect > intPow((hStep / hNew) * ctl.safety, tableau.order)) {
-        hNew = Math.min(hNew, hStep / Math.max(1 / ctl.facMax, defect ** (1 / tableau.order) / ctl.safety));
+        hNew = Math.min(hNew, hStep / Math.max(1 / ctl.facMax, power(defect, 1 / tableau.order) / ctl.safety));
       }
     }
     store.commit(t, hStep, cm.form, size);

@@ -4,8 +4,8 @@
  * against odex. Prints tables and writes every figure to tests/artifacts/bench.json.
  *
  * Timings are wall-clock medians (performance.now()) of consecutive runs of each job after
- * two warm-up runs (timing.ts says why not interleaved); they depend on the machine and on
- * whatever else it runs at the time.
+ * a warm-up of at least two runs and 300 ms (timing.ts says why not interleaved); they
+ * depend on the machine and on whatever else it runs at the time.
  *
  * The script runs as one JavaScript bundle (esbuild, packages left external) under plain
  * node: run through tsx's module loader, every path measured 20–40% slower, the faster

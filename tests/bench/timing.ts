@@ -11,6 +11,11 @@ export interface Timing {
 
 export interface TimeOptions {
   warmups?: number;
+  /**
+   * Keep warming up until this much time (ms) has passed as well: a job of a fraction of a
+   * millisecond would otherwise be timed before the optimising compiler has finished with it.
+   */
+  warmupMs?: number;
   /** At least this many timed repetitions. */
   minReps?: number;
   /** At most this many. */
@@ -25,9 +30,10 @@ export interface TimeOptions {
  * the last call (so that accuracy is measured on the very run that was timed).
  */
 export function timeIt<T>(fn: () => T, options: TimeOptions = {}): { timing: Timing; value: T } {
-  const { warmups = 2, minReps = 5, maxReps = 15, budgetMs = 1500 } = options;
+  const { warmups = 2, warmupMs = 300, minReps = 5, maxReps = 15, budgetMs = 1500 } = options;
+  const warmStart = performance.now();
   let value = fn();
-  for (let i = 1; i < warmups; i++) value = fn();
+  for (let i = 1; i < warmups || performance.now() - warmStart < warmupMs; i++) value = fn();
   const samples: number[] = [];
   let spent = 0;
   while (samples.length < minReps || (samples.length < maxReps && spent < budgetMs)) {
