@@ -351,9 +351,10 @@ function iterate(model: Model, map: CycleMap, first: Float64Array, eliminatedInd
       x = px;
       px = next;
       residual = r2;
-      continue;
-    }
-    if (plain < 8) {
+      // Contracting briskly: a few more plain cycles settle it. Barely contracting (near
+      // saturation ρ → 1), plain cycles would need thousands: take Newton steps instead.
+      if (rho <= 0.5) continue;
+    } else if (plain < 8) {
       // A few plain cycles first: cheap, and they bring the state near the attracting cycle.
       x = px;
       px = map.run(x).slice(0, nc);
@@ -361,7 +362,7 @@ function iterate(model: Model, map: CycleMap, first: Float64Array, eliminatedInd
       plain++;
       continue;
     }
-    const step = newtonStep(map, x, px, nc);
+    const step = newtonStep(map, x, px, nc, model.solver.rtol);
     if (!step) {
       x = px;
       px = map.run(x).slice(0, nc);
@@ -384,11 +385,14 @@ function iterate(model: Model, map: CycleMap, first: Float64Array, eliminatedInd
 }
 
 /** Newton step for P(x) − x = 0 with a forward-difference Jacobian of the cycle map. */
-function newtonStep(map: CycleMap, x: Float64Array, px: Float64Array, nc: number): Float64Array | null {
+function newtonStep(map: CycleMap, x: Float64Array, px: Float64Array, nc: number, rtol: number): Float64Array | null {
   const scale = Math.max(maxAbs(x, nc), 1e-12);
   const jac = new Float64Array(nc * nc);
+  // A difference step of √rtol (relative) balances the integration error in P(x + h) − P(x),
+  // about rtol/h, against the curvature error, about h.
+  const relative = Math.sqrt(Math.max(rtol, 1e-16));
   for (let j = 0; j < nc; j++) {
-    const h = 1e-5 * Math.max(Math.abs(x[j]), scale);
+    const h = relative * Math.max(Math.abs(x[j]), scale);
     const xp = x.slice();
     xp[j] += h;
     const pj = map.run(xp);
