@@ -3,6 +3,8 @@
  * so x(t0 + h) = e^{Mh}·x(t0) + ∫₀ʰ e^{Ms} ds·u — no truncation error, only rounding.
  */
 import type { Schedule } from './events.ts';
+import { normInf } from './linalg/dense.ts';
+import { createExpActionWork, expAction, type ExpActionWork } from './linalg/exp-action.ts';
 import { createExpmWorkspace, createPropagator, propagator, type ExpmWorkspace, type Propagator } from './linalg/expm.ts';
 import type { Trajectory } from './numerics/dense-store.ts';
 import { codeGenerationEnabled, compileSource, index } from './numerics/generated-code.ts';
@@ -74,10 +76,10 @@ export class PropagatorCache {
   computed = 0;
 
   constructor(
-    private readonly matrix: Float64Array,
+    readonly matrix: Float64Array,
     private readonly n: number,
     /** Input vector (length n) of each rate key. */
-    private readonly inputs: readonly Float64Array[],
+    readonly inputs: readonly Float64Array[],
     private readonly capacity = 4096,
   ) {
     this.ws = createExpmWorkspace(n + 1);
@@ -113,14 +115,6 @@ export class PropagatorCache {
     return p;
   }
 
-  /** x ← Φ(h)·x + g(h), without caching (for one-off times such as root refinement). */
-  advanceOnce(x: Float64Array, h: number, rateKey: number, out: Float64Array, scratch: Propagator): void {
-    const input = this.inputs[rateKey];
-    propagator(this.matrix, this.n, h, isZero(input) ? null : input, this.ws, scratch);
-    this.computed++;
-    applyDense(scratch, x, this.n, out);
-  }
-
   /** out ← Φ(h)·x + g(h) with a cached propagator; out must not be x. */
   advance(x: Float64Array, h: number, rateKey: number, out: Float64Array): void {
     if (h === 0) out.set(x);
@@ -131,17 +125,6 @@ export class PropagatorCache {
 function isZero(v: Float64Array): boolean {
   for (let i = 0; i < v.length; i++) if (v[i] !== 0) return false;
   return true;
-}
-
-/** out = Φ·x + g (out and x distinct). */
-function applyDense(p: Propagator, x: Float64Array, n: number, out: Float64Array): void {
-  const { phi, g } = p;
-  for (let i = 0; i < n; i++) {
-    let s = g[i];
-    const row = i * n;
-    for (let j = 0; j < n; j++) s += phi[row + j] * x[j];
-    out[i] = s;
-  }
 }
 
 /** out = Φ·x + g over Φ's nonzero entries (out and x distinct). */
@@ -170,12 +153,29 @@ export function scheduleInputs(schedule: Schedule, stateSize: number): Float64Ar
   return inputs;
 }
 
+/**
+ * Knot times of one piece [a, b): steps of a fifth of the fastest time constant just after
+ * the breakpoint (where fast phases turn), growing by a quarter each until a 24th of the piece.
+ */
+function pieceKnotTimes(a: number, b: number, fastest: number, out: number[]): void {
+  const widest = (b - a) / 24;
+  let h = fastest > 0 ? Math.min(widest, 0.2 / fastest) : widest;
+  for (let t = a; t < b - 1e-9 * widest; t += h, h = Math.min(1.25 * h, widest)) out.push(t);
+}
+
+/** Knot states of the pieces evaluated most recently (metrics walk the pieces in order). */
+const KNOT_PIECES_KEPT = 64;
+
 /** The exact solution as pieces: each starts at a breakpoint with its state just after the jumps. */
 export class LinearTrajectory implements Trajectory {
   readonly dimension: number;
   readonly start: number;
   readonly end: number;
-  private readonly one: Propagator;
+  private readonly actionWork: ExpActionWork;
+  private readonly matrixNorm: number;
+  private readonly inputs: readonly Float64Array[];
+  private readonly knotStates = new Map<number, { times: Float64Array; states: Float64Array }>();
+  private readonly knotPlans = new Map<string, { offsets: Float64Array; steps: SparsePropagator[] }>();
 
   constructor(
     private readonly times: Float64Array,
@@ -188,7 +188,9 @@ export class LinearTrajectory implements Trajectory {
     this.dimension = dimension;
     this.start = times[0];
     this.end = end;
-    this.one = createPropagator(dimension);
+    this.actionWork = createExpActionWork(dimension);
+    this.matrixNorm = normInf(cache.matrix, dimension);
+    this.inputs = cache.inputs;
   }
 
   get pieces(): number {
@@ -224,32 +226,77 @@ export class LinearTrajectory implements Trajectory {
     return lo;
   }
 
+  /**
+   * From the nearest knot of the piece at or before t, by the action of the matrix
+   * exponential over what remains (at most a 24th of the piece): a few matrix–vector
+   * products where a fresh propagator would cost a Padé exponential at every probe.
+   */
   stateAt(t: number, side: 'left' | 'right', out: Float64Array): void {
+    const n = this.dimension;
     const k = this.locate(t, side);
-    const x0 = this.states.subarray(k * this.dimension, (k + 1) * this.dimension);
-    const h = t - this.times[k];
-    if (h <= 0) {
-      out.set(x0);
+    if (t <= this.times[k]) {
+      out.set(this.states.subarray(k * n, (k + 1) * n));
       return;
     }
-    this.cache.advanceOnce(x0, h, this.keys[k], out, this.one);
+    const knots = this.knotsOfPiece(k);
+    let lo = 0;
+    let hi = knots.times.length - 1;
+    while (lo < hi) {
+      const mid = (lo + hi + 1) >>> 1;
+      if (knots.times[mid] <= t) lo = mid;
+      else hi = mid - 1;
+    }
+    const input = this.inputs[this.keys[k]];
+    const x = knots.states.subarray(lo * n, (lo + 1) * n);
+    expAction(this.cache.matrix, n, this.matrixNorm, t - knots.times[lo], x, input, out, this.actionWork);
   }
 
   /**
-   * Times that bracket every turning point and crossing for the metrics: in each piece, steps
-   * of a fifth of the fastest time constant just after the breakpoint (where fast phases turn),
-   * growing by a quarter each until a 24th of the piece.
+   * The knot times and states of piece k, marched with the propagators of its knot steps
+   * (one plan per piece length and input, shared by all such pieces; states kept for a few pieces).
    */
+  private knotsOfPiece(k: number): { times: Float64Array; states: Float64Array } {
+    const kept = this.knotStates.get(k);
+    if (kept) return kept;
+    const n = this.dimension;
+    const a = this.times[k];
+    const plan = this.knotPlan(this.pieceEnd(k) - a, this.keys[k]);
+    const count = plan.offsets.length;
+    let entry: { times: Float64Array; states: Float64Array } | undefined;
+    if (this.knotStates.size >= KNOT_PIECES_KEPT) {
+      const oldest = this.knotStates.keys().next().value as number;
+      const reused = this.knotStates.get(oldest);
+      this.knotStates.delete(oldest);
+      if (reused && reused.times.length === count) entry = reused;
+    }
+    entry ??= { times: new Float64Array(count), states: new Float64Array(count * n) };
+    const { times, states } = entry;
+    for (let j = 0; j < count; j++) times[j] = a + plan.offsets[j];
+    for (let i = 0; i < n; i++) states[i] = this.states[k * n + i];
+    for (let j = 1; j < count; j++) apply(plan.steps[j - 1], states.subarray((j - 1) * n, j * n), n, states.subarray(j * n, (j + 1) * n));
+    this.knotStates.set(k, entry);
+    return entry;
+  }
+
+  private knotPlan(length: number, rateKey: number): { offsets: Float64Array; steps: SparsePropagator[] } {
+    const key = `${rateKey}:${length.toPrecision(12)}`;
+    const known = this.knotPlans.get(key);
+    if (known) return known;
+    const list: number[] = [];
+    pieceKnotTimes(0, length, this.fastestRate, list);
+    const offsets = Float64Array.from(list);
+    // steps[j − 1] carries knot j − 1 to knot j.
+    const steps = Array.from(offsets.subarray(1), (o, j) => this.cache.get(o - offsets[j], rateKey));
+    const plan = { offsets, steps };
+    if (this.knotPlans.size >= KNOT_PIECES_KEPT) this.knotPlans.clear();
+    this.knotPlans.set(key, plan);
+    return plan;
+  }
+
+  /** Times that bracket every turning point and crossing for the metrics (pieceKnotTimes in each piece). */
   knots(): Float64Array {
     const out: number[] = [];
-    const fastest = this.fastestRate;
-    for (let k = 0; k < this.times.length; k++) {
-      const a = this.times[k];
-      const b = this.pieceEnd(k);
-      const widest = (b - a) / 24;
-      let h = fastest > 0 ? Math.min(widest, 0.2 / fastest) : widest;
-      for (let t = a; t < b - 1e-9 * widest; t += h, h = Math.min(1.25 * h, widest)) out.push(t);
-    }
+    for (let k = 0; k < this.times.length; k++) pieceKnotTimes(this.times[k], this.pieceEnd(k), this.fastestRate, out);
     out.push(this.end);
     return Float64Array.from(out);
   }
