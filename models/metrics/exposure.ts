@@ -168,18 +168,33 @@ function nearest(sorted: Float64Array, t: number): number | null {
   return Math.abs(a - t) <= Math.abs(b - t) ? a : b;
 }
 
+/** Sorted unique union of two ascending arrays, in one pass. */
+function mergeTwo(a: Float64Array, b: Float64Array): Float64Array {
+  const out = new Float64Array(a.length + b.length);
+  let i = 0;
+  let j = 0;
+  let u = 0;
+  while (i < a.length || j < b.length) {
+    const t = j >= b.length || (i < a.length && a[i] <= b[j]) ? a[i++] : b[j++];
+    if (u === 0 || t !== out[u - 1]) out[u++] = t;
+  }
+  return out.slice(0, u);
+}
+
 /** Sorted unique union of the given ascending arrays. */
 function mergeTimes(lists: Float64Array[]): Float64Array {
-  const all = new Float64Array(lists.reduce((n, l) => n + l.length, 0));
-  let k = 0;
-  for (const l of lists) {
-    all.set(l, k);
-    k += l.length;
+  return lists.reduce((merged, list) => mergeTwo(merged, list), new Float64Array(0));
+}
+
+/** For each of the ascending times, whether it is one of the ascending `members` (a walk, not a lookup). */
+function membership(times: Float64Array, members: Float64Array): Uint8Array {
+  const out = new Uint8Array(times.length);
+  let j = 0;
+  for (let i = 0; i < times.length; i++) {
+    while (j < members.length && members[j] < times[i]) j++;
+    out[i] = j < members.length && members[j] === times[i] ? 1 : 0;
   }
-  all.sort();
-  let u = 0;
-  for (let i = 0; i < all.length; i++) if (u === 0 || all[i] !== all[u - 1]) all[u++] = all[i];
-  return all.slice(0, u);
+  return out;
 }
 
 export function exposureFigures(model: Model, layout: StateLayout, probe: CurveProbe): CompartmentFigures[] {
@@ -190,19 +205,26 @@ export function exposureFigures(model: Model, layout: StateLayout, probe: CurveP
     (t) => t >= model.start && t <= model.end,
   );
   // Rows: a breakpoint gets a left and a right row (state or slope may jump there).
-  const isBreakpoint = new Set(bpTimes);
-  const isBoundary = new Set(starts);
+  const scanBreakpoint = membership(scan, bpTimes);
+  const scanBoundary = membership(scan, starts);
   let rowCount = 0;
-  for (const t of scan) rowCount += isBreakpoint.has(t) && t > model.start ? 2 : 1;
+  for (let i = 0; i < scan.length; i++) rowCount += scanBreakpoint[i] === 1 && scan[i] > model.start ? 2 : 1;
   const rowTimes = new Float64Array(rowCount);
   const rowSides = new Uint8Array(rowCount);
+  const rowBreakpoint = new Uint8Array(rowCount);
+  const rowBoundary = new Uint8Array(rowCount);
   let r = 0;
-  for (const t of scan) {
-    if (isBreakpoint.has(t) && t > model.start) {
+  for (let i = 0; i < scan.length; i++) {
+    const t = scan[i];
+    if (scanBreakpoint[i] === 1 && t > model.start) {
       rowTimes[r] = t;
+      rowBreakpoint[r] = 1;
+      rowBoundary[r] = scanBoundary[i];
       rowSides[r++] = 0;
     }
     rowTimes[r] = t;
+    rowBreakpoint[r] = scanBreakpoint[i];
+    rowBoundary[r] = scanBoundary[i];
     rowSides[r++] = 1;
   }
 
@@ -298,15 +320,16 @@ export function exposureFigures(model: Model, layout: StateLayout, probe: CurveP
     }
     probe.system.derivative(t, state, slope);
     aucNow = state;
-    const boundary = isBoundary.has(t);
-    const soleRow = !isBreakpoint.has(t) || t === model.start;
+    const atBreakpoint = rowBreakpoint[row] === 1;
+    const boundary = rowBoundary[row] === 1;
+    const soleRow = !atBreakpoint || t === model.start;
     for (const pc of perCompartment) {
       const i = pc.index;
       const c = state[i] / pc.volume;
       const s = slope[i] / pc.volume;
       if (t > pc.prevT) {
         // Inside (prevT, t) the rates are those in force just before t.
-        const inside = left || !isBreakpoint.has(t) ? bp : bp - 1;
+        const inside = left || !atBreakpoint ? bp : bp - 1;
         scanPair(pc, pc.prevT, pc.prevC, pc.prevS, t, c, s, inside);
         if (ratesOf !== bp) {
           probe.useRatesOf(bp);
