@@ -108,11 +108,16 @@ export class PropagatorCache {
 
   private compute(key: string, h: number, rateKey: number): SparsePropagator {
     if (this.cache.size >= this.capacity) this.cache.clear();
-    const input = this.inputs[rateKey];
-    const p = sparsePropagator(propagator(this.matrix, this.n, h, isZero(input) ? null : input, this.ws, createPropagator(this.n)), this.n);
-    this.computed++;
+    const p = this.uncached(h, rateKey);
     this.cache.set(key, p);
     return p;
+  }
+
+  /** The propagator for exactly h, not shared with nearly equal steps. */
+  uncached(h: number, rateKey: number): SparsePropagator {
+    const input = this.inputs[rateKey];
+    this.computed++;
+    return sparsePropagator(propagator(this.matrix, this.n, h, isZero(input) ? null : input, this.ws, createPropagator(this.n)), this.n);
   }
 
   /** out ← Φ(h)·x + g(h) with a cached propagator; out must not be x. */
@@ -174,7 +179,8 @@ export class LinearTrajectory implements Trajectory {
   private readonly actionWork: ExpActionWork;
   private readonly matrixNorm: number;
   private readonly inputs: readonly Float64Array[];
-  private readonly knotStates = new Map<number, { times: Float64Array; states: Float64Array }>();
+  /** Knot offsets from the piece start (shared plan) and the states there. */
+  private readonly knotStates = new Map<number, { offsets: Float64Array; states: Float64Array }>();
   private readonly knotPlans = new Map<string, { offsets: Float64Array; steps: SparsePropagator[] }>();
 
   constructor(
@@ -238,42 +244,43 @@ export class LinearTrajectory implements Trajectory {
       out.set(this.states.subarray(k * n, (k + 1) * n));
       return;
     }
+    // Times within the piece are measured from its start (t − a is exact for t near a), so
+    // that the knot offsets of the shared plan stay exact as well.
+    const since = t - this.times[k];
     const knots = this.knotsOfPiece(k);
     let lo = 0;
-    let hi = knots.times.length - 1;
+    let hi = knots.offsets.length - 1;
     while (lo < hi) {
       const mid = (lo + hi + 1) >>> 1;
-      if (knots.times[mid] <= t) lo = mid;
+      if (knots.offsets[mid] <= since) lo = mid;
       else hi = mid - 1;
     }
     const input = this.inputs[this.keys[k]];
     const x = knots.states.subarray(lo * n, (lo + 1) * n);
-    expAction(this.cache.matrix, n, this.matrixNorm, t - knots.times[lo], x, input, out, this.actionWork);
+    expAction(this.cache.matrix, n, this.matrixNorm, since - knots.offsets[lo], x, input, out, this.actionWork);
   }
 
   /**
    * The knot times and states of piece k, marched with the propagators of its knot steps
    * (one plan per piece length and input, shared by all such pieces; states kept for a few pieces).
    */
-  private knotsOfPiece(k: number): { times: Float64Array; states: Float64Array } {
+  private knotsOfPiece(k: number): { offsets: Float64Array; states: Float64Array } {
     const kept = this.knotStates.get(k);
     if (kept) return kept;
     const n = this.dimension;
-    const a = this.times[k];
-    const plan = this.knotPlan(this.pieceEnd(k) - a, this.keys[k]);
+    const plan = this.knotPlan(this.pieceEnd(k) - this.times[k], this.keys[k]);
     const count = plan.offsets.length;
-    let entry: { times: Float64Array; states: Float64Array } | undefined;
+    let states: Float64Array | undefined;
     if (this.knotStates.size >= KNOT_PIECES_KEPT) {
       const oldest = this.knotStates.keys().next().value as number;
       const reused = this.knotStates.get(oldest);
       this.knotStates.delete(oldest);
-      if (reused && reused.times.length === count) entry = reused;
+      if (reused && reused.states.length === count * n) states = reused.states;
     }
-    entry ??= { times: new Float64Array(count), states: new Float64Array(count * n) };
-    const { times, states } = entry;
-    for (let j = 0; j < count; j++) times[j] = a + plan.offsets[j];
+    states ??= new Float64Array(count * n);
     for (let i = 0; i < n; i++) states[i] = this.states[k * n + i];
     for (let j = 1; j < count; j++) apply(plan.steps[j - 1], states.subarray((j - 1) * n, j * n), n, states.subarray(j * n, (j + 1) * n));
+    const entry = { offsets: plan.offsets, states };
     this.knotStates.set(k, entry);
     return entry;
   }
@@ -285,8 +292,10 @@ export class LinearTrajectory implements Trajectory {
     const list: number[] = [];
     pieceKnotTimes(0, length, this.fastestRate, list);
     const offsets = Float64Array.from(list);
-    // steps[j − 1] carries knot j − 1 to knot j.
-    const steps = Array.from(offsets.subarray(1), (o, j) => this.cache.get(o - offsets[j], rateKey));
+    // steps[j − 1] carries knot j − 1 to knot j, for exactly that step: the shared cache would
+    // hand out a propagator of a step up to 1e-12 shorter or longer, and knot states are the
+    // starting points of every evaluation between the grid points.
+    const steps = Array.from(offsets.subarray(1), (o, j) => this.cache.uncached(o - offsets[j], rateKey));
     const plan = { offsets, steps };
     if (this.knotPlans.size >= KNOT_PIECES_KEPT) this.knotPlans.clear();
     this.knotPlans.set(key, plan);
