@@ -173,7 +173,8 @@ for (const rtol of ODEX_TOLERANCES) {
   jobs.push({ key, run: () => ({ odex: runOdex(exactPrepared.schedule, rows, rtol, atolOf(rtol), ODEX_FIRST_STEP, grid) }) });
   meta.set(key, { path: 'odex', method: 'odex', rtol, solver: null });
 }
-const timed = timeBlocks(jobs, { warmups: 2, minReps: 7, maxReps: 11, budgetMs: 1_500 });
+// At least 7 runs and 300 ms of runs per job: sub-millisecond jobs get dozens, so one hiccup does not move their median.
+const timed = timeBlocks(jobs, { warmups: 2, minReps: 7, maxReps: 101, budgetMs: 300 });
 
 // Full simulate() (normalise, solve, grid, exposure figures, steady state) for context: the
 // exact path and each adaptive method at rtol 1e-8 (all tolerances would double the run time).
