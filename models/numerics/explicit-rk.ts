@@ -425,11 +425,11 @@ export function integrateFixed(
     const size = cm.form.vectors * n;
     const at = store.reserve(size);
     kernel.complete(t, hStep, store.openChunk, at);
-    store.commit(t, hStep, cm.form, size);
     stats.derivativeEvaluations += cm.completeEvaluations;
     const f1 = w.stage[cm.end];
     const badEnd = firstNonFinite(f1);
     if (badEnd >= 0) throw nonFinite(tNext, badEnd, 'derivative');
+    store.commit(t, hStep, cm.form, size);
     stats.acceptedSteps++;
     copy(w.y1, w.y0, n);
     if (cm.end !== 0) copy(f1, f0, n);

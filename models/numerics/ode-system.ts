@@ -18,7 +18,7 @@ export interface OdeSystem {
 
 /**
  * An autonomous derivative written out as statements over scalar locals. The statements
- * may read `p[j]` (params, fixed) and `u[i]` (input, read at every call) and nothing else;
+ * may read `p[j]` (params, fixed) and `u[i]` (input, read at every call), and call `Math`;
  * they must declare each f(i) with `let` and may declare block-scoped temporaries.
  * Identical arithmetic, in the same order, as derivative(): compiled and interpreted runs
  * agree bit for bit.

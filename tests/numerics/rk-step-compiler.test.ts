@@ -99,6 +99,17 @@ describe('compiled step kernels', () => {
     expectIdentical(refused.value, interpreted.value);
   });
 
+  it('generates sources that compile, for every tableau (a broken source would throw, not fall back)', () => {
+    const model = normaliseScenario(scenario('dopri5'));
+    if (!model.ok) throw new Error('scenario rejected');
+    const system = new CompartmentSystem(model.value);
+    for (const tab of [DOPRI5, DOP853, EULER, HEUN, RK4]) {
+      const source = kernelSource(system.code, unpack(tab), system.dimension);
+      const phases = (new Function('p', 'u', 'y0', 'k', 'y1', 'yStiff', 'scale', source) as (...a: Float64Array[]) => object)();
+      expect(Object.keys(phases)).toEqual(['attempt', 'complete']);
+    }
+  });
+
   it('writes model parameters as array reads and never copies model text into the source', () => {
     const model = normaliseScenario({
       ...scenario('dopri5'),
