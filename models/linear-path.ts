@@ -168,7 +168,10 @@ function pieceKnotTimes(a: number, b: number, fastest: number, out: number[]): v
   for (let t = a; t < b - 1e-9 * widest; t += h, h = Math.min(1.25 * h, widest)) out.push(t);
 }
 
-/** Knot states of the pieces evaluated most recently (metrics walk the pieces in order). */
+/** Largest ‖M‖∞·h evaluated by the Taylor action (64 sub-steps); beyond it a Padé propagator is cheaper. */
+const TAYLOR_NORM_LIMIT = 32;
+
+/** Knot states kept for this many pieces, first in first out (metrics walk the pieces in order). */
 const KNOT_PIECES_KEPT = 64;
 
 /** The exact solution as pieces: each starts at a breakpoint with its state just after the jumps. */
@@ -257,7 +260,11 @@ export class LinearTrajectory implements Trajectory {
     }
     const input = this.inputs[this.keys[k]];
     const x = knots.states.subarray(lo * n, (lo + 1) * n);
-    expAction(this.cache.matrix, n, this.matrixNorm, since - knots.offsets[lo], x, input, out, this.actionWork);
+    const h = since - knots.offsets[lo];
+    // The Taylor action takes ‖M‖·h/½ sub-steps: with a fast rate (a stiff model) that grows
+    // without bound, while one Padé propagator costs about the same whatever the step.
+    if (this.matrixNorm * h > TAYLOR_NORM_LIMIT) apply(this.cache.uncached(h, this.keys[k]), x, n, out);
+    else expAction(this.cache.matrix, n, this.matrixNorm, h, x, input, out, this.actionWork);
   }
 
   /**
