@@ -106,6 +106,8 @@ export function cycleAdministrations(lines: Model['doseLines'], period: number):
 
 interface CycleMap {
   schedule: Schedule;
+  /** Relative tolerance the cycles are integrated at. */
+  rtol: number;
   /** Runs one cycle from the amounts x (AUC and eliminated states start at zero); returns the end state. */
   run(amounts: Float64Array): Float64Array;
   runs: number;
@@ -116,6 +118,7 @@ function cycleMap(model: Model, system: CompartmentSystem, schedule: Schedule, s
   const nc = system.layout.compartments;
   const map: CycleMap = {
     schedule,
+    rtol: model.solver.rtol,
     runs: 0,
     run(amounts) {
       const y = new Float64Array(n);
@@ -241,11 +244,29 @@ export function steadyStateFigures(model: Model, system: CompartmentSystem, stat
   const map = cycleMap(model, system, schedule, cycleStats);
   const first = map.run(new Float64Array(nc));
   const dosePerCycle = cycle.reduce((sum, a) => sum + a.amount, 0);
-  const found =
+  const tighterModel = (rtol: number): Model => ({ ...model, solver: { ...model.solver, rtol, atol: (model.solver.atol * rtol) / model.solver.rtol } });
+  const tightMap = (rtol: number) => cycleMap(tighterModel(Math.max(rtol / 100, TIGHTEST_RTOL / 10)), system, schedule, cycleStats);
+  const tight = tightMap(model.solver.rtol);
+  let found =
     choosePath(model) === 'exact'
       ? closedForm(system, period, first)
-      : iterate(model, map, first, system.layout.eliminated, dosePerCycle);
-  if (!found.ok) return notReached(period, found.message, map.runs);
+      : iterate(model, map, tight, first, system.layout.eliminated, dosePerCycle);
+  let cycles = map.runs + tight.runs;
+  let tightened: number | null = null;
+  // Near saturation the integration error of a cycle moves the fixed point far: solve the cycles
+  // again, from the state found, at a tolerance that brings that drift within the user's.
+  for (let attempt = 0; attempt < 2 && !found.ok && found.illConditioned; attempt++) {
+    const tolerance = Math.max(1e-10, 100 * model.solver.rtol);
+    const current = tightened ?? model.solver.rtol;
+    const rtol = Math.min(current / 10, current * found.illConditioned.rtolFactor);
+    if (!(rtol >= TIGHTEST_RTOL)) break;
+    const retry = cycleMap(tighterModel(rtol), system, schedule, cycleStats);
+    const retryTight = tightMap(rtol);
+    found = iterate(model, retry, retryTight, found.illConditioned.state, system.layout.eliminated, dosePerCycle, true);
+    cycles += retry.runs + retryTight.runs;
+    tightened = rtol;
+  }
+  if (!found.ok) return notReached(period, found.message, cycles);
 
   const periodic = found.state;
   const cycleModel: Model = { ...model, administrations: cycle, start: 0, end: period };
@@ -279,7 +300,7 @@ export function steadyStateFigures(model: Model, system: CompartmentSystem, stat
   const how =
     choosePath(model) === 'exact'
       ? 'found in closed form from the cycle propagator'
-      : `found by iterating dosing cycles (${map.runs} cycles simulated) until the state repeated to a relative ${formatNumber(found.residual)}`;
+      : `found by iterating dosing cycles (${cycles} cycles simulated${tightened === null ? '' : `, the last at rtol ${formatNumber(tightened)}: this close to saturation a cycle amplifies integration errors`}) until the state repeated to a relative ${formatNumber(found.residual)}`;
   const regimen = lines.map((l) => `doses[${l.line}]`).join(' and ');
   return {
     period,
@@ -287,7 +308,7 @@ export function steadyStateFigures(model: Model, system: CompartmentSystem, stat
     reached: true,
     message: `steady state of ${regimen} over a dosing cycle of ${formatNumber(period)} ${model.units.time}, ${how}`,
     method: choosePath(model) === 'exact' ? 'closed-form' : 'iterated',
-    cycles: map.runs,
+    cycles,
     residual: found.residual,
     compartments,
   };
@@ -299,7 +320,9 @@ function padState(amounts: Float64Array, n: number): Float64Array {
   return y;
 }
 
-type Found = { ok: true; state: Float64Array; residual: number } | { ok: false; message: string };
+type Found =
+  | { ok: true; state: Float64Array; residual: number }
+  | { ok: false; message: string; illConditioned?: { state: Float64Array; drift: number; rtolFactor: number } };
 
 /** Amounts at the start of a steady-state cycle: (I − Φ)x = g over the amount block. */
 function closedForm(system: CompartmentSystem, period: number, first: Float64Array): Found {
@@ -324,18 +347,37 @@ function closedForm(system: CompartmentSystem, period: number, first: Float64Arr
  * enough when the map barely contracts near saturation — and (b) one cycle eliminates what one
  * cycle doses, which rules out a state that is merely growing slowly in relative terms.
  */
-function iterate(model: Model, map: CycleMap, first: Float64Array, eliminatedIndex: number, dosePerCycle: number): Found {
+function iterate(
+  model: Model,
+  map: CycleMap,
+  /** The same cycle at a 100 times tighter tolerance, to measure the integration error of one cycle. */
+  tight: CycleMap,
+  start: Float64Array,
+  eliminatedIndex: number,
+  dosePerCycle: number,
+  /** Accept only after a Newton step has measured the Jacobian here (a retry that starts at the state found). */
+  needsJacobian = false,
+): Found {
   const nc = map.schedule.breakpoints[0].rates.length;
   const tolerance = Math.max(1e-10, 100 * model.solver.rtol);
-  let x = first.slice(0, nc);
+  let x = start.slice(0, nc);
   let px = map.run(x).slice(0, nc);
+  /** (J − I) of the last Newton step, J the cycle map's Jacobian, and its difference step (amount). */
+  let lastJacobian: Float64Array | null = null;
+  let lastDifferenceStep = 0;
   // Relative to the amounts at the cycle start, but never to less than one cycle's doses: when
   // each cycle washes out (a trough of 1e-15 mg after a 100 mg dose), the rounding noise left in
   // the trough is no change at all.
+  const scaleOf = (b: Float64Array) => Math.max(maxAbs(b, nc), dosePerCycle, 1e-300);
   const residualOf = (a: Float64Array, b: Float64Array) => {
     let r = 0;
     for (let i = 0; i < nc; i++) r = Math.max(r, Math.abs(b[i] - a[i]));
-    return r / Math.max(maxAbs(b, nc), dosePerCycle, 1e-300);
+    return r / scaleOf(b);
+  };
+  /** ‖(J − I)⁻¹(b − a)‖ relative to b: how far a change b − a per cycle puts b from the fixed point. */
+  const newtonDistance = (jacobian: Float64Array, a: Float64Array, b: Float64Array) => {
+    const d = solveLinear(jacobian.slice(), nc, Float64Array.from({ length: nc }, (_, i) => b[i] - a[i]));
+    return d && d.every(Number.isFinite) ? maxAbs(d.map(Math.abs), nc) / scaleOf(b) : Infinity;
   };
   let residual = residualOf(x, px);
   let plain = 0;
@@ -345,15 +387,38 @@ function iterate(model: Model, map: CycleMap, first: Float64Array, eliminatedInd
       const next = full.slice(0, nc);
       const r2 = residualOf(px, next);
       const rho = residual > 0 ? Math.min(0.999999, r2 / residual) : 0;
-      const bound = r2 / (1 - rho);
+      // Distance to the map's fixed point: from the contraction rate over the last two cycles or,
+      // once Newton has measured the Jacobian J, from the Newton correction (J − I)⁻¹(P(x) − x),
+      // which stays right when ρ is too close to 1 to be seen in two cycles (near saturation).
+      let bound = r2 / (1 - rho);
+      if (lastJacobian) bound = Math.max(bound, newtonDistance(lastJacobian, px, next));
       const balance = Math.abs(full[eliminatedIndex] - dosePerCycle) / Math.max(dosePerCycle, 1e-300);
-      if (bound <= tolerance && balance <= 10 * tolerance) return { ok: true, state: next, residual: bound };
+      if (bound <= tolerance && balance <= 10 * tolerance && !(needsJacobian && !lastJacobian)) {
+        if (!lastJacobian) return { ok: true, state: next, residual: bound };
+        // The map's fixed point is that of the integrated cycle, off the true one by (J − I)⁻¹δ,
+        // δ the integration error of one cycle: measured against the same cycle at rtol/100.
+        // Near saturation J → I and this drift grows without bound.
+        const tightNext = tight.run(px).slice(0, nc);
+        const drift = newtonDistance(lastJacobian, next, tightNext);
+        // J − I is known only to the integration error of a cycle over the difference step;
+        // near saturation its smallest singular value (1/‖(J − I)⁻¹‖) can sink below that,
+        // and then neither the Newton steps nor the two estimates above can be trusted.
+        let integrationError = 0;
+        for (let i = 0; i < nc; i++) integrationError = Math.max(integrationError, Math.abs(tightNext[i] - next[i]));
+        const jacobianNoise = integrationError / lastDifferenceStep;
+        const smallest = 1 / inverseNorm(lastJacobian, nc);
+        const resolved = smallest >= 10 * jacobianNoise;
+        if (drift <= tolerance / 10 && resolved) return { ok: true, state: next, residual: Math.max(bound, drift) };
+        // The noise in J scales as √rtol (error rtol over a step √rtol): what would resolve J.
+        const rtolFactor = Math.min(tolerance / (40 * drift), resolved ? Infinity : (smallest / (20 * jacobianNoise)) ** 2);
+        return { ok: false, message: illConditionedMessage(drift, map.rtol), illConditioned: { state: next, drift, rtolFactor } };
+      }
       x = px;
       px = next;
       residual = r2;
       // Contracting briskly: a few more plain cycles settle it. Barely contracting (near
       // saturation ρ → 1), plain cycles would need thousands: take Newton steps instead.
-      if (rho <= 0.5) continue;
+      if (rho <= 0.5 && !needsJacobian) continue;
     } else if (plain < 8) {
       // A few plain cycles first: cheap, and they bring the state near the attracting cycle.
       x = px;
@@ -362,7 +427,10 @@ function iterate(model: Model, map: CycleMap, first: Float64Array, eliminatedInd
       plain++;
       continue;
     }
-    const step = newtonStep(map, x, px, nc, model.solver.rtol);
+    const newton = newtonStep(map, x, px, nc);
+    const step = newton.step;
+    lastJacobian = newton.jacobian;
+    lastDifferenceStep = newton.differenceStep;
     if (!step) {
       x = px;
       px = map.run(x).slice(0, nc);
@@ -384,8 +452,14 @@ function iterate(model: Model, map: CycleMap, first: Float64Array, eliminatedInd
   };
 }
 
-/** Newton step for P(x) − x = 0 with a forward-difference Jacobian of the cycle map. */
-function newtonStep(map: CycleMap, x: Float64Array, px: Float64Array, nc: number, rtol: number): Float64Array | null {
+/** Newton step for P(x) − x = 0 with a forward-difference Jacobian of the cycle map, and that J − I. */
+function newtonStep(
+  map: CycleMap,
+  x: Float64Array,
+  px: Float64Array,
+  nc: number,
+): { step: Float64Array | null; jacobian: Float64Array; differenceStep: number } {
+  const rtol = map.rtol;
   const scale = Math.max(maxAbs(x, nc), 1e-12);
   const jac = new Float64Array(nc * nc);
   // A difference step of √rtol (relative) balances the integration error in P(x + h) − P(x),
@@ -399,8 +473,31 @@ function newtonStep(map: CycleMap, x: Float64Array, px: Float64Array, nc: number
     for (let i = 0; i < nc; i++) jac[i * nc + j] = (pj[i] - px[i]) / h - (i === j ? 1 : 0);
   }
   const rhs = Float64Array.from({ length: nc }, (_, i) => x[i] - px[i]);
-  return solveLinear(jac, nc, rhs);
+  return { step: solveLinear(jac.slice(), nc, rhs), jacobian: jac, differenceStep: relative * scale };
 }
+
+/** ‖A⁻¹‖∞ by solving for each unit vector (A is small); Infinity when A is singular. */
+function inverseNorm(a: Float64Array, nc: number): number {
+  const rowSums = new Float64Array(nc);
+  for (let j = 0; j < nc; j++) {
+    const e = new Float64Array(nc);
+    e[j] = 1;
+    const column = solveLinear(a.slice(), nc, e);
+    if (!column || !column.every(Number.isFinite)) return Infinity;
+    for (let i = 0; i < nc; i++) rowSums[i] += Math.abs(column[i]);
+  }
+  return maxAbs(rowSums, nc);
+}
+
+function illConditionedMessage(drift: number, rtol: number): string {
+  return (
+    `no steady state found to tolerance: the regimen is so close to what saturable elimination can clear that the integration ` +
+    `error of one dosing cycle moves the steady state by a relative ${formatNumber(drift)}, even at rtol ${formatNumber(rtol)}`
+  );
+}
+
+/** Tightest relative tolerance the steady-state search asks of the integrator. */
+const TIGHTEST_RTOL = 1e-13;
 
 interface Approach {
   time90: number | null;
