@@ -131,6 +131,7 @@ export class CompartmentSystem implements OdeSystem {
     }
     const { rowStart, cols, mmFrom, mmTo } = this;
     this.straightLine = {
+      shape: `compartments:${n}|rows:${rowStart.join(',')}|cols:${cols.join(',')}|saturable:${mmFrom.join(',')}>${mmTo.join(',')}`,
       params,
       input: this.input,
       emit(y, f) {

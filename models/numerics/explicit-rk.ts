@@ -181,15 +181,20 @@ export class StiffnessMonitor {
   }
 }
 
-const workCache = new Map<string, Work>();
+/** Work arrays by tableau (the object, not its name: compiled kernels are bound to them) and n. */
+const workCache = new WeakMap<UnpackedTableau, Map<number, Work>>();
 
 /** Work arrays for (tableau, n), made once and reused by every segment (calls never nest). */
 function makeWork(u: UnpackedTableau, n: number): Work {
-  const key = `${u.tab.name}:${n}`;
-  const cached = workCache.get(key);
+  let byDimension = workCache.get(u);
+  const cached = byDimension?.get(n);
   if (cached) return cached;
   const work = freshWork(u, n);
-  workCache.set(key, work);
+  if (!byDimension) {
+    byDimension = new Map();
+    workCache.set(u, byDimension);
+  }
+  byDimension.set(n, work);
   return work;
 }
 

@@ -24,6 +24,8 @@ export interface OdeSystem {
  * agree bit for bit.
  */
 export interface DerivativeCode {
+  /** Identifies the emitted statements: systems with equal shapes emit the same code. */
+  readonly shape: string;
   readonly params: Float64Array;
   readonly input: Float64Array;
   emit(y: (i: number) => string, f: (i: number) => string): string;

@@ -20,8 +20,8 @@ export const MAX_COMPILED_DIMENSION = 48;
 
 /**
  * The compiled phases close over fixed arrays: the work arrays of (tableau, n) and one
- * parameter and one input buffer per source, into which each system's values are loaded
- * when an integration starts. One closure per source lets the optimiser treat every array
+ * parameter and one input buffer per model shape, into which each system's values are loaded
+ * when an integration starts. One closure per shape lets the optimiser treat every array
  * as a constant; the values in them still change freely.
  */
 interface CompiledInstance {
@@ -41,7 +41,7 @@ type InstanceFactory = (
   scale: Float64Array,
 ) => Pick<StepKernel, 'attempt' | 'complete'>;
 
-/** Instances by work arrays and source text: models of the same shape share one compiled (and warmed-up) kernel. */
+/** Instances by work arrays and system shape: models of the same shape share one compiled (and warmed-up) kernel. */
 const instances = new WeakMap<Work, Map<string, CompiledInstance>>();
 const MAX_INSTANCES = 64;
 
@@ -177,11 +177,14 @@ export function kernelSource(code: DerivativeCode, u: UnpackedTableau, n: number
   return ['"use strict";', 'return {', attemptSource(code, u, n), completeSource(code, u, n), '};'].join('\n');
 }
 
-function instanceFor(source: string, code: DerivativeCode, w: Work): CompiledInstance | null {
+function instanceFor(tableau: UnpackedTableau, code: DerivativeCode, w: Work): CompiledInstance | null {
+  // Work arrays are per (tableau, n), so the system's shape completes the key; the source is
+  // built only when a shape is new.
+  const key = code.shape;
   let bySource = instances.get(w);
-  const cached = bySource?.get(source);
+  const cached = bySource?.get(key);
   if (cached) return cached;
-  const factory = compileSource<InstanceFactory>(['p', 'u', 'y0', 'k', 'y1', 'yStiff', 'scale'], source);
+  const factory = compileSource<InstanceFactory>(['p', 'u', 'y0', 'k', 'y1', 'yStiff', 'scale'], kernelSource(code, tableau, w.n));
   if (!factory) return null;
   const p = new Float64Array(code.params.length);
   const u = new Float64Array(code.input.length);
@@ -192,7 +195,7 @@ function instanceFor(source: string, code: DerivativeCode, w: Work): CompiledIns
     instances.set(w, bySource);
   }
   if (bySource.size >= MAX_INSTANCES) bySource.clear();
-  bySource.set(source, instance);
+  bySource.set(key, instance);
   return instance;
 }
 
@@ -202,7 +205,7 @@ function instanceFor(source: string, code: DerivativeCode, w: Work): CompiledIns
  */
 export function compiledKernel(code: DerivativeCode, u: UnpackedTableau, w: Work): StepKernel | null {
   if (!codeGenerationEnabled() || w.n > MAX_COMPILED_DIMENSION || code.input.length !== w.n) return null;
-  const instance = instanceFor(kernelSource(code, u, w.n), code, w);
+  const instance = instanceFor(u, code, w);
   if (!instance) return null;
   return {
     load() {
