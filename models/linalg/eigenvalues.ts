@@ -235,10 +235,17 @@ function twoByTwo(a: number, b: number, c: number, d: number, re: Float64Array, 
   const big = mid >= 0 ? mid + z : mid - z;
   let small = mid >= 0 ? mid - z : mid + z;
   const absMid = Math.abs(mid);
-  // Same-sign roots with |small| < |big|/3: the subtraction mid ∓ z loses more than the product does.
+  // Same-sign roots with |small| < |big|/3: the subtraction mid ∓ z may lose more than the
+  // product does — unless ad − bc cancels as well (a nearly defective pair near zero). Take
+  // whichever has the smaller relative rounding error: about (|ad| + |bc|)/|ad − bc| for the
+  // product, |big|/|small| for the subtraction.
   if (z > 0.5 * absMid && z < absMid) {
-    const fromProduct = (a * d - w) / big;
-    if (Math.abs(fromProduct) <= Math.abs(big)) small = fromProduct;
+    const ad = a * d;
+    const product = ad - w;
+    const fromProduct = product / big;
+    const productError = (Math.abs(ad) + Math.abs(w)) / Math.abs(product);
+    const subtractionError = Math.abs(big) / Math.abs(small);
+    if (Math.abs(fromProduct) <= Math.abs(big) && productError < subtractionError) small = fromProduct;
   }
   re[k] = big;
   re[k + 1] = small;

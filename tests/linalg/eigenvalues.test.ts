@@ -199,6 +199,19 @@ describe('eigenvalues against closed forms', () => {
     expect(Math.abs(e.re[2] + alpha) / alpha).toBeLessThanOrEqual(64 * U);
   });
 
+  test('a nearly defective pair near zero keeps the trace (found by the property test below)', () => {
+    // Eigenvalues ±√3 and a pair near 0 (2.5e-8 and 6.8e-9) that moves by ~√u under rounding. Their
+    // 2×2 block's ad − bc cancels to rounding noise, so the product formula must not be used for the
+    // smaller root; the sum of the eigenvalues still equals the trace to rounding (common practice:
+    // a similarity transformation preserves the trace).
+    const m = Float64Array.from([-1, 0, 1, 1, 1, 1, -1, 0, 1, 0, -1, -1, 1, 1, 1, 1.0000000477631277]);
+    const e = eigenvalues(m, 4);
+    const sum = e.re.reduce((acc, v) => acc + v, 0);
+    expect(Math.abs(sum - trace(m, 4))).toBeLessThanOrEqual(64 * 4 * U * norm1Of(m, 4));
+    expect(Math.abs(e.re[0] - Math.sqrt(3))).toBeLessThan(1e-7);
+    expect(Math.abs(e.re[3] + Math.sqrt(3))).toBeLessThan(1e-7);
+  });
+
   test('rejects non-finite input; 1×1 is its own eigenvalue', () => {
     expect(() => eigenvalues(new Float64Array([NaN]), 1)).toThrow(RangeError);
     const e = eigenvalues(new Float64Array([-3.25]), 1);
