@@ -162,11 +162,17 @@ export function scheduleInputs(schedule: Schedule, stateSize: number): Float64Ar
  * Knot times of one piece [a, b): steps of a fifth of the fastest time constant just after
  * the breakpoint (where fast phases turn), growing by a quarter each until a 24th of the piece.
  */
-function pieceKnotTimes(a: number, b: number, fastest: number, out: number[]): void {
+function pieceKnotTimes(a: number, b: number, fastest: number, out: number[], steps?: number[]): void {
   const widest = (b - a) / 24;
   let h = fastest > 0 ? Math.min(widest, 0.2 / fastest) : widest;
-  for (let t = a; t < b - 1e-9 * widest; t += h, h = Math.min(1.25 * h, widest)) out.push(t);
+  for (let t = a; t < b - 1e-9 * widest; t += h, h = Math.min(1.25 * h, widest)) {
+    out.push(t);
+    steps?.push(h);
+  }
 }
+
+/** Knot-step propagators kept (the growing steps repeat; the capped one differs per piece length). */
+const EXACT_STEPS_KEPT = 4096;
 
 /** Largest ‖M‖∞·h evaluated by the Taylor action (64 sub-steps); beyond it a Padé propagator is cheaper. */
 const TAYLOR_NORM_LIMIT = 32;
@@ -185,6 +191,7 @@ export class LinearTrajectory implements Trajectory {
   /** Knot offsets from the piece start (shared plan) and the states there. */
   private readonly knotStates = new Map<number, { offsets: Float64Array; states: Float64Array }>();
   private readonly knotPlans = new Map<string, { offsets: Float64Array; steps: SparsePropagator[] }>();
+  private readonly exactSteps = new Map<string, SparsePropagator>();
 
   constructor(
     private readonly times: Float64Array,
@@ -292,17 +299,30 @@ export class LinearTrajectory implements Trajectory {
     return entry;
   }
 
+  /** The propagator of exactly h (not merged with nearly equal steps), kept for reuse. */
+  private exactStep(h: number, rateKey: number): SparsePropagator {
+    const key = `${rateKey}:${h}`;
+    const known = this.exactSteps.get(key);
+    if (known) return known;
+    const step = this.cache.uncached(h, rateKey);
+    if (this.exactSteps.size >= EXACT_STEPS_KEPT) this.exactSteps.clear();
+    this.exactSteps.set(key, step);
+    return step;
+  }
+
   private knotPlan(length: number, rateKey: number): { offsets: Float64Array; steps: SparsePropagator[] } {
     const key = `${rateKey}:${length.toPrecision(12)}`;
     const known = this.knotPlans.get(key);
     if (known) return known;
     const list: number[] = [];
-    pieceKnotTimes(0, length, this.fastestRate, list);
+    const nominal: number[] = [];
+    pieceKnotTimes(0, length, this.fastestRate, list, nominal);
     const offsets = Float64Array.from(list);
-    // steps[j − 1] carries knot j − 1 to knot j, for exactly that step: the shared cache would
-    // hand out a propagator of a step up to 1e-12 shorter or longer, and knot states are the
-    // starting points of every evaluation between the grid points.
-    const steps = Array.from(offsets.subarray(1), (o, j) => this.cache.uncached(o - offsets[j], rateKey));
+    // steps[j − 1] carries knot j − 1 to knot j by exactly its nominal step (the shared cache
+    // would hand out a propagator of a step up to 1e-12 shorter or longer, and knot states are
+    // where every evaluation between the grid points starts). The growing steps are the same
+    // doubles in every piece, so pieces of other lengths share all but their capped steps.
+    const steps = Array.from({ length: offsets.length - 1 }, (_, j) => this.exactStep(nominal[j], rateKey));
     const plan = { offsets, steps };
     if (this.knotPlans.size >= KNOT_PIECES_KEPT) this.knotPlans.clear();
     this.knotPlans.set(key, plan);
