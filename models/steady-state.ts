@@ -256,7 +256,7 @@ export function steadyStateFigures(model: Model, system: CompartmentSystem, stat
   // Near saturation the integration error of a cycle moves the fixed point far: solve the cycles
   // again, from the state found, at a tolerance that brings that drift within the user's.
   for (let attempt = 0; attempt < 2 && !found.ok && found.illConditioned; attempt++) {
-    const tolerance = Math.max(1e-10, 100 * model.solver.rtol);
+    const tolerance = steadyTolerance(model);
     const current = tightened ?? model.solver.rtol;
     const rtol = Math.min(current / 10, current * found.illConditioned.rtolFactor);
     if (!(rtol >= TIGHTEST_RTOL)) break;
@@ -359,26 +359,29 @@ function iterate(
   needsJacobian = false,
 ): Found {
   const nc = map.schedule.breakpoints[0].rates.length;
-  const tolerance = Math.max(1e-10, 100 * model.solver.rtol);
+  const tolerance = steadyTolerance(model);
   let x = start.slice(0, nc);
   let px = map.run(x).slice(0, nc);
   /** (J − I) of the last Newton step, J the cycle map's Jacobian, and its difference step (amount). */
   let lastJacobian: Float64Array | null = null;
   let lastDifferenceStep = 0;
-  // Relative to the amounts at the cycle start, but never to less than one cycle's doses: when
-  // each cycle washes out (a trough of 1e-15 mg after a 100 mg dose), the rounding noise left in
-  // the trough is no change at all.
-  const scaleOf = (b: Float64Array) => Math.max(maxAbs(b, nc), dosePerCycle, 1e-300);
-  const residualOf = (a: Float64Array, b: Float64Array) => {
+  // Compartment by compartment, relative to its own amount with the absolute tolerance as a floor:
+  // a change is judged where it happens (a tiny effect compartment is not measured against the
+  // dose), and the rounding noise left in a washed-out trough (1e-15 mg) is no change at all.
+  const floor = model.solver.atol / tolerance;
+  const weighted = (d: ArrayLike<number>, b: Float64Array) => {
     let r = 0;
-    for (let i = 0; i < nc; i++) r = Math.max(r, Math.abs(b[i] - a[i]));
-    return r / scaleOf(b);
+    for (let i = 0; i < nc; i++) r = Math.max(r, Math.abs(d[i]) / (Math.abs(b[i]) + floor));
+    return r;
   };
-  /** ‖(J − I)⁻¹(b − a)‖ relative to b: how far a change b − a per cycle puts b from the fixed point. */
+  const residualOf = (a: Float64Array, b: Float64Array) => weighted(Float64Array.from({ length: nc }, (_, i) => b[i] - a[i]), b);
+  /** ‖(J − I)⁻¹(b − a)‖, weighted as above: how far a change b − a per cycle puts b from the fixed point. */
   const newtonDistance = (jacobian: Float64Array, a: Float64Array, b: Float64Array) => {
     const d = solveLinear(jacobian.slice(), nc, Float64Array.from({ length: nc }, (_, i) => b[i] - a[i]));
-    return d && d.every(Number.isFinite) ? maxAbs(d.map(Math.abs), nc) / scaleOf(b) : Infinity;
+    return d && d.every(Number.isFinite) ? weighted(d, b) : Infinity;
   };
+  /** Changes this small are rounding: two cycles that repeat this closely say nothing about contraction. */
+  const roundingLevel = 1e3 * Number.EPSILON;
   let residual = residualOf(x, px);
   let plain = 0;
   while (map.runs < limits.steadyStateCycles) {
@@ -386,12 +389,12 @@ function iterate(
       const full = map.run(px);
       const next = full.slice(0, nc);
       const r2 = residualOf(px, next);
-      const rho = residual > 0 ? Math.min(0.999999, r2 / residual) : 0;
       // Distance to the map's fixed point: from the contraction rate over the last two cycles or,
       // once Newton has measured the Jacobian J, from the Newton correction (J − I)⁻¹(P(x) − x),
       // which stays right when ρ is too close to 1 to be seen in two cycles (near saturation).
-      let bound = r2 / (1 - rho);
-      if (lastJacobian) bound = Math.max(bound, newtonDistance(lastJacobian, px, next));
+      // A contraction rate needs changes above rounding; below it only J can tell.
+      const rho = residual > roundingLevel ? Math.min(0.999999, r2 / residual) : NaN;
+      const bound = lastJacobian ? newtonDistance(lastJacobian, px, next) : Number.isNaN(rho) ? Infinity : r2 / (1 - rho);
       const balance = Math.abs(full[eliminatedIndex] - dosePerCycle) / Math.max(dosePerCycle, 1e-300);
       if (bound <= tolerance && balance <= 10 * tolerance && !(needsJacobian && !lastJacobian)) {
         if (!lastJacobian) return { ok: true, state: next, residual: bound };
@@ -400,12 +403,13 @@ function iterate(
         // Near saturation J → I and this drift grows without bound.
         const tightNext = tight.run(px).slice(0, nc);
         const drift = newtonDistance(lastJacobian, next, tightNext);
-        // J − I is known only to the integration error of a cycle over the difference step;
-        // near saturation its smallest singular value (1/‖(J − I)⁻¹‖) can sink below that,
-        // and then neither the Newton steps nor the two estimates above can be trusted.
-        let integrationError = 0;
-        for (let i = 0; i < nc; i++) integrationError = Math.max(integrationError, Math.abs(tightNext[i] - next[i]));
-        const jacobianNoise = integrationError / lastDifferenceStep;
+        // J − I is known only to the error of a cycle (integration, and at least rounding of the
+        // amounts: two cycles may agree to the bit and still share it) over the difference step;
+        // near saturation its smallest singular value (1/‖(J − I)⁻¹‖) can sink below that, and
+        // then neither the Newton steps nor the estimates above can be trusted.
+        let cycleError = 1e2 * Number.EPSILON * maxAbs(next.map(Math.abs), nc);
+        for (let i = 0; i < nc; i++) cycleError = Math.max(cycleError, Math.abs(tightNext[i] - next[i]));
+        const jacobianNoise = cycleError / lastDifferenceStep;
         const smallest = 1 / inverseNorm(lastJacobian, nc);
         const resolved = smallest >= 10 * jacobianNoise;
         if (drift <= tolerance / 10 && resolved) return { ok: true, state: next, residual: Math.max(bound, drift) };
@@ -417,7 +421,7 @@ function iterate(
       px = next;
       residual = r2;
       // Contracting briskly: a few more plain cycles settle it. Barely contracting (near
-      // saturation ρ → 1), plain cycles would need thousands: take Newton steps instead.
+      // saturation ρ → 1) or not measurable, plain cycles would not tell: take Newton steps.
       if (rho <= 0.5 && !needsJacobian) continue;
     } else if (plain < 8) {
       // A few plain cycles first: cheap, and they bring the state near the attracting cycle.
@@ -487,6 +491,15 @@ function inverseNorm(a: Float64Array, nc: number): number {
     for (let i = 0; i < nc; i++) rowSums[i] += Math.abs(column[i]);
   }
   return maxAbs(rowSums, nc);
+}
+
+/**
+ * How closely a saturable steady state is determined: 100·rtol (a cycle's integration error
+ * is a few rtol, and the acceptance tests are estimates), within [1e-10, 1e-3] — a loose
+ * rtol must not turn "repeats within 100%" into a steady state.
+ */
+function steadyTolerance(model: Model): number {
+  return Math.min(1e-3, Math.max(1e-10, 100 * model.solver.rtol));
 }
 
 function illConditionedMessage(drift: number, rtol: number): string {
