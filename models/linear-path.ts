@@ -69,11 +69,38 @@ function sparsePropagator(p: Propagator, n: number): SparsePropagator {
   return { rowStart, cols: colIndex, vals: Float64Array.from(vals), g: p.g.slice(), product: productFor(rowStart, colIndex, n) };
 }
 
+/**
+ * Diagonal scaling D (powers of two) for the quadrature states — states nothing depends on
+ * (zero column), the AUCs and the amount eliminated: d_j ≈ the largest entry of row j. Their
+ * rows hold 1/V, up to 1e9 for an effect compartment of negligible volume; unscaled, such a
+ * row dominates every norm, and the exponential's rounding on that scale swamps the small
+ * amounts. D⁻¹MD has entries of order one there; e^{Mh} = D·e^{D⁻¹MDh}·D⁻¹ exactly.
+ */
+export function quadratureScaling(m: Float64Array, n: number): Float64Array {
+  const d = new Float64Array(n).fill(1);
+  for (let j = 0; j < n; j++) {
+    let column = false;
+    for (let i = 0; i < n; i++) if (i !== j && m[i * n + j] !== 0) column = true;
+    if (column || m[j * n + j] !== 0) continue;
+    let row = 0;
+    for (let k = 0; k < n; k++) row = Math.max(row, Math.abs(m[j * n + k]));
+    if (row > 0) d[j] = 2 ** Math.round(Math.log2(row));
+  }
+  return d;
+}
+
 /** Propagators keyed by (step, input vector); regular grids reuse a handful of them. */
 export class PropagatorCache {
   private readonly cache = new Map<string, SparsePropagator>();
   private readonly ws: ExpmWorkspace;
   computed = 0;
+  /** quadratureScaling of the matrix, the scaled matrix D⁻¹MD and the scaled inputs D⁻¹u. */
+  readonly scaling: Float64Array;
+  readonly scaledMatrix: Float64Array;
+  readonly scaledInputs: readonly Float64Array[];
+  /** States nothing depends on (a zero column of the matrix). */
+  private readonly quadrature: boolean[];
+  private readonly scratch: Propagator;
 
   constructor(
     readonly matrix: Float64Array,
@@ -83,6 +110,15 @@ export class PropagatorCache {
     private readonly capacity = 4096,
   ) {
     this.ws = createExpmWorkspace(n + 1);
+    const d = quadratureScaling(matrix, n);
+    this.scaling = d;
+    this.scaledMatrix = Float64Array.from(matrix, (v, k) => (v * d[k % n]) / d[Math.floor(k / n)]);
+    this.scaledInputs = inputs.map((u) => (u ? Float64Array.from(u, (v, i) => v / d[i]) : u));
+    this.scratch = createPropagator(n);
+    this.quadrature = Array.from({ length: n }, (_, j) => {
+      for (let i = 0; i < n; i++) if (matrix[i * n + j] !== 0) return false;
+      return true;
+    });
     let fastest = 0;
     for (let i = 0; i < n; i++) fastest = Math.max(fastest, -matrix[i * n + i]);
     this.fastestRate = fastest;
@@ -113,11 +149,24 @@ export class PropagatorCache {
     return p;
   }
 
-  /** The propagator for exactly h, not shared with nearly equal steps. */
+  /**
+   * The propagator for exactly h, not shared with nearly equal steps: computed for the scaled
+   * matrix, its quadrature columns set to what they are exactly (nothing depends on those
+   * states: the unit vector), then scaled back, Φ = D·Φ'·D⁻¹ and g = D·g'.
+   */
   uncached(h: number, rateKey: number): SparsePropagator {
-    const input = this.inputs[rateKey];
+    const n = this.n;
+    const d = this.scaling;
+    const input = this.scaledInputs[rateKey];
     this.computed++;
-    return sparsePropagator(propagator(this.matrix, this.n, h, isZero(input) ? null : input, this.ws, createPropagator(this.n)), this.n);
+    const p = propagator(this.scaledMatrix, n, h, isZero(input) ? null : input, this.ws, this.scratch);
+    for (let j = 0; j < n; j++) {
+      if (!this.quadrature[j]) continue;
+      for (let i = 0; i < n; i++) p.phi[i * n + j] = i === j ? 1 : 0;
+    }
+    const phi = new Float64Array(n * n);
+    for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) phi[i * n + j] = (d[i] * p.phi[i * n + j]) / d[j];
+    return sparsePropagator({ phi, g: Float64Array.from(p.g, (v, i) => v * d[i]) }, n);
   }
 
   /** out ← Φ(h)·x + g(h) with a cached propagator; out must not be x. */
@@ -186,6 +235,9 @@ export class LinearTrajectory implements Trajectory {
   readonly start: number;
   readonly end: number;
   private readonly actionWork: ExpActionWork;
+  /** Scratch for the state in scaled coordinates D⁻¹x (PropagatorCache.scaling). */
+  private readonly scaled: Float64Array;
+  private readonly scaledOut: Float64Array;
   private readonly matrixNorm: number;
   private readonly inputs: readonly Float64Array[];
   /** Knot offsets from the piece start (shared plan) and the states there. */
@@ -205,8 +257,10 @@ export class LinearTrajectory implements Trajectory {
     this.start = times[0];
     this.end = end;
     this.actionWork = createExpActionWork(dimension);
-    this.matrixNorm = normInf(cache.matrix, dimension);
-    this.inputs = cache.inputs;
+    this.matrixNorm = normInf(cache.scaledMatrix, dimension);
+    this.inputs = cache.scaledInputs;
+    this.scaled = new Float64Array(dimension);
+    this.scaledOut = new Float64Array(dimension);
   }
 
   get pieces(): number {
@@ -270,8 +324,15 @@ export class LinearTrajectory implements Trajectory {
     const h = since - knots.offsets[lo];
     // The Taylor action takes ‖M‖·h/½ sub-steps: with a fast rate (a stiff model) that grows
     // without bound, while one Padé propagator costs about the same whatever the step.
-    if (this.matrixNorm * h > TAYLOR_NORM_LIMIT) apply(this.cache.uncached(h, this.keys[k]), x, n, out);
-    else expAction(this.cache.matrix, n, this.matrixNorm, h, x, input, out, this.actionWork);
+    if (this.matrixNorm * h > TAYLOR_NORM_LIMIT) {
+      apply(this.cache.uncached(h, this.keys[k]), x, n, out);
+      return;
+    }
+    // In the scaled coordinates of the propagators (quadrature states divided by D).
+    const d = this.cache.scaling;
+    for (let i = 0; i < n; i++) this.scaled[i] = x[i] / d[i];
+    expAction(this.cache.scaledMatrix, n, this.matrixNorm, h, this.scaled, input, this.scaledOut, this.actionWork);
+    for (let i = 0; i < n; i++) out[i] = this.scaledOut[i] * d[i];
   }
 
   /**
