@@ -171,8 +171,22 @@ export function trappedCompartments(model: Model, lines: Model['doseLines']): nu
   return [...reached].filter((c) => !canLeave.has(c)).sort((a, b) => a - b);
 }
 
-/** Average bioavailable input rate of the cycle against the largest rate saturable elimination can reach. */
+/**
+ * Average bioavailable input rate of the cycle against the largest rate saturable kinetics can
+ * carry: out of the body, and out of any compartment whose every way out is saturable (a
+ * saturable absorption from a gut depot dosed faster than its Vmax piles drug up there).
+ */
 function capacityProblem(model: Model, cycle: Administration[], period: number): string | null {
+  const u = `${model.units.amount}/${model.units.time}`;
+  for (let c = 0; c < model.compartments.length; c++) {
+    const ways = model.transfers.filter((t) => t.from === c);
+    if (ways.length === 0 || ways.some((t) => t.kinetics.kind === 'first-order')) continue;
+    const carried = ways.reduce((sum, t) => sum + (t.kinetics.kind === 'saturable' ? t.kinetics.vmax : 0), 0);
+    const direct = cycle.reduce((sum, a) => sum + (a.into === c ? a.amount : 0), 0) / period;
+    if (direct >= carried) {
+      return `no steady state: doses reach '${model.compartments[c].id}' at ${formatNumber(direct)} ${u} on average, at or above the most its saturable ways out can carry (Vmax ${formatNumber(carried)} ${u} in all), so drug piles up there without limit`;
+    }
+  }
   if (model.transfers.some((t) => t.to === null && t.kinetics.kind === 'first-order')) return null;
   const capacity = model.transfers.reduce(
     (s, t) => s + (t.to === null && t.kinetics.kind === 'saturable' ? t.kinetics.vmax : 0),
@@ -180,7 +194,6 @@ function capacityProblem(model: Model, cycle: Administration[], period: number):
   );
   const input = cycle.reduce((s, a) => s + a.amount, 0) / period;
   if (input < capacity) return null;
-  const u = `${model.units.amount}/${model.units.time}`;
   return capacity === 0
     ? 'no steady state: the model has no elimination from the body, so drug accumulates without limit'
     : `no steady state: the average dosing rate ${formatNumber(input)} ${u} is at or above the largest rate the saturable elimination can reach (Vmax = ${formatNumber(capacity)} ${u}), so concentrations rise without limit`;

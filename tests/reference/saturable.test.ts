@@ -237,6 +237,28 @@ describe('steady state under saturable elimination', () => {
     expectWithin(Math.abs(e.cavg - expected) / expected, 1e-5, 'effect compartment cycle balance');
   });
 
+  it('a saturable absorption dosed faster than its Vmax: no steady state, and the depot is named', () => {
+    // The gut depot's only way out carries at most Vmax = 10 mg/h; 240 mg every 12 h brings 20 mg/h,
+    // so drug piles up in the gut whatever the elimination does (the Michaelis–Menten rate law).
+    const scenario = (amount: number) =>
+      run({
+        title: `Kestrin ${amount} mg by mouth every 12 h, saturable absorption`,
+        compartments: [{ id: 'gut', volume: 1 }, { id: 'central', volume: 20 }],
+        transfers: [
+          { from: 'gut', to: 'central', vmax: 10, km: 1 },
+          { from: 'central', k: 0.2 },
+        ],
+        doses: [{ into: 'gut', amount, every: 12, count: 20 }],
+        output: { end: 240, step: 1 },
+      });
+    const over = scenario(240).metrics.steadyState;
+    expect(over?.reached).toBe(false);
+    expect(over?.message).toMatch(/'gut'/);
+    expect(over?.cycles).toBe(0);
+    // At 100 mg (8.3 mg/h, below the 10 mg/h the absorption can carry) there is one.
+    expect(scenario(100).metrics.steadyState?.reached).toBe(true);
+  });
+
   it('dosing faster than Vmax gives no steady state, says why, warns, and concentrations climb at least at (R − Vmax)/V', () => {
     const dose = 70; // every hour: 70 mg/h > Vmax = 60 mg/h
     const result = run({
