@@ -30,18 +30,47 @@ const scenario = {
   output: { end: 8760, step: 1 },
 };
 
+/** The exact path's trajectory of a scenario, with its system matrix. */
+function solveExact(input: unknown): { n: number; m: Float64Array; trajectory: LinearTrajectory } {
+  const model = normaliseScenario(input);
+  if (!model.ok) throw new Error('scenario rejected');
+  const system = new CompartmentSystem(model.value);
+  const n = system.dimension;
+  const solution = solveSchedule(model.value, system, scheduleOf(model.value), new Float64Array(n), emptyStats());
+  return { n, m: system.linearMatrix, trajectory: solution.trajectory as LinearTrajectory };
+}
+
+/**
+ * stateAt(t) and e^{M(t − a)}·x(a) from the piece start a, with the exponential from mathjs:
+ * the amounts of the first three states, the mathjs values, and the step h = t − a.
+ */
+function probe(run: ReturnType<typeof solveExact>, t: number): { ours: number[]; viaMathjs: number[]; x0: Float64Array; h: number } {
+  const { n, m, trajectory } = run;
+  const out = new Float64Array(n);
+  const x0 = new Float64Array(n);
+  trajectory.stateAt(t, 'right', out);
+  const k = trajectory.locate(t, 'right');
+  trajectory.pieceState(k, x0);
+  const h = t - trajectory.pieceStart(k);
+  const rows = Array.from({ length: n }, (_, i) => Array.from(m.subarray(i * n, (i + 1) * n), (v) => v * h));
+  const e = mathjsExpm(matrix(rows)).toArray() as number[][];
+  const viaMathjs = [0, 1, 2].map((i) => e[i].reduce((s, v, q) => s + v * x0[q], 0));
+  return { ours: [out[0], out[1], out[2]], viaMathjs, x0, h };
+}
+
+/** Largest difference relative to the largest reference amount (small amounts carry the rounding of large ones). */
+function worstRelative(ours: number[], reference: number[]): number {
+  const scale = Math.max(...reference.map(Math.abs));
+  return Math.max(...ours.map((v, i) => Math.abs(v - reference[i]) / scale));
+}
+
+/** The policy of tests/linalg/expm.test.ts for mathjs's exponential: 1024·max(1, ‖Mh‖₁)·u (Higham 2005, §3). */
+const mathjsBound = (m: Float64Array, n: number, h: number) => 1024 * Math.max(1, norm1(m, n) * h) * 2 ** -53;
+
 describe('exact path between grid points', () => {
   it('stateAt equals e^{M(t − a)}·x(a) at 40 times over the last 60 days of a year: mathjs within its error bound, a fresh Padé propagator within 2e-14', () => {
-    const model = normaliseScenario(scenario);
-    if (!model.ok) throw new Error('scenario rejected');
-    const system = new CompartmentSystem(model.value);
-    const n = system.dimension;
-    const m = system.linearMatrix;
-    const solution = solveSchedule(model.value, system, scheduleOf(model.value), new Float64Array(n), emptyStats());
-    const trajectory = solution.trajectory as LinearTrajectory;
-    const rows = Array.from({ length: n }, (_, i) => Array.from(m.subarray(i * n, (i + 1) * n)));
-    const out = new Float64Array(n);
-    const x0 = new Float64Array(n);
+    const run = solveExact(scenario);
+    const { n, m } = run;
     const ws = createExpmWorkspace(n + 1);
     const fresh = createPropagator(n);
     let worstMathjs = 0;
@@ -50,23 +79,14 @@ describe('exact path between grid points', () => {
     for (let j = 0; j < 40; j++) {
       // Times that fall on no knot and on no output point: a fraction of an hour past a day's start.
       const t = 24 * (300 + Math.floor((j * 59) / 40)) + 0.05 + ((j * 0.61) % 23.9);
-      trajectory.stateAt(t, 'right', out);
-      const k = trajectory.locate(t, 'right');
-      trajectory.pieceState(k, x0);
-      const h = t - trajectory.pieceStart(k);
-      const e = mathjsExpm(matrix(rows.map((r) => r.map((v) => v * h)))).toArray() as number[][];
+      const { ours, viaMathjs, x0, h } = probe(run, t);
       propagator(m, n, h, null, ws, fresh);
-      // Amounts (gut, central, tissue), relative to the largest of them: the gut empties to 1e-9 mg by
-      // the end of a day, where rounding on the 100 mg scale is all that is left of it.
-      const viaMathjs = [0, 1, 2].map((i) => e[i].reduce((s, v, q) => s + v * x0[q], 0));
       const viaPade = [0, 1, 2].map((i) => fresh.phi.subarray(i * n, (i + 1) * n).reduce((s, v, q) => s + v * x0[q], 0));
-      const scale = Math.max(...viaMathjs.map(Math.abs));
-      for (const i of [0, 1, 2]) {
-        worstMathjs = Math.max(worstMathjs, Math.abs(out[i] - viaMathjs[i]) / scale);
-        worstPade = Math.max(worstPade, Math.abs(out[i] - viaPade[i]) / scale);
-      }
-      // The policy of tests/linalg/expm.test.ts: 1024·max(1, ‖Mh‖₁)·u (Higham 2005, §3).
-      boundMathjs = Math.max(boundMathjs, 1024 * Math.max(1, norm1(m, n) * h) * 2 ** -53);
+      // Relative to the largest amount: the gut empties to 1e-9 mg by the end of a day, where
+      // rounding on the 100 mg scale is all that is left of it.
+      worstMathjs = Math.max(worstMathjs, worstRelative(ours, viaMathjs));
+      worstPade = Math.max(worstPade, worstRelative(ours, viaPade));
+      boundMathjs = Math.max(boundMathjs, mathjsBound(m, n, h));
     }
     expect(worstMathjs).toBeLessThan(boundMathjs);
     // The same formula evaluated two ways by the engine (Padé from the piece start; knots plus Taylor
@@ -80,7 +100,7 @@ describe('exact path between grid points, stiff model', () => {
   it('a fast exchange (k = 2000 1/h): stateAt, through a Padé propagator beyond the Taylor limit, equals mathjs expm', () => {
     // Fictional "quellamine": central ⇄ a small fast-exchanging compartment. ‖M‖·h reaches thousands
     // between knots, where the engine switches from Taylor sub-steps to one Padé propagator.
-    const model = normaliseScenario({
+    const run = solveExact({
       title: 'Quellamine 100 mg by mouth daily',
       compartments: [{ id: 'gut' }, { id: 'central', volume: 10 }, { id: 'fast', volume: 5 }],
       transfers: [
@@ -92,28 +112,10 @@ describe('exact path between grid points, stiff model', () => {
       doses: [{ into: 'gut', amount: 100, every: 24, count: 10 }],
       output: { end: 240, step: 1 },
     });
-    if (!model.ok) throw new Error('scenario rejected');
-    const system = new CompartmentSystem(model.value);
-    const n = system.dimension;
-    const m = system.linearMatrix;
-    const trajectory = solveSchedule(model.value, system, scheduleOf(model.value), new Float64Array(n), emptyStats()).trajectory as LinearTrajectory;
-    const rows = Array.from({ length: n }, (_, i) => Array.from(m.subarray(i * n, (i + 1) * n)));
-    const out = new Float64Array(n);
-    const x0 = new Float64Array(n);
-    let worst = 0;
-    let bound = 0;
     for (const t of [30.7, 55.25, 100.9, 171.3, 239.5]) {
-      trajectory.stateAt(t, 'right', out);
-      const k = trajectory.locate(t, 'right');
-      trajectory.pieceState(k, x0);
-      const h = t - trajectory.pieceStart(k);
-      const e = mathjsExpm(matrix(rows.map((r) => r.map((v) => v * h)))).toArray() as number[][];
-      const ref = [0, 1, 2].map((i) => e[i].reduce((s, v, q) => s + v * x0[q], 0));
-      const scale = Math.max(...ref.map(Math.abs));
-      for (const i of [0, 1, 2]) worst = Math.max(worst, Math.abs(out[i] - ref[i]) / scale);
-      bound = Math.max(bound, 1024 * Math.max(1, norm1(m, n) * h) * 2 ** -53);
+      const { ours, viaMathjs, h } = probe(run, t);
+      expect(worstRelative(ours, viaMathjs)).toBeLessThan(mathjsBound(run.m, run.n, h));
+      expect(ours[2]).toBeGreaterThan(0);
     }
-    expect(worst).toBeLessThan(bound);
-    expect(out[2]).toBeGreaterThan(0);
   });
 });
