@@ -341,10 +341,15 @@ type Found =
 function closedForm(system: CompartmentSystem, period: number, first: Float64Array): Found {
   const n = system.dimension;
   const nc = system.layout.compartments;
-  const phi = expmScaled(system.linearMatrix, n, period, new Float64Array(n * n), createExpmWorkspace(n));
+  // Amounts never depend on the AUC or eliminated states, so the amount block of e^{Mτ} is the
+  // exponential of the amount block alone — without the 1/V of the AUC rows (1e9 for an effect
+  // compartment of negligible volume), whose scale would otherwise set the rounding.
+  const block = new Float64Array(nc * nc);
+  for (let i = 0; i < nc; i++) for (let j = 0; j < nc; j++) block[i * nc + j] = system.linearMatrix[i * n + j];
+  const phi = expmScaled(block, nc, period, new Float64Array(nc * nc), createExpmWorkspace(nc));
   const a = new Float64Array(nc * nc);
   for (let i = 0; i < nc; i++) {
-    for (let j = 0; j < nc; j++) a[i * nc + j] = (i === j ? 1 : 0) - phi[i * n + j];
+    for (let j = 0; j < nc; j++) a[i * nc + j] = (i === j ? 1 : 0) - phi[i * nc + j];
   }
   const x = solveLinear(a, nc, first.slice(0, nc));
   if (!x || x.some((v) => !Number.isFinite(v) || v < -1e-9 * maxAbs(first, nc))) {
@@ -381,10 +386,13 @@ function iterate(
   // Compartment by compartment, relative to its own amount with the absolute tolerance as a floor:
   // a change is judged where it happens (a tiny effect compartment is not measured against the
   // dose), and the rounding noise left in a washed-out trough (1e-15 mg) is no change at all.
-  const floor = model.solver.atol / tolerance;
+  // atol is an amount: in a compartment of negligible volume (an effect compartment) the
+  // amounts that matter are smaller in proportion, so its floor shrinks with its volume.
+  const largest = Math.max(1e-300, ...model.compartments.map((c) => c.volume ?? 0));
+  const floor = model.compartments.slice(0, nc).map((c) => (model.solver.atol / tolerance) * Math.min(1, (c.volume ?? largest) / largest));
   const weighted = (d: ArrayLike<number>, b: Float64Array) => {
     let r = 0;
-    for (let i = 0; i < nc; i++) r = Math.max(r, Math.abs(d[i]) / (Math.abs(b[i]) + floor));
+    for (let i = 0; i < nc; i++) r = Math.max(r, Math.abs(d[i]) / (Math.abs(b[i]) + floor[i]));
     return r;
   };
   const residualOf = (a: Float64Array, b: Float64Array) => weighted(Float64Array.from({ length: nc }, (_, i) => b[i] - a[i]), b);
