@@ -404,6 +404,8 @@ function iterate(
   /** Changes this small are rounding: two cycles that repeat this closely say nothing about contraction. */
   const roundingLevel = 1e3 * Number.EPSILON;
   let residual = residualOf(x, px);
+  /** (eliminated − dosed)/dosed over the last cycle checked, or 0. */
+  let lastBalance = 0;
   let plain = 0;
   while (map.runs < limits.steadyStateCycles) {
     if (residual <= tolerance) {
@@ -417,8 +419,10 @@ function iterate(
       const rho = residual > roundingLevel ? Math.min(0.999999, r2 / residual) : NaN;
       const bound = lastJacobian ? newtonDistance(lastJacobian, px, next) : Number.isNaN(rho) ? Infinity : r2 / (1 - rho);
       const balance = Math.abs(full[eliminatedIndex] - dosePerCycle) / Math.max(dosePerCycle, 1e-300);
+      lastBalance = (full[eliminatedIndex] - dosePerCycle) / Math.max(dosePerCycle, 1e-300);
       if (bound <= tolerance && balance <= 10 * tolerance && !(needsJacobian && !lastJacobian)) {
-        if (!lastJacobian) return { ok: true, state: next, residual: bound };
+        // A bound of exactly 0 (two cycles equal to the bit) is rounding, not perfection.
+        if (!lastJacobian) return { ok: true, state: next, residual: Math.max(bound, Number.EPSILON) };
         // The map's fixed point is that of the integrated cycle, off the true one by (J − I)⁻¹δ,
         // δ the integration error of one cycle: measured against the same cycle at rtol/100.
         // Near saturation J → I and this drift grows without bound.
@@ -433,7 +437,7 @@ function iterate(
         const jacobianNoise = cycleError / lastDifferenceStep;
         const smallest = 1 / inverseNorm(lastJacobian, nc);
         const resolved = smallest >= 10 * jacobianNoise;
-        if (drift <= tolerance / 10 && resolved) return { ok: true, state: next, residual: Math.max(bound, drift) };
+        if (drift <= tolerance / 10 && resolved) return { ok: true, state: next, residual: Math.max(bound, drift, Number.EPSILON) };
         // The noise in J scales as √rtol (error rtol over a step √rtol): what would resolve J.
         const rtolFactor = Math.min(tolerance / (40 * drift), resolved ? Infinity : (smallest / (20 * jacobianNoise)) ** 2);
         return { ok: false, message: illConditionedMessage(drift, map.rtol), illConditioned: { state: next, drift, rtolFactor } };
@@ -473,7 +477,10 @@ function iterate(
   }
   return {
     ok: false,
-    message: `no steady state within ${limits.steadyStateCycles} dosing cycles: the state still changed by a relative ${formatNumber(residual)} per cycle (is the dosing rate close to the saturable elimination capacity?)`,
+    message:
+      Math.abs(lastBalance) > 10 * tolerance
+        ? `no steady state within ${limits.steadyStateCycles} dosing cycles: a cycle still eliminated ${formatNumber(100 * Math.abs(lastBalance))}% ${lastBalance < 0 ? 'less' : 'more'} than it doses (does drug pile up behind a saturable way out?)`
+        : `no steady state within ${limits.steadyStateCycles} dosing cycles: the state still changed by a relative ${formatNumber(residual)} per cycle (is the dosing rate close to the saturable elimination capacity?)`,
   };
 }
 

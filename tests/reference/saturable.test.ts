@@ -259,6 +259,26 @@ describe('steady state under saturable elimination', () => {
     expect(scenario(100).metrics.steadyState?.reached).toBe(true);
   });
 
+  it('a saturable way out overrun behind a first-order feed: no steady state, and the message says what fails', () => {
+    // 100 mg every 12 h into central (k 0.1 out, k 1 on to peripheral); peripheral's only way out
+    // carries at most 5 mg/h, while about 7.6 mg/h reaches it: drug piles up there. The dose does not
+    // go into peripheral directly, so only the cycles can show it: each eliminates less than it doses.
+    const result = run({
+      title: 'Kestrin 100 mg every 12 h, saturable peripheral clearance',
+      compartments: [{ id: 'central', volume: 10 }, { id: 'peripheral', volume: 20 }],
+      transfers: [
+        { from: 'central', to: 'peripheral', k: 1 },
+        { from: 'central', k: 0.1 },
+        { from: 'peripheral', vmax: 5, km: 1 },
+      ],
+      doses: [{ into: 'central', amount: 100, every: 12, count: 20 }],
+      output: { end: 240, step: 1 },
+    });
+    const ss = result.metrics.steadyState;
+    expect(ss?.reached).toBe(false);
+    expect(ss?.message).toMatch(/eliminated .*% less than it doses/);
+  });
+
   it('dosing faster than Vmax gives no steady state, says why, warns, and concentrations climb at least at (R − Vmax)/V', () => {
     const dose = 70; // every hour: 70 mg/h > Vmax = 60 mg/h
     const result = run({
