@@ -19,6 +19,25 @@ import { concentration, expectWithin, figures, maxOf, rel, rowsOf, run, worstErr
 const EXACT = 1e-12;
 
 /**
+ * Fictional "orvenol" by mouth, 300 mg (or `dose`) every 12 h with F = 0.7, a 30 min lag,
+ * ka = 0.9 1/h, V = 35 L and CL = 5 L/h: the oral regimen of the superposition and
+ * steady-state checks below.
+ */
+const orvenol = { F: 0.7, ka: 0.9, V: 35, CL: 5, lag: 0.5, tau: 12 };
+function orvenolScenario(dose: number, count: number, end: number, step: number) {
+  return {
+    title: 'Orvenol 300 mg every 12 h',
+    compartments: [{ id: 'gut' }, { id: 'central', volume: orvenol.V }],
+    transfers: [
+      { from: 'gut', to: 'central', k: orvenol.ka },
+      { from: 'central', cl: orvenol.CL },
+    ],
+    doses: [{ into: 'gut', amount: dose, bioavailability: orvenol.F, lag: '30 min', every: orvenol.tau, count }],
+    output: { end, step },
+  };
+}
+
+/**
  * The left-limit row at the very start of the span (a bolus at output.start) holds the
  * empty starting state, which the closed forms below do not describe; it is checked on its
  * own in the superposition block, and curve comparisons here skip only that row.
@@ -221,23 +240,10 @@ describe('superposition of repeated doses', () => {
   });
 
   it('an oral regimen with lag and bioavailability equals the sum of shifted Bateman curves', () => {
-    // Fictional "orvenol" 300 mg every 12 h × 4 by mouth, F = 0.7, lag 30 min, ka = 0.9 1/h.
-    const F = 0.7;
-    const ka = 0.9;
-    const Vo = 35;
-    const CLo = 5;
+    // Orvenol 300 mg every 12 h × 4.
+    const { F, ka, V: Vo, CL: CLo, lag } = orvenol;
     const ko = CLo / Vo;
-    const lag = 0.5;
-    const result = run({
-      title: 'Orvenol 300 mg every 12 h',
-      compartments: [{ id: 'gut' }, { id: 'central', volume: Vo }],
-      transfers: [
-        { from: 'gut', to: 'central', k: ka },
-        { from: 'central', cl: CLo },
-      ],
-      doses: [{ into: 'gut', amount: 300, bioavailability: F, lag: '30 min', every: 12, count: 4 }],
-      output: { end: 60, step: 0.25 },
-    });
+    const result = run(orvenolScenario(300, 4, 60, 0.25));
     const arrivals = [0, 12, 24, 36].map((g) => g + lag);
     const single = (s: number) => (s <= 0 ? 0 : ((F * 300 * ka) / (Vo * (ka - ko))) * (Math.expm1(-ko * s) - Math.expm1(-ka * s)));
     // Superposition (G&P ch. 3) of the Bateman function (ch. 1); the plasma curve is
@@ -310,25 +316,11 @@ describe('accumulation and steady state of repeated dosing', () => {
   });
 
   it('oral with lag: steady-state Bateman figures, AUC-based accumulation and Css,avg = F·Dose/(CL·τ)', () => {
-    // Fictional "orvenol" 300 mg every 12 h by mouth, F = 0.7, lag 30 min, ka = 0.9 1/h, V = 35 L, CL = 5 L/h.
+    // Orvenol 300 mg every 12 h, 20 doses.
     const D = 300;
-    const F = 0.7;
-    const ka = 0.9;
-    const V = 35;
-    const CL = 5;
+    const { F, ka, V, CL, tau, lag } = orvenol;
     const k = CL / V;
-    const tau = 12;
-    const lag = 0.5;
-    const result = run({
-      title: 'Orvenol 300 mg every 12 h',
-      compartments: [{ id: 'gut' }, { id: 'central', volume: V }],
-      transfers: [
-        { from: 'gut', to: 'central', k: ka },
-        { from: 'central', cl: CL },
-      ],
-      doses: [{ into: 'gut', amount: D, bioavailability: F, lag: '30 min', every: tau, count: 20 }],
-      output: { end: 240, step: 1 },
-    });
+    const result = run(orvenolScenario(D, 20, 240, 1));
     const ss = result.metrics.steadyState;
     expect(ss?.reached).toBe(true);
     if (!ss) return;

@@ -6,7 +6,7 @@ import { scenarioFingerprint } from '../../models/fingerprint.ts';
 import { createApp, defaultServerLimits } from '../../server/app.ts';
 import { loadSamples } from '../../server/samples.ts';
 import { SimulationPool } from '../../server/worker-pool.ts';
-import { pdfPages, readSample, removeTempFiles } from './helpers.ts';
+import { failing, pdfPages, readSample, removeTempFiles } from './helpers.ts';
 
 const velarin = readSample('velarin-oral-bid');
 let pool: SimulationPool;
@@ -67,14 +67,6 @@ describe('POST /api/report', () => {
   });
 
   it('answers 422 JSON on numerical failure', async () => {
-    const failing = {
-      title: 'Fictional step budget too small',
-      compartments: [{ id: 'central', volume: 10 }],
-      transfers: [{ from: 'central', vmax: 5, km: 0.5 }],
-      doses: [{ into: 'central', amount: 100 }],
-      output: { end: 2000, step: 10 },
-      solver: { method: 'dopri5', maxSteps: 100, rtol: 1e-12, atol: 1e-14 },
-    };
     const res = await request(app).post('/api/report').send(failing).expect(422);
     expect(res.headers['content-type']).toMatch(/^application\/json/);
     expect(res.body.problems[0].path).toBe('solver');

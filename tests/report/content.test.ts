@@ -6,7 +6,7 @@ import { scenarioFingerprint } from '../../models/fingerprint.ts';
 import { simulate, type SimulationResult } from '../../models/simulate.ts';
 import { fmt } from '../../models/summary-text.ts';
 import { buildReport } from '../../server/report/report.ts';
-import { escapeRegExp, pdfInfo, pdfPages, readSample, removeTempFiles } from './helpers.ts';
+import { escapeRegExp, failing, pdfInfo, pdfPages, readSample, removeTempFiles } from './helpers.ts';
 
 const now = new Date(Date.UTC(2031, 4, 17, 9, 30));
 const velarin = readSample('velarin-oral-bid');
@@ -187,14 +187,6 @@ describe('no PDF for a scenario that cannot be simulated', () => {
   });
 
   it('answers 422 with the engine message on numerical failure', () => {
-    const failing = {
-      title: 'Fictional step budget too small',
-      compartments: [{ id: 'central', volume: 10 }],
-      transfers: [{ from: 'central', vmax: 5, km: 0.5 }],
-      doses: [{ into: 'central', amount: 100 }],
-      output: { end: 2000, step: 10 },
-      solver: { method: 'dopri5', maxSteps: 100, rtol: 1e-12, atol: 1e-14 },
-    };
     const outcome = buildReport({ scenario: failing });
     expect(outcome.ok).toBe(false);
     if (outcome.ok) return;

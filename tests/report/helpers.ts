@@ -56,3 +56,13 @@ export function squeeze(text: string): string {
 export function escapeRegExp(text: string): string {
   return text.replace(/[.*+?^${}()|[\]\\]/g, '\\$&');
 }
+
+/** A scenario whose integration fails (100 steps cannot reach 2000 h at rtol 1e-12): the engine's 422 case. */
+export const failing = {
+  title: 'Fictional step budget too small',
+  compartments: [{ id: 'central', volume: 10 }],
+  transfers: [{ from: 'central', vmax: 5, km: 0.5 }],
+  doses: [{ into: 'central', amount: 100 }],
+  output: { end: 2000, step: 10 },
+  solver: { method: 'dopri5', maxSteps: 100, rtol: 1e-12, atol: 1e-14 },
+};
