@@ -62,20 +62,23 @@ export function displayUnit(dimension: Dimension, units: UnitSystem): string {
   return dimension === 'rateConstant' ? `1/${units.time}` : unitFor(dimension, units);
 }
 
-// Spellings users write that mathjs does not know; "1/h" after a number confuses its parser.
-const aliases: [RegExp, string][] = [
+// Spellings users write that mathjs does not know. They apply to the unit text alone, after
+// the number has been split off, so no rewrite can reach a digit of the number.
+const unitAliases: [RegExp, string][] = [
   [/[µμ]/g, 'u'],
   [/\bmcg\b/g, 'ug'],
   [/\bhrs?\b/g, 'h'],
   [/\bd\b/g, 'day'],
   [/\bper\b/g, '/'],
-  [/^([-+]?[0-9.]+(?:[eE][-+]?\d+)?)\s*1\s*\//, '$1 /'],
+  // "1/h" and "/h" both mean per hour; mathjs reads "1 /h" but not "1 1/h" or "1 /h" twice.
+  [/^1\s*\//, '/'],
 ];
 
+/** The unit part of a quantity in mathjs's spelling ("1/hr" → "/h", "per day" → "/ day"). */
 export function normaliseUnitText(text: string): string {
   let s = text.trim();
-  for (const [pattern, replacement] of aliases) s = s.replace(pattern, replacement);
-  return s;
+  for (const [pattern, replacement] of unitAliases) s = s.replace(pattern, replacement);
+  return s.trim();
 }
 
 function parseUnit(text: string): MathUnit | null {
@@ -86,47 +89,69 @@ function parseUnit(text: string): MathUnit | null {
   }
 }
 
-const numberThenRest = /^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*)$/;
+const numberThenRest = /^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)(.*)$/;
 
-/** Converts one quantity to the scenario unit of `dimension`. */
+/**
+ * The factor that takes one `unitText` to one `target`, or null when the two differ in
+ * dimension. Base-unit arithmetic leaves a few ulps of noise on factors that are exactly
+ * decimal (ug/mL → mg/L gives 1.0000000000000002); a factor within 8 ulps of a 12-digit
+ * decimal is snapped to it, so "2 ug/mL" reads as 2 mg/L, while 1/60 keeps all its bits.
+ */
+function conversionFactor(unit: MathUnit, target: MathUnit, targetText: string): number | null {
+  if (!unit.equalBase(target)) return null;
+  const factor = unit.toNumber(targetText);
+  const snapped = Number(factor.toPrecision(12));
+  return Math.abs(snapped - factor) <= 8 * Number.EPSILON * Math.abs(factor) ? snapped : factor;
+}
+
+function quoted(text: string): string {
+  return `'${text.trim()}'`;
+}
+
+/**
+ * Converts one quantity to the scenario unit of `dimension`. The number is read by
+ * JavaScript, never by the unit parser, and only multiplied by the unit's factor: a
+ * quantity already in the scenario's unit keeps every bit of the number written.
+ */
 export function convertQuantity(q: Quantity, dimension: Dimension, units: UnitSystem): Converted {
   if (typeof q === 'number') {
     return Number.isFinite(q) ? { ok: true, value: q } : { ok: false, message: 'must be a finite number' };
   }
-  const text = normaliseUnitText(q);
-  const target = unitFor(dimension, units);
-  const split = numberThenRest.exec(text);
+  const split = numberThenRest.exec(q.trim());
   if (!split) {
-    return { ok: false, message: `expected a number with ${dimensionWords[dimension]}, got '${q}'` };
+    return { ok: false, message: `expected a number with ${dimensionWords[dimension]}, got ${quoted(q)}` };
   }
   const magnitude = Number(split[1]);
-  const unitText = split[2].trim();
-  // A bare number, or exactly the target unit, needs no conversion (and so no rounding).
-  if (unitText === '' || unitText === target || (dimension === 'rateConstant' && unitText === `/${units.time}`)) {
-    return Number.isFinite(magnitude)
-      ? { ok: true, value: magnitude }
-      : { ok: false, message: 'must be a finite number' };
+  if (!Number.isFinite(magnitude)) return { ok: false, message: `${quoted(q)} is not a finite number` };
+  const typedUnit = split[2].trim();
+  if (typedUnit === '') return { ok: true, value: magnitude };
+  const unitText = normaliseUnitText(typedUnit);
+  const parsed = parseUnit(`1 ${unitText}`);
+  if (!parsed) return { ok: false, message: `could not read the unit ${quoted(typedUnit)} in ${quoted(q)}` };
+  const targetText = unitFor(dimension, units);
+  const target = parseUnit(`1 ${targetText}`);
+  if (!target) return { ok: false, message: `the scenario unit '${targetText}' is not a known unit` };
+  const factor = conversionFactor(parsed, target, targetText);
+  if (factor === null) {
+    return { ok: false, message: `expected ${dimensionWords[dimension]}, got ${quoted(typedUnit)}` };
   }
-  const parsed = parseUnit(text);
-  if (!parsed) return { ok: false, message: `could not read '${q}' as a quantity with a unit` };
-  const reference = parseUnit(`1 ${target}`);
-  if (!reference) return { ok: false, message: `the scenario unit '${target}' is not a known unit` };
-  if (!parsed.equalBase(reference)) {
-    return { ok: false, message: `expected ${dimensionWords[dimension]}, got '${unitText}'` };
-  }
-  // Round off the last bits that base-unit conversion adds (2 ug/mL → 2.0000000000000004 mg/L).
-  const value = Number(parsed.toNumber(target).toPrecision(15));
-  return Number.isFinite(value) ? { ok: true, value } : { ok: false, message: 'must be a finite number' };
+  const value = magnitude * factor;
+  return Number.isFinite(value)
+    ? { ok: true, value }
+    : { ok: false, message: `${quoted(q)} is too large once converted to ${displayUnit(dimension, units)}` };
 }
 
-const baseDimension: Record<keyof UnitSystem, { probe: string; words: string }[]> = {
+const baseDimension: Record<keyof UnitSystem, { probe: string; words: string; example: string }[]> = {
   amount: [
-    { probe: '1 mg', words: 'mass' },
-    { probe: '1 mmol', words: 'amount of substance' },
+    { probe: '1 mg', words: 'mass', example: "'mg', 'ug' or 'mmol'" },
+    { probe: '1 mmol', words: 'amount of substance', example: "'mmol'" },
   ],
-  volume: [{ probe: '1 L', words: 'volume' }],
-  time: [{ probe: '1 h', words: 'time' }],
+  volume: [{ probe: '1 L', words: 'volume', example: "'L' or 'mL'" }],
+  time: [{ probe: '1 h', words: 'time', example: "'h', 'min' or 'day'" }],
 };
+
+/** A unit name with its prefix (mg, mL, min, day): letters only. */
+const singleUnitName = /^[A-Za-z]+$/;
 
 /** Checks the scenario's own units (amount a mass or moles, volume a volume, time a time) and normalises their spelling. */
 export function checkUnitSystem(units: UnitSystem): {
@@ -139,7 +164,11 @@ export function checkUnitSystem(units: UnitSystem): {
     const text = normaliseUnitText(units[field]);
     const parsed = parseUnit(`1 ${text}`);
     const kinds = baseDimension[field];
-    if (!parsed || parsed.value === null) {
+    if (!singleUnitName.test(text)) {
+      // Compound spellings ("dm*dm*dm", "h*h/h") would reach every derived unit (mg/dm*dm*dm) and
+      // break the reading of concentrations and rate constants, so the system takes plain names.
+      problems.push({ field, message: `'${units[field]}' is not a single unit name; write one such as ${kinds[0].example}` });
+    } else if (!parsed || parsed.value === null) {
       problems.push({ field, message: `'${units[field]}' is not a known unit` });
     } else if (!kinds.some((k) => parsed.equalBase(math.unit(k.probe) as MathUnit))) {
       problems.push({ field, message: `'${units[field]}' is not a unit of ${kinds.map((k) => k.words).join(' or ')}` });

@@ -116,7 +116,7 @@ const cases: Case[] = [
     s.transfers[1] = { from: 'central', vmax: 40, km: 2 };
     s.solver = { method: 'exact' };
   }, 'solver.method', /'exact' needs a linear model, but transfers\[1\] is saturable/],
-  ['an unknown unit', (s) => (s.compartments[1].volume = '12 flurbs'), 'compartments[1].volume', /could not read '12 flurbs' as a quantity with a unit/],
+  ['an unknown unit', (s) => (s.compartments[1].volume = '12 flurbs'), 'compartments[1].volume', /could not read the unit 'flurbs' in '12 flurbs'/],
   ['a quantity with no number', (s) => (s.compartments[1].volume = 'twelve L'), 'compartments[1].volume', /expected a number with a volume unit/],
   ['an empty quantity', (s) => (s.doses[0].amount = '  '), 'doses[0].amount', /must not be empty/],
   ['scenario volume unit that is a mass', (s) => (s.units = { volume: 'mg' }), 'units.volume', /^'mg' is not a unit of volume$/],
