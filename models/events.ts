@@ -53,6 +53,11 @@ interface RawEvent {
 /** Times closer than this fraction of the span are one breakpoint (float noise in at + j·every + lag). */
 const mergeFraction = 1e-12;
 
+/** Times closer than this are one breakpoint of a schedule over [start, end]. */
+export function timeResolution(start: number, end: number): number {
+  return mergeFraction * Math.max(1, Math.abs(end), Math.abs(start));
+}
+
 /** Builds the breakpoint schedule for administrations within [start, end). */
 export function buildSchedule(
   administrations: readonly Administration[],
@@ -61,9 +66,12 @@ export function buildSchedule(
   end: number,
 ): Schedule {
   const raw: RawEvent[] = [];
+  const tolerance = timeResolution(start, end);
   for (const a of administrations) {
     if (a.arrival >= end || a.arrival < start) continue;
-    if (a.duration === 0) {
+    // An infusion shorter than the resolution would start and stop at one breakpoint and
+    // vanish; within that resolution it is a bolus, so it is given as one.
+    if (a.duration <= tolerance) {
       if (a.amount !== 0) raw.push({ time: a.arrival, compartment: a.into, bolus: a.amount, rateChange: 0 });
     } else {
       const rate = a.amount / a.duration;
@@ -73,7 +81,6 @@ export function buildSchedule(
     }
   }
   raw.sort((p, q) => p.time - q.time);
-  const tolerance = mergeFraction * Math.max(1, Math.abs(end), Math.abs(start));
 
   const breakpoints: Breakpoint[] = [];
   const distinct: Float64Array[] = [];

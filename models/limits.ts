@@ -11,6 +11,8 @@ export const limits = {
   /** Reported time points (requested grid plus explicit times). */
   outputPoints: 2_000_000,
   thresholds: 20,
+  /** Longest simulated span, in hours (about 114,000 years): beyond it times lose their resolution. */
+  spanHours: 1e9,
   /** Dosing cycles tried when iterating a saturable model to steady state. */
   steadyStateCycles: 2_000,
 } as const;

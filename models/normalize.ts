@@ -95,7 +95,12 @@ export function buildModel(s: Scenario): Outcome<Model> {
   const start = r.read(s.output.start, 'time', 'output.start', 'any') ?? 0;
   const end = r.read(s.output.end, 'time', 'output.end', 'any');
   if (end !== null && !(end > start)) r.fail('output.end', 'must be after output.start');
-  const span = end !== null && end > start ? { start, end } : null;
+  const longest = longestSpan(r.units);
+  const spanOk = end !== null && end > start && end - start <= longest;
+  if (end !== null && end > start && !spanOk) {
+    r.fail('output.end', `makes a span of ${end - start} ${r.units.time}, beyond the longest Tidemark simulates (${limits.spanHours.toExponential()} h, about 114,000 years)`);
+  }
+  const span = spanOk && end !== null ? { start, end } : null;
 
   const doses = span ? readDoses(s, r, compartments, index, span) : null;
   const outputTimes = span ? readOutputTimes(s, r, span) : null;
@@ -122,6 +127,12 @@ export function buildModel(s: Scenario): Outcome<Model> {
       linear: transfers.every((t) => t.kinetics.kind === 'first-order'),
     },
   };
+}
+
+/** limits.spanHours in the scenario's time unit. */
+function longestSpan(units: UnitSystem): number {
+  const hour = convertQuantity('1 h', 'time', units);
+  return hour.ok ? limits.spanHours * hour.value : limits.spanHours;
 }
 
 function readCompartments(s: Scenario, r: Reader): ModelCompartment[] {

@@ -4,10 +4,11 @@
  * bad input or numerical failure.
  */
 import { disposition, type Disposition } from './disposition.ts';
-import { doseEvents, scheduleOf, type DoseEventKind, type Schedule } from './events.ts';
+import { doseEvents, scheduleOf, timeResolution, type DoseEventKind, type Schedule } from './events.ts';
 import { propagateExact } from './linear-path.ts';
 import { CurveProbe } from './metrics/curve-probe.ts';
 import { exposureFigures, type CompartmentFigures } from './metrics/exposure.ts';
+import { massBalance, massBalanceProblem, type MassBalance } from './mass-balance.ts';
 import type { Model } from './model.ts';
 import { normaliseScenario } from './normalize.ts';
 import { integrateSchedule } from './numerical-path.ts';
@@ -28,17 +29,6 @@ export interface CompartmentSeries {
   amount: Float64Array;
   /** Null for a compartment without a volume. */
   concentration: Float64Array | null;
-}
-
-export interface MassBalance {
-  /** Amount that has arrived by the end (bioavailable amounts; infusions pro rata). */
-  dosed: number;
-  /** Amount in the body at the end. */
-  remaining: number;
-  /** Amount eliminated by the end. */
-  eliminated: number;
-  /** |dosed − remaining − eliminated| / dosed. */
-  relativeError: number;
 }
 
 export interface Diagnostics {
@@ -140,10 +130,14 @@ export function simulateModel(model: Model): Outcome<SimulationResult> {
   const series = sampleSeries(model, solution.trajectory, rows, new Float64Array(system.dimension));
   const firstBad = firstNonFinite(series);
   if (firstBad) return { ok: false, problems: [firstBad] };
+  // A run whose own balance fails is refused, never returned as a plain success.
+  const balance = massBalance(model, system.layout, solution.final);
+  const unbalanced = massBalanceProblem(model, balance);
+  if (unbalanced) return { ok: false, problems: [unbalanced] };
 
   const warnings: string[] = [];
   const dispo = disposition(system);
-  warnings.push(...fixedStepWarnings(model, dispo), ...negativeAmountWarnings(model, rows.times, series), ...beyondEndWarnings(model));
+  warnings.push(...fixedStepWarnings(model, dispo), ...negativeAmountWarnings(model, rows.times, series), ...beyondEndWarnings(model), ...shortInfusionWarnings(model));
   const probe = new CurveProbe(solution.trajectory, system, schedule);
   const compartmentFigures = exposureFigures(model, system.layout, probe);
   const steady = guardedSteadyState(model, system, stats);
@@ -170,7 +164,7 @@ export function simulateModel(model: Model): Outcome<SimulationResult> {
         propagators: solution.propagators,
         segments: schedule.breakpoints.length,
         disposition: dispo,
-        massBalance: massBalance(model, system.layout, solution.final),
+        massBalance: balance,
         warnings,
       },
     },
@@ -349,16 +343,13 @@ function beyondEndWarnings(model: Model): string[] {
     .map((l) => `doses[${l.line}]: ${l.beyondEnd} dose${l.beyondEnd > 1 ? 's arrive' : ' arrives'} at or after the end of the simulated span and ${l.beyondEnd > 1 ? 'are' : 'is'} not included`);
 }
 
-function massBalance(model: Model, layout: StateLayout, final: Float64Array): MassBalance {
-  let dosed = 0;
-  for (const a of model.administrations) {
-    if (a.arrival >= model.end) continue;
-    dosed += a.duration === 0 ? a.amount : (a.amount * Math.min(a.duration, model.end - a.arrival)) / a.duration;
-  }
-  let remaining = 0;
-  for (let i = 0; i < layout.compartments; i++) remaining += final[i];
-  const eliminated = final[layout.eliminated];
-  const residual = Math.abs(dosed - remaining - eliminated);
-  return { dosed, remaining, eliminated, relativeError: dosed > 0 ? residual / dosed : residual };
+/** Infusions shorter than the schedule's time resolution are given as boluses (events.ts); say so. */
+function shortInfusionWarnings(model: Model): string[] {
+  const resolution = timeResolution(model.start, model.end);
+  const seen = new Set<number>();
+  for (const a of model.administrations) if (a.duration > 0 && a.duration <= resolution) seen.add(a.line);
+  return [...seen].map(
+    (line) =>
+      `doses[${line}]: an infusion of ${formatNumber(model.doseLines.find((l) => l.line === line)?.duration ?? 0)} ${model.units.time} is shorter than the time resolution of this span (${formatNumber(resolution)} ${model.units.time}) and is given as a bolus`,
+  );
 }
-
