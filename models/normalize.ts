@@ -65,8 +65,45 @@ function zodProblems(error: z.ZodError): Problem[] {
     if ((issue.code === 'invalid_type' || issue.code === 'invalid_union') && issue.input === undefined) {
       return { path, message: 'is required' };
     }
-    return { path, message: issue.message };
+    return { path, message: plainWords(issue) };
   });
+}
+
+function kindOf(value: unknown): string {
+  if (value === null) return 'null';
+  if (Array.isArray(value)) return 'a list';
+  if (typeof value === 'string') return `the text '${value.length > 40 ? `${value.slice(0, 40)}…` : value}'`;
+  if (typeof value === 'object') return 'an object';
+  return `${typeof value === 'number' ? 'the number' : 'the value'} ${String(value)}`;
+}
+
+const typeWords: Record<string, string> = {
+  number: 'a number',
+  string: 'text',
+  object: 'an object with named fields',
+  array: 'a list',
+  boolean: 'true or false',
+};
+
+/** zod's own messages ("Too big: expected number to be <=1") in the words of the scenario format. */
+function plainWords(issue: z.core.$ZodIssue): string {
+  switch (issue.code) {
+    case 'too_big':
+      if (issue.origin === 'array') return `may hold at most ${issue.maximum} entries`;
+      if (issue.origin === 'string') return `may be at most ${issue.maximum} characters long`;
+      return `must be at most ${issue.maximum}${issue.inclusive === false ? ' (exclusive)' : ''}`;
+    case 'too_small':
+      if (issue.origin === 'array') return `needs at least ${issue.minimum} ${Number(issue.minimum) === 1 ? 'entry' : 'entries'}`;
+      if (issue.origin === 'string') return Number(issue.minimum) === 1 ? 'must not be empty' : `must be at least ${issue.minimum} characters long`;
+      return `must be at least ${issue.minimum}`;
+    case 'invalid_type':
+      if (issue.expected === 'int') return `must be a whole number, got ${kindOf(issue.input)}`;
+      return `must be ${typeWords[issue.expected] ?? issue.expected}, got ${kindOf(issue.input)}`;
+    case 'invalid_value':
+      return `must be one of ${issue.values.map((v) => `'${String(v)}'`).join(', ')}, got ${kindOf(issue.input)}`;
+    default:
+      return issue.message;
+  }
 }
 
 export function parseScenario(input: unknown): Outcome<Scenario> {
@@ -127,6 +164,21 @@ export function buildModel(s: Scenario): Outcome<Model> {
       linear: transfers.every((t) => t.kinetics.kind === 'first-order'),
     },
   };
+}
+
+/** A fraction from 0 to 1, written as a number or as a percentage ("85%"). */
+function readFraction(value: number | string, path: string, r: Reader): number | null {
+  const percent = typeof value === 'string' ? /^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(%?)\s*$/.exec(value) : null;
+  if (typeof value === 'string' && !percent) {
+    r.fail(path, `expected a fraction from 0 to 1 or a percentage such as "85%", got '${value.trim()}'`);
+    return null;
+  }
+  const fraction = percent ? Number(percent[1]) / (percent[2] === '%' ? 100 : 1) : (value as number);
+  if (fraction >= 0 && fraction <= 1) return fraction;
+  const written = percent ? `'${(value as string).trim()}'` : String(value);
+  const hint = !percent?.[2] && fraction > 1 && fraction <= 100 ? `; ${written} looks like a percentage — write "${fraction}%" or ${fraction / 100}` : '';
+  r.fail(path, `must be a fraction from 0 to 1 (or a percentage from 0% to 100%), got ${written}${hint}`);
+  return null;
 }
 
 /** limits.spanHours in the scenario's time unit. */
@@ -247,7 +299,8 @@ function readDoses(
     if (until !== null && at !== null && until < at) r.fail(`${path}.until`, `is before the first dose at ${at} ${r.units.time}`);
     if (into === undefined || amount === null || at === null || (d.every !== undefined && every === null)) return;
 
-    const bioavailability = d.bioavailability ?? 1;
+    const bioavailability = d.bioavailability === undefined ? 1 : readFraction(d.bioavailability, `${path}.bioavailability`, r);
+    if (bioavailability === null) return;
     const last = every === null ? at : d.count !== undefined ? at + (d.count - 1) * every : (until ?? span.end);
     let count = 0;
     let beyondEnd = 0;
@@ -353,7 +406,8 @@ function readThresholds(
       return;
     }
     if (compartments[c].volume === null) {
-      r.fail(`${path}.compartment`, `'${t.compartment}' has no volume, so it has no concentration`);
+      // A volume that was given but could not be read is reported at the volume alone.
+      if (s.compartments[c].volume === undefined) r.fail(`${path}.compartment`, `'${t.compartment}' has no volume, so it has no concentration`);
       return;
     }
     if (t.above === undefined && t.below === undefined) {

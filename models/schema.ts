@@ -61,7 +61,10 @@ export const doseSchema = z
     at: quantity.default(0).describe('Time of the first administration.'),
     duration: quantity.optional().describe('Infusion duration: makes the dose a zero-order infusion.'),
     rate: quantity.optional().describe('Infusion rate (amount/time): the duration is amount/rate.'),
-    bioavailability: z.number().min(0).max(1).optional().describe('Fraction of the amount that arrives, 0..1 (default 1).'),
+    bioavailability: z
+      .union([z.number(), z.string().trim().min(1, 'must not be empty')], 'must be a fraction from 0 to 1, or a percentage such as "85%"')
+      .optional()
+      .describe('Fraction of the amount that arrives: a number from 0 to 1, or a percentage such as "85%" (default 1).'),
     lag: quantity.optional().describe('Delay between administration and arrival.'),
     every: quantity.optional().describe('Dosing interval for repeated doses.'),
     count: z.number().int().min(1).max(100000).optional().describe('Number of doses in the series (with every).'),

@@ -286,9 +286,12 @@ function numericalProblem(e: unknown, model: Model, layout: StateLayout): Proble
       'step-size-underflow': 'the step size fell below what the arithmetic can resolve',
       'too-many-steps': `more than solver.maxSteps (${model.solver.maxSteps}) steps were needed`,
       'non-finite': 'the solution became non-finite (overflow or division by zero)',
+      'too-much-memory': e.message,
     }[e.reason];
+    // With a fixed step, the step is what sets the count of steps and the memory they take.
+    const stepBound = model.solver.step !== null && (e.reason === 'too-many-steps' || e.reason === 'too-much-memory');
     return {
-      path: 'solver',
+      path: stepBound ? 'solver.step' : 'solver',
       message: `numerical failure at t = ${formatNumber(e.time)} ${model.units.time} in ${stateName(e.component, model, layout)}: ${what}`,
     };
   }

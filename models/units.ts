@@ -125,6 +125,10 @@ export function convertQuantity(q: Quantity, dimension: Dimension, units: UnitSy
   if (!Number.isFinite(magnitude)) return { ok: false, message: `${quoted(q)} is not a finite number` };
   const typedUnit = split[2].trim();
   if (typedUnit === '') return { ok: true, value: magnitude };
+  const decimalComma = /^,(\d+)(.*)$/.exec(typedUnit);
+  if (decimalComma) {
+    return { ok: false, message: `${quoted(q)} has a decimal comma; write a decimal point: '${split[1]}.${decimalComma[1]}${decimalComma[2]}'` };
+  }
   const unitText = normaliseUnitText(typedUnit);
   const parsed = parseUnit(`1 ${unitText}`);
   if (!parsed) return { ok: false, message: `could not read the unit ${quoted(typedUnit)} in ${quoted(q)}` };

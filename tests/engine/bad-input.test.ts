@@ -90,7 +90,7 @@ const cases: Case[] = [
   ['missing dose target', (s) => delete s.doses[1].into, 'doses[1].into', /^is required$/],
   ['missing transfer source', (s) => delete s.transfers[3].from, 'transfers[3].from', /^is required$/],
   ['quantity of the wrong type', (s) => (s.doses[0].amount = true), 'doses[0].amount', /^must be a number, or a string with a unit/],
-  ['wrong type for the title', (s) => (s.title = 42), 'title', /expected string, received number/],
+  ['wrong type for the title', (s) => (s.title = 42), 'title', /must be text, got the number 42/],
   ['no compartments', (s) => (s.compartments = []), 'compartments', /1/],
   ['rate and duration that disagree', (s) => Object.assign(s.doses[1], { amount: 100, rate: 50, duration: 3 }), 'doses[1].rate', /gives a duration of 2, which disagrees with duration 3/],
   ['count without every', (s) => (s.doses[1].count = 3), 'doses[1].count', /^needs `every`/],

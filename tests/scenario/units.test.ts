@@ -111,7 +111,7 @@ describe('property: the converted value is the number written', () => {
 describe('unreadable quantities are refused, quoting what was typed', () => {
   it.each([
     ['12 LL', 'volume', /could not read the unit 'LL' in '12 LL'/],
-    ['42,5 L', 'volume', /could not read the unit ',5 L'/],
+    ['42,5 L', 'volume', /'42,5 L' has a decimal comma; write a decimal point: '42.5 L'/],
     ['12 mg', 'volume', /expected a volume unit \(e\.g\. L\), got 'mg'/],
     ['L', 'volume', /expected a number with a volume unit/],
     ['1e999 L', 'volume', /'1e999 L' is not a finite number/],
