@@ -1,163 +1,114 @@
 /**
- * Command line: simulate, report, validate, schema. Exit 0 on success, 1 when the scenario is
- * invalid or the computation fails, 2 on a usage error. Errors go to stderr as
+ * Command line: simulate, report, validate, schema (the commands are in cli-commands.ts).
+ * Exit 0 on success, 1 when the scenario is invalid, the computation fails or exceeds its
+ * time limit, or the output cannot be written; 2 on a usage error. Errors go to stderr as
  * "path: message" lines, never as stack traces.
+ *
+ * As a program, simulate and report run in a worker thread stopped at --time-limit, and
+ * their output file is written whole or not at all (write-file-atomic.ts).
  */
-import { readFileSync, realpathSync, writeFileSync } from 'node:fs';
+import { realpathSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
-import { summaryText } from '../models/summary-text.ts';
-import { describeProblems, normaliseScenario, resultToCsv, resultToJsonText, scenarioJsonSchema, simulate, type Problem } from '../models/index.ts';
-import { buildReport } from './report/report.ts';
+import { isMainThread, Worker } from 'node:worker_threads';
+import type { CliOutcome } from './cli-commands.ts';
+import { parseOptions, parseTimeLimit, timeLimitMessage } from './cli-options.ts';
+import type { WorkerOutcome } from './cli-worker.ts';
+import { visibleText } from './terminal-text.ts';
+import { writeFileAtomic } from './write-file-atomic.ts';
 
-const usage = `Tidemark — pharmacokinetic compartment-model simulator
+export type { CliOutcome } from './cli-commands.ts';
 
-usage:
-  tidemark simulate FILE [--format json|csv|text] [--out FILE]
-                                 simulate a scenario (JSON result on stdout by default;
-                                 text = a readable summary of the figures)
-  tidemark report FILE [--out report.pdf] [--reference FILE]
-                                 write the printable concentration report (PDF; by default
-                                 tidemark-<title>-<fingerprint>.pdf here); a reference
-                                 scenario is drawn dashed over the curves
-  tidemark validate FILE                                     check a scenario and list every problem
-  tidemark schema                                            print the JSON Schema of the scenario format
+// Run only as the program itself (not when imported by tests, nor in its own worker, whose
+// argv[1] is the program's too); paths compared as files, since the module URL is
+// percent-encoded (a space becomes %20) and argv[1] is not.
+const asProgram = isMainThread && !!process.argv[1] && fileURLToPath(import.meta.url) === realpathSync(process.argv[1]);
 
-Results are model simulations for review, not dosing advice.`;
+// The engine takes seconds to load. The program loads it once, in the worker that computes;
+// an importer (the tests) gets it here, so that runCli stays a plain synchronous function.
+const commands = asProgram ? null : await import('./cli-commands.ts');
 
-export interface CliOutcome {
-  code: number;
-  stdout: string;
-  stderr: string;
-  /** File to write instead of stdout. */
-  file?: { path: string; text: string };
-  /** A binary file to write (the PDF report). */
-  binaryFile?: { path: string; bytes: Uint8Array };
-}
-
-function readScenario(path: string | undefined): { ok: true; value: unknown } | { ok: false; message: string } {
-  if (!path) return { ok: false, message: 'a scenario FILE is required' };
-  let text: string;
-  try {
-    text = readFileSync(path, 'utf8');
-  } catch (e) {
-    const code = (e as NodeJS.ErrnoException).code;
-    return { ok: false, message: `cannot read '${path}'${code === 'ENOENT' ? ': no such file' : code ? ` (${code})` : ''}` };
-  }
-  try {
-    return { ok: true, value: JSON.parse(text) };
-  } catch (e) {
-    return { ok: false, message: `'${path}' is not valid JSON: ${(e as Error).message}` };
-  }
-}
-
-function problems(list: Problem[], file: string): CliOutcome {
-  return { code: 1, stdout: '', stderr: `${file}: the scenario has ${list.length} problem${list.length > 1 ? 's' : ''}:\n${describeProblems(list)}\n` };
-}
-
-function parseOptions(args: string[]): { positional: string[]; options: Map<string, string>; error: string | null } {
-  const positional: string[] = [];
-  const options = new Map<string, string>();
-  for (let i = 0; i < args.length; i++) {
-    const a = args[i];
-    if (a.startsWith('--')) {
-      const [name, inline] = a.slice(2).split('=', 2);
-      const value = inline ?? args[++i];
-      if (value === undefined) return { positional, options, error: `option --${name} needs a value` };
-      options.set(name, value);
-    } else positional.push(a);
-  }
-  return { positional, options, error: null };
-}
-
+/** The outcome of one command line, computed in this thread without a time limit; nothing is written. */
 export function runCli(args: string[]): CliOutcome {
-  const [command, ...rest] = args;
-  const { positional, options, error } = parseOptions(rest);
-  const fail = (message: string): CliOutcome => ({ code: 2, stdout: '', stderr: `${message}\n\n${usage}\n` });
-  if (error) return fail(error);
-  switch (command) {
-    case 'schema':
-      return { code: 0, stdout: JSON.stringify(scenarioJsonSchema(), null, 2) + '\n', stderr: '' };
-    case 'validate': {
-      const input = readScenario(positional[0]);
-      if (!input.ok) return fail(input.message);
-      const model = normaliseScenario(input.value);
-      if (!model.ok) return problems(model.problems, positional[0]);
-      const m = model.value;
-      return {
-        code: 0,
-        stdout: `${positional[0]}: valid — ${m.compartments.length} compartments, ${m.transfers.length} transfers, ${m.administrations.length} administrations, ${m.linear ? 'linear' : 'saturable'} model\n`,
-        stderr: '',
-      };
-    }
-    case 'simulate': {
-      const unknown = [...options.keys()].filter((k) => k !== 'format' && k !== 'out');
-      if (unknown.length > 0) return fail(`unknown option --${unknown[0]}`);
-      const format = options.get('format') ?? 'json';
-      if (format !== 'json' && format !== 'csv' && format !== 'text') return fail(`--format must be json, csv or text, not '${format}'`);
-      const input = readScenario(positional[0]);
-      if (!input.ok) return fail(input.message);
-      const result = simulate(input.value);
-      if (!result.ok) return problems(result.problems, positional[0]);
-      const text =
-        format === 'csv' ? resultToCsv(result.value) : format === 'text' ? summaryText(result.value) : resultToJsonText(result.value, 2) + '\n';
-      const warnings = format === 'text' ? '' : result.value.diagnostics.warnings.map((w) => `warning: ${w}\n`).join('');
-      const out = options.get('out');
-      return out
-        ? { code: 0, stdout: '', stderr: warnings + `wrote ${out}\n`, file: { path: out, text } }
-        : { code: 0, stdout: text, stderr: warnings };
-    }
-    case 'report': {
-      const unknown = [...options.keys()].filter((k) => k !== 'out' && k !== 'reference');
-      if (unknown.length > 0) return fail(`unknown option --${unknown[0]}`);
-      if (positional.length > 1) return fail(`unexpected argument '${positional[1]}'`);
-      const input = readScenario(positional[0]);
-      if (!input.ok) return fail(input.message);
-      const referenceFile = options.get('reference');
-      let reference: unknown;
-      if (referenceFile !== undefined) {
-        const read = readScenario(referenceFile);
-        if (!read.ok) return fail(read.message);
-        reference = read.value;
-      }
-      const report = buildReport(reference === undefined ? { scenario: input.value } : { scenario: input.value, reference });
-      if (!report.ok) return problems(report.problems, positional[0]);
-      const out = options.get('out') ?? report.fileName;
-      return { code: 0, stdout: '', stderr: `wrote ${out} (${report.pages} pages, scenario fingerprint ${report.fingerprint})\n`, binaryFile: { path: out, bytes: report.bytes } };
-    }
-    case undefined:
-    case 'help':
-    case '--help':
-      return { code: command === undefined ? 2 : 0, stdout: command === undefined ? '' : usage + '\n', stderr: command === undefined ? usage + '\n' : '' };
-    default:
-      return fail(`unknown command '${command}'`);
-  }
+  if (!commands) throw new Error('runCli is for importers; the program runs main()');
+  return commands.runCli(args);
 }
 
-function main(): void {
-  let outcome: CliOutcome;
+type Finished = { code: number; stdout: Uint8Array | string; stderr: string; file?: { path: string; data: Uint8Array | string } };
+
+const workerEntry = new URL('./worker-entry.mjs', import.meta.url);
+const workerModule = new URL('./cli-worker.ts', import.meta.url).href;
+
+/**
+ * Runs the command in a worker thread; the limit counts from when the engine is loaded and
+ * the job is handed over, so a slow start-up on a busy machine does not eat into it.
+ */
+function runInWorker(args: string[], seconds: number): Promise<Finished> {
+  return new Promise((resolve) => {
+    const worker = new Worker(workerEntry, { workerData: { module: workerModule } });
+    let timer: NodeJS.Timeout | null = null;
+    let settled = false;
+    const settle = (f: Finished) => {
+      if (settled) return;
+      settled = true;
+      if (timer) clearTimeout(timer);
+      void worker.terminate();
+      resolve(f);
+    };
+    const internal = (message: string): Finished => ({ code: 1, stdout: '', stderr: `internal error: ${message}\nPlease report this with the scenario file.\n` });
+    worker.on('message', (m: WorkerOutcome | { ready: true }) => {
+      if ('ready' in m) {
+        timer = setTimeout(() => settle({ code: 1, stdout: '', stderr: timeLimitMessage(seconds) + '\n' }), seconds * 1000);
+        worker.postMessage(args);
+        return;
+      }
+      settle({ code: m.code, stdout: m.stdout, stderr: m.stderr, ...(m.file ? { file: { path: m.file.path, data: m.file.bytes } } : {}) });
+    });
+    worker.on('error', (e) => settle(internal(e.message)));
+    worker.on('exit', () => settle(internal('the computation stopped unexpectedly')));
+  });
+}
+
+async function runInThread(args: string[]): Promise<Finished> {
+  const { runCli: run } = await import('./cli-commands.ts');
+  const o = run(args);
+  const file = o.file ? { path: o.file.path, data: o.file.text } : o.binaryFile ? { path: o.binaryFile.path, data: o.binaryFile.bytes } : undefined;
+  return { code: o.code, stdout: o.stdout, stderr: o.stderr, ...(file ? { file } : {}) };
+}
+
+/** The limit for simulate and report; null for the other commands, for no limit, or for a usage error the command reports itself. */
+function timeLimitOf(args: string[]): number | null {
+  const [command, ...rest] = args;
+  if (command !== 'simulate' && command !== 'report') return null;
+  const parsed = parseOptions(rest);
+  if (parsed.error) return null;
+  const limit = parseTimeLimit(parsed.options.get('time-limit'));
+  return limit.ok && limit.seconds > 0 ? limit.seconds : null;
+}
+
+async function main(): Promise<void> {
+  const args = process.argv.slice(2);
+  let finished: Finished;
   try {
-    outcome = runCli(process.argv.slice(2));
+    const seconds = timeLimitOf(args);
+    finished = seconds === null ? await runInThread(args) : await runInWorker(args, seconds);
   } catch (e) {
     // A defect, not a user error: say so plainly, without a stack trace.
-    process.stderr.write(`internal error: ${(e as Error).message ?? String(e)}\nPlease report this with the scenario file.\n`);
+    process.stderr.write(`internal error: ${visibleText(e instanceof Error ? e.message : String(e))}\nPlease report this with the scenario file.\n`);
     process.exitCode = 1;
     return;
   }
-  const file = outcome.file ? { path: outcome.file.path, data: outcome.file.text } : outcome.binaryFile ? { path: outcome.binaryFile.path, data: outcome.binaryFile.bytes } : null;
-  if (file) {
-    try {
-      writeFileSync(file.path, file.data);
-    } catch (e) {
-      process.stderr.write(`cannot write '${file.path}': ${(e as Error).message}\n`);
+  if (finished.file) {
+    const written = writeFileAtomic(finished.file.path, finished.file.data);
+    if (!written.ok) {
+      const kept = written.existed ? '; the existing file was left unchanged' : '';
+      process.stderr.write(`cannot write '${visibleText(finished.file.path)}': ${written.reason}${kept}\n`);
       process.exitCode = 1;
       return;
     }
   }
-  process.stdout.write(outcome.stdout);
-  process.stderr.write(outcome.stderr);
-  process.exitCode = outcome.code;
+  process.stdout.write(finished.stdout);
+  process.stderr.write(finished.stderr);
+  process.exitCode = finished.code;
 }
 
-// Run only as the program itself (not when imported by tests); paths compared as files, since
-// the module URL is percent-encoded (a space becomes %20) and argv[1] is not.
-if (process.argv[1] && fileURLToPath(import.meta.url) === realpathSync(process.argv[1])) main();
+if (asProgram) await main();

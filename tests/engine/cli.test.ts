@@ -4,7 +4,7 @@
  * Exit codes: 0 success, 1 invalid scenario or failed computation, 2 usage error.
  */
 import { spawnSync } from 'node:child_process';
-import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { existsSync, linkSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, symlinkSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -26,6 +26,23 @@ const invalidScenario = {
   doses: [{ into: 'tisue', amount: 100 }],
   output: { end: 24 },
 };
+
+/**
+ * A linear model of n compartments in a ring with cross links, and `lines` dose lines each
+ * repeated `count` times at intervals that differ from line to line, so that almost every
+ * gap between breakpoints is new (a fictional stress case, not a drug).
+ */
+function slowScenario(n: number, lines: number, count: number) {
+  const compartments = Array.from({ length: n }, (_, i) => ({ id: `c${i}`, volume: `${5 + i} L` }));
+  const transfers: { from: string; to?: string; k: string }[] = [];
+  for (let i = 0; i < n; i++) {
+    transfers.push({ from: `c${i}`, to: `c${(i + 1) % n}`, k: `${0.3 + 0.01 * i} 1/h` });
+    transfers.push({ from: `c${i}`, to: `c${(i + 7) % n}`, k: `${0.05 + 0.002 * i} 1/h` });
+  }
+  transfers.push({ from: 'c0', k: '0.2 1/h' });
+  const doses = Array.from({ length: lines }, (_, j) => ({ into: `c${j % n}`, amount: '10 mg', at: `${j * 0.0137} h`, every: `${1 + j * 0.001234567} h`, count }));
+  return { title: 'Fictional stress case', compartments, transfers, doses, output: { end: `${count * 2.3} h`, step: '10 h' } };
+}
 
 beforeAll(() => {
   dir = mkdtempSync(join(tmpdir(), 'tidemark-cli-'));
@@ -214,6 +231,138 @@ describe('usage errors exit 2', () => {
   });
 });
 
+describe('the output never replaces an input', () => {
+  // Reproduces: `simulate victim.json --format csv --out victim.json` replaced the scenario with CSV and exited 0.
+  let victim: string;
+  let original: Buffer;
+  beforeAll(() => {
+    mkdirSync(join(dir, 'inputs'), { recursive: true });
+    victim = join(dir, 'inputs', 'victim.json');
+    writeFileSync(victim, readFileSync(velarin));
+    original = readFileSync(victim);
+  });
+
+  const refused = (out: ReturnType<typeof runCli>, outPath: string, inputPath: string, role: string) => {
+    expect(out.code).toBe(2);
+    expect(out.file).toBeUndefined();
+    expect(out.binaryFile).toBeUndefined();
+    expect(out.stdout).toBe('');
+    // Names both: the output as given and the input it would overwrite.
+    expect(out.stderr.split('\n')[0]).toBe(`refusing to write the output to '${outPath}': it is the same file as the ${role} '${inputPath}'`);
+    expect(readFileSync(victim).equals(original)).toBe(true);
+  };
+
+  it('simulate --out naming the scenario itself exits 2 and writes nothing', () => {
+    refused(runCli(['simulate', victim, '--format', 'csv', '--out', victim]), victim, victim, 'scenario file');
+  });
+
+  it('the same file under another spelling, through a symbolic link, or as a hard link is refused too', () => {
+    const spelled = join(dir, 'inputs', '..', 'inputs', '.', 'victim.json');
+    refused(runCli(['simulate', victim, '--out', spelled]), spelled, victim, 'scenario file');
+    const link = join(dir, 'link-to-victim.json');
+    symlinkSync(victim, link);
+    refused(runCli(['simulate', victim, '--out', link]), link, victim, 'scenario file');
+    refused(runCli(['simulate', link, '--out', victim]), victim, link, 'scenario file');
+    const hard = join(dir, 'hard-victim.json');
+    linkSync(victim, hard);
+    refused(runCli(['simulate', victim, '--format', 'text', '--out', hard]), hard, victim, 'scenario file');
+    // A link inside a linked folder: realpath resolves both levels.
+    const folderLink = join(dir, 'inputs-link');
+    symlinkSync(join(dir, 'inputs'), folderLink);
+    refused(runCli(['report', victim, '--out', join(folderLink, 'victim.json')]), join(folderLink, 'victim.json'), victim, 'scenario file');
+  });
+
+  it('report --out naming the --reference file is refused', () => {
+    refused(runCli(['report', velarin, '--reference', victim, '--out', victim]), victim, victim, 'reference file');
+  });
+
+  it('an output beside the input, not the same file, is written as before', () => {
+    const out = runCli(['simulate', victim, '--format', 'csv', '--out', join(dir, 'inputs', 'victim.csv')]);
+    expect(out.code).toBe(0);
+    expect(out.file?.path).toBe(join(dir, 'inputs', 'victim.csv'));
+  });
+});
+
+describe('control characters in user text reach the terminal as visible escapes', () => {
+  // Reproduces: a title with ANSI escapes was printed raw by --format text (the screen cleared, the text turned red).
+  const hostileTitle = 'Fictional \u001b[2J\u001b[31mred\u0007 \u009b1m title';
+  let titled: string;
+  let belled: string;
+  let unitFile: string;
+  beforeAll(() => {
+    titled = join(dir, 'hostile-title.json');
+    writeFileSync(titled, JSON.stringify({ ...JSON.parse(readFileSync(velarin, 'utf8')), title: hostileTitle }));
+    belled = join(dir, 'hostile-id.json');
+    writeFileSync(
+      belled,
+      JSON.stringify({
+        title: 'Fictional',
+        compartments: [{ id: 'cen\u0007tral', volume: 12 }, { id: 'tissue', volume: 30, 'bogus\u0007key\nline': 1 }],
+        doses: [{ into: 'tissue', amount: 100, 'sound\u0007': true }],
+        output: { end: 24 },
+      }),
+    );
+    unitFile = join(dir, 'hostile-unit.json');
+    writeFileSync(unitFile, JSON.stringify({ ...invalidScenario, compartments: [{ id: 'central', volume: '12 L\u0007\u001b[31m' }, { id: 'tissue', volume: 30 }] }));
+  });
+  const noControls = (text: string) => expect(text).not.toMatch(/[\u0000-\u0009\u000b-\u001f\u007f-\u009f]/);
+
+  it('--format text shows the title with \\u001b escapes and no raw control character', () => {
+    const out = runCli(['simulate', titled, '--format', 'text']);
+    expect(out.code).toBe(0);
+    noControls(out.stdout);
+    noControls(out.stderr);
+    expect(out.stdout.split('\n')[0]).toBe('Fictional \\u001b[2J\\u001b[31mred\\u0007 \\u009b1m title');
+  });
+
+  it('JSON on stdout stays valid JSON holding the same title', () => {
+    const out = runCli(['simulate', titled]);
+    expect(out.code).toBe(0);
+    noControls(out.stdout);
+    expect(JSON.parse(out.stdout).title).toBe(hostileTitle);
+  });
+
+  it('validate: a compartment id with a BEL, a key with a newline and a unit with ANSI escapes are shown escaped, one line each', () => {
+    // The id is refused by its pattern without being echoed; the unknown key and the unit are echoed (raw, before).
+    const out = runCli(['validate', belled]);
+    expect(out.code).toBe(1);
+    noControls(out.stderr);
+    const lines = out.stderr.trimEnd().split('\n');
+    expect(lines).toEqual([
+      `${belled}: the scenario has 3 problems:`,
+      expect.stringMatching(/^compartments\[0\]\.id: must start with a letter/),
+      "compartments[1]: unknown field 'bogus\\u0007key\\u000aline'",
+      "doses[0]: unknown field 'sound\\u0007'",
+    ]);
+    const echoed = runCli(['validate', unitFile]);
+    expect(echoed.code).toBe(1);
+    noControls(echoed.stderr);
+    expect(echoed.stderr).toContain("compartments[0].volume: could not read the unit 'L\\u0007\\u001b[31m' in '12 L\\u0007\\u001b[31m'");
+  });
+
+  it('a file name with an escape in it is shown escaped', () => {
+    const named = join(dir, 'odd\u001b[31mname.json');
+    writeFileSync(named, '{');
+    const out = runCli(['simulate', named]);
+    expect(out.code).toBe(2);
+    noControls(out.stderr);
+    expect(out.stderr).toContain('odd\\u001b[31mname.json');
+  });
+});
+
+describe('--time-limit', () => {
+  it('accepts seconds, 0 for none; anything else is a usage error', () => {
+    for (const bad of ['-1', 'abc', '1e999', '', '5s']) {
+      const out = runCli(['simulate', velarin, '--time-limit', bad]);
+      expect(out.code, bad).toBe(2);
+      expect(out.stderr).toMatch(/^--time-limit must be a number of seconds \(0 for none\)/);
+    }
+    expect(runCli(['simulate', velarin, '--time-limit', '0', '--format', 'csv']).code).toBe(0);
+    expect(runCli(['report', velarin, '--time-limit=2.5', '--out', join(dir, 'limit.pdf')]).code).toBe(0);
+    expect(runCli(['validate', velarin, '--time-limit', '3']).code).toBe(2); // validate has no computation to bound
+  });
+});
+
 describe('as a real process', () => {
   // Three runs, one per exit code: each starts npx and tsx (seconds on two cores); the timeout only guards against a hang.
   const cli = (...args: string[]) =>
@@ -234,6 +383,61 @@ describe('as a real process', () => {
     const run = cli('validate', invalidFile);
     expect(run.status).toBe(1);
     expect(run.stderr).toMatch(/^doses\[0\]\.into: no compartment named 'tisue'/m);
+    noStack(run.stderr);
+  });
+
+  it('--out naming the scenario file exits 2 and leaves the scenario byte-identical', () => {
+    const victim = join(dir, 'process-victim.json');
+    writeFileSync(victim, readFileSync(velarin));
+    const before = readFileSync(victim);
+    const run = cli('simulate', victim, '--format', 'csv', '--out', victim);
+    expect(run.status).toBe(2);
+    expect(run.stderr).toContain(`refusing to write the output to '${victim}': it is the same file as the scenario file '${victim}'`);
+    expect(readFileSync(victim).equals(before)).toBe(true);
+  });
+
+  it('a write that fails part-way (file size limit, as a full disk) exits 1 and leaves the previous file byte-identical', () => {
+    // Reproduces: with a full disk, an existing prev.pdf was replaced by a truncated, invalid file.
+    // `ulimit -f 16` makes every write past 16 KiB fail with EFBIG (node ignores SIGXFSZ), as
+    // ENOSPC would on a full disk; the report is larger than that. tsx's cache files are smaller.
+    const folder = join(dir, 'full');
+    mkdirSync(folder);
+    const prev = join(folder, 'prev.pdf');
+    writeFileSync(prev, '%PDF-1.3 the previous report, kept whole\n'.repeat(10));
+    const before = readFileSync(prev);
+    const run = spawnSync('bash', ['-c', 'ulimit -f 16 && exec node --import tsx server/cli.ts report "$1" --out "$2"', 'bash', velarin, prev], {
+      cwd: root,
+      encoding: 'utf8',
+      timeout: 120_000,
+    });
+    expect(run.status).toBe(1);
+    expect(run.stderr).toMatch(/^cannot write '.*prev\.pdf': the file would exceed the size limit \(EFBIG\); the existing file was left unchanged/m);
+    expect(run.stderr).not.toContain('wrote');
+    noStack(run.stderr);
+    expect(readFileSync(prev).equals(before)).toBe(true);
+    expect(readdirSync(folder)).toEqual(['prev.pdf']); // the temporary file was removed
+  });
+
+  it('--time-limit stops a long computation: exit 1 with what to change', () => {
+    // 40 compartments and 20,000 administrations at distinct intervals: every breakpoint needs
+    // its own 81×81 matrix exponential, about 7 ms each here, so the run takes minutes without a
+    // limit (10,000 administrations took 74 s) while its memory stays bounded.
+    const slow = join(dir, 'slow.json');
+    writeFileSync(slow, JSON.stringify(slowScenario(40, 200, 100)));
+    const started = Date.now();
+    const run = spawnSync('node', ['--import', 'tsx', 'server/cli.ts', 'simulate', slow, '--format', 'text', '--time-limit', '1'], {
+      cwd: root,
+      encoding: 'utf8',
+      // The generous bound: start-up (seconds on two busy cores) plus the 1 s limit; the run itself takes minutes.
+      timeout: 60_000,
+      killSignal: 'SIGKILL',
+    });
+    const seconds = (Date.now() - started) / 1000;
+    expect(run.error, `still running after ${seconds} s`).toBeUndefined();
+    expect(run.status).toBe(1);
+    expect(run.stdout).toBe('');
+    expect(run.stderr).toMatch(/^the computation took longer than the time limit of 1 s and was stopped; /);
+    expect(run.stderr).toContain('--time-limit');
     noStack(run.stderr);
   });
 

@@ -1,0 +1,69 @@
+/**
+ * The command line's usage text and option parsing: small and free of the engine, so that
+ * the program can read its time limit before the engine is loaded (in a worker thread).
+ */
+
+export const usage = `Tidemark — pharmacokinetic compartment-model simulator
+
+usage:
+  tidemark simulate FILE [--format json|csv|text] [--out FILE] [--time-limit SECONDS]
+                                 simulate a scenario (JSON result on stdout by default;
+                                 text = a readable summary of the figures)
+  tidemark report FILE [--out report.pdf] [--reference FILE] [--time-limit SECONDS]
+                                 write the printable concentration report (PDF; by default
+                                 tidemark-<title>-<fingerprint>.pdf here); a reference
+                                 scenario is drawn dashed over the curves
+  tidemark validate FILE                                     check a scenario and list every problem
+  tidemark schema                                            print the JSON Schema of the scenario format
+
+  --time-limit SECONDS           stop a computation that runs longer (default ${600}; 0 for none)
+  --out FILE                     written whole or not at all, never over an input file
+
+Results are model simulations for review, not dosing advice.`;
+
+/** Default wall-clock limit of one simulate or report computation, in seconds. */
+export const defaultTimeLimitSeconds = 600;
+
+/** The longest a timer can wait (2³¹ − 1 ms); a longer limit would fire at once. */
+const longestLimitSeconds = Math.floor((2 ** 31 - 1) / 1000);
+
+export interface ParsedArgs {
+  positional: string[];
+  options: Map<string, string>;
+  error: string | null;
+}
+
+export function parseOptions(args: string[]): ParsedArgs {
+  const positional: string[] = [];
+  const options = new Map<string, string>();
+  for (let i = 0; i < args.length; i++) {
+    const a = args[i];
+    if (a.startsWith('--')) {
+      const eq = a.indexOf('=');
+      const name = eq < 0 ? a.slice(2) : a.slice(2, eq);
+      const value = eq < 0 ? args[++i] : a.slice(eq + 1);
+      if (value === undefined) return { positional, options, error: `option --${name} needs a value` };
+      options.set(name, value);
+    } else positional.push(a);
+  }
+  return { positional, options, error: null };
+}
+
+/** The --time-limit option in seconds (0: none), or the usage error. */
+export function parseTimeLimit(text: string | undefined): { ok: true; seconds: number } | { ok: false; message: string } {
+  if (text === undefined) return { ok: true, seconds: defaultTimeLimitSeconds };
+  const seconds = /^\s*(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?\s*$/.test(text) ? Number(text) : NaN;
+  if (!(seconds >= 0 && seconds <= longestLimitSeconds)) {
+    return { ok: false, message: `--time-limit must be a number of seconds (0 for none) up to ${longestLimitSeconds}, not '${text}'` };
+  }
+  return { ok: true, seconds };
+}
+
+/** What to say when a computation is stopped at the limit. */
+export function timeLimitMessage(seconds: number): string {
+  return (
+    `the computation took longer than the time limit of ${seconds} s and was stopped; ` +
+    'shorten the span (output.end), coarsen output.step or solver.step, loosen solver.rtol or use fewer doses, ' +
+    'or allow more time with --time-limit SECONDS (0 for none)'
+  );
+}
