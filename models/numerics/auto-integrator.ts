@@ -5,19 +5,33 @@
  */
 import { DenseStore } from './dense-store';
 import type { OdeSystem, SolverStats } from './ode-system';
-import { integrateAbm2 } from './adams-bashforth-moulton';
+import { ABM2_FORM, integrateAbm2 } from './adams-bashforth-moulton';
 import { integrateAdaptive, integrateFixed, StiffnessMonitor } from './explicit-rk';
+import { unpack } from './rk-step';
 import { integrateRosenbrock } from './rosenbrock';
+import type { ExplicitTableau } from './tableau';
 import { DOP853, DOPRI5, EULER, HEUN, RK4 } from './tableaux';
 
 export type MethodName = 'auto' | 'dopri5' | 'dop853' | 'rosenbrock' | 'euler' | 'heun' | 'rk4' | 'abm2';
 export type ConcreteMethod = Exclude<MethodName, 'auto'>;
+export type FixedStepMethod = 'euler' | 'heun' | 'rk4' | 'abm2';
+
+const FIXED_TABLEAUX: Record<Exclude<FixedStepMethod, 'abm2'>, ExplicitTableau> = { euler: EULER, heun: HEUN, rk4: RK4 };
+
+export function isFixedStep(method: MethodName): method is FixedStepMethod {
+  return method === 'euler' || method === 'heun' || method === 'rk4' || method === 'abm2';
+}
+
+/** Coefficient vectors a fixed-step method stores per step (its interpolant between steps). */
+export function fixedStepVectors(method: FixedStepMethod): number {
+  return method === 'abm2' ? ABM2_FORM.vectors : unpack(FIXED_TABLEAUX[method]).form.vectors;
+}
 
 export interface SegmentSettings {
   method: MethodName;
   rtol: number;
   atol: number;
-  /** Step attempts allowed per method run within one segment. */
+  /** Step attempts allowed per method run within one segment (fixed-step methods: steps, refused up front when exceeded). */
   maxSteps: number;
   /** Step size of the fixed-step methods (euler, heun, rk4, abm2). */
   step?: number;
@@ -81,13 +95,12 @@ export function integrateSegment(
     case 'euler':
     case 'heun':
     case 'rk4': {
-      const tab = settings.method === 'euler' ? EULER : settings.method === 'heun' ? HEUN : RK4;
-      integrateFixed(system, t0, t1, y, tab, fixedStep(settings), store, stats);
+      integrateFixed(system, t0, t1, y, FIXED_TABLEAUX[settings.method], fixedStep(settings), store, stats, maxSteps);
       state.stiff = false;
       return { methods: [settings.method] };
     }
     case 'abm2':
-      integrateAbm2(system, t0, t1, y, fixedStep(settings), store, stats);
+      integrateAbm2(system, t0, t1, y, fixedStep(settings), store, stats, maxSteps);
       state.stiff = false;
       return { methods: ['abm2'] };
     case 'dopri5':

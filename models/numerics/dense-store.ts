@@ -4,6 +4,8 @@
  * output times) without re-integrating.
  */
 
+import { IntegrationFailure } from './ode-system';
+
 /** How a method's stored coefficient vectors give y(t0 + θh), θ ∈ [0, 1]. */
 export interface DenseForm {
   /** Number of length-n coefficient vectors stored per step. */
@@ -37,6 +39,10 @@ export interface Trajectory {
  * use it. Stored as (y0, y1 − y0, h·f0 − Δ, Δ − h·f1 − (h·f0 − Δ)) — the first four
  * vectors of Hairer's DOPRI5 continuous extension (Hairer, Nørsett & Wanner, Solving
  * ODEs I, §II.6), which this form reproduces when the fifth vector is zero.
+ *
+ * Its first two vectors alone are the straight line from y0 to y1, its first three the
+ * quadratic through y0, y1 with slope f0 at y0 (tableau.ts, alternatingForm(2) and (3)):
+ * what the first- and second-order fixed-step methods keep (their `hermiteVectors`).
  */
 export const hermiteForm: DenseForm = {
   vectors: 4,
@@ -49,7 +55,10 @@ export const hermiteForm: DenseForm = {
   },
 };
 
-/** Fills the four Hermite vectors for a step of size h from (y0, f0) to (y1, f1). */
+/**
+ * Fills the first `vectors` (2, 3 or 4) of the Hermite vectors for a step of size h from
+ * (y0, f0) to (y1, f1); f1 is read only for the fourth.
+ */
 export function hermiteCoefficients(
   h: number,
   y0: Float64Array,
@@ -57,14 +66,17 @@ export function hermiteCoefficients(
   y1: Float64Array,
   f1: Float64Array,
   out: Float64Array,
+  vectors = 4,
 ): void {
   const n = y0.length;
   for (let i = 0; i < n; i++) {
     const delta = y1[i] - y0[i];
-    const b = h * f0[i] - delta;
     out[i] = y0[i];
     out[n + i] = delta;
+    if (vectors < 3) continue;
+    const b = h * f0[i] - delta;
     out[2 * n + i] = b;
+    if (vectors < 4) continue;
     out[3 * n + i] = delta - h * f1[i] - b;
   }
 }
@@ -77,42 +89,148 @@ export function hermiteCoefficients(
  */
 const chunkSize = 1 << 13;
 
+/**
+ * Step records (start, length, chunk, offset, form) live in blocks of this many steps, for
+ * the same reason: a store that grew by doubling held up to twice the records it needed and,
+ * while copying, three times.
+ */
+const blockBits = 10;
+const blockSteps = 1 << blockBits;
+const blockMask = blockSteps - 1;
+/** Bytes of one step record: start and length (8 B each), chunk and offset (4 B each), form index (1 B). */
+export const STEP_RECORD_BYTES = 8 + 8 + 4 + 4 + 1;
+const blockBytes = blockSteps * STEP_RECORD_BYTES;
+
+/**
+ * Ceiling on one store's bytes (coefficients and step records), 1 GiB. The store lives
+ * outside the JavaScript heap, where nothing else bounds it: without a ceiling a tiny fixed
+ * step or a tight tolerance over a long span grows it until the machine runs out of memory
+ * (16.8 million Euler steps once took 6.1 GB). 1 GiB holds about 12 million steps of a
+ * four-state model with linear interpolation, or 1.4 million steps of a 20-compartment model
+ * with DOPRI5's five vectors.
+ */
+export const DENSE_STORE_MAX_BYTES = 2 ** 30;
+
+/** "1 GiB", "512 KiB", "3.2 GiB": bytes in binary units, for messages. */
+export function formatBytes(bytes: number): string {
+  const units = ['B', 'KiB', 'MiB', 'GiB', 'TiB'];
+  let v = bytes;
+  let u = 0;
+  while (v >= 1024 && u < units.length - 1) {
+    v /= 1024;
+    u++;
+  }
+  return `${Number(v.toPrecision(3))} ${units[u]}`;
+}
+
 export class DenseStore implements Trajectory {
   readonly dimension: number;
-  private t0s: Float64Array;
-  private hs: Float64Array;
-  /** Chunk index and offset within it of each step's coefficients. */
-  private chunkOf: Int32Array;
-  private offsets: Int32Array;
-  private forms: DenseForm[] = [];
+  /** Ceiling on bytes(); reaching it is an IntegrationFailure 'too-much-memory'. */
+  readonly maxBytes: number;
+  /** Step records by block: step k is entry k & blockMask of block k >> blockBits. */
+  private readonly t0Blocks: Float64Array[] = [];
+  private readonly hBlocks: Float64Array[] = [];
+  private readonly chunkBlocks: Int32Array[] = [];
+  private readonly offsetBlocks: Int32Array[] = [];
+  private readonly formBlocks: Uint8Array[] = [];
+  /** The distinct forms used, indexed by the step records' form index. */
+  private readonly forms: DenseForm[] = [];
+  private lastForm: DenseForm | null = null;
+  private lastFormIndex = 0;
   private readonly chunks: Float64Array[] = [];
   private count = 0;
   private used = chunkSize;
+  private allocated = 0;
 
-  constructor(dimension: number, expectedSteps = 256) {
+  constructor(dimension: number, maxBytes = DENSE_STORE_MAX_BYTES) {
     this.dimension = dimension;
-    this.t0s = new Float64Array(expectedSteps);
-    this.hs = new Float64Array(expectedSteps);
-    this.chunkOf = new Int32Array(expectedSteps);
-    this.offsets = new Int32Array(expectedSteps);
+    this.maxBytes = maxBytes;
   }
 
   get steps(): number {
     return this.count;
   }
 
+  /** Bytes held: coefficient chunks and step-record blocks. */
+  get bytes(): number {
+    return this.allocated;
+  }
+
   get start(): number {
-    return this.count === 0 ? NaN : this.t0s[0];
+    return this.count === 0 ? NaN : this.t0Blocks[0][0];
   }
 
   get end(): number {
-    return this.count === 0 ? NaN : this.t0s[this.count - 1] + this.hs[this.count - 1];
+    return this.count === 0 ? NaN : this.t0At(this.count - 1) + this.hAt(this.count - 1);
+  }
+
+  private t0At(k: number): number {
+    return this.t0Blocks[k >>> blockBits][k & blockMask];
+  }
+
+  private hAt(k: number): number {
+    return this.hBlocks[k >>> blockBits][k & blockMask];
+  }
+
+  /**
+   * Bytes the store would hold after `steps` more steps of `vectors` vectors each, written
+   * as reserve() and commit() would place them.
+   */
+  projectedBytes(steps: number, vectors: number): number {
+    const size = vectors * this.dimension;
+    const room = this.used + size <= chunkSize ? Math.floor((chunkSize - this.used) / size) : 0;
+    const perChunk = Math.max(1, Math.floor(chunkSize / size));
+    const newChunks = Math.ceil(Math.max(0, steps - room) / perChunk);
+    const newBlocks = Math.ceil((this.count + steps) / blockSteps) - this.t0Blocks.length;
+    return this.allocated + newChunks * Math.max(chunkSize, size) * 8 + Math.max(0, newBlocks) * blockBytes;
+  }
+
+  /** The most steps of `vectors` vectors that still fit under the ceiling. */
+  affordableSteps(vectors: number): number {
+    let lo = 0;
+    let hi = 1;
+    while (this.projectedBytes(hi, vectors) <= this.maxBytes) {
+      lo = hi;
+      hi *= 2;
+    }
+    while (hi - lo > 1) {
+      const mid = Math.floor((lo + hi) / 2);
+      if (this.projectedBytes(mid, vectors) <= this.maxBytes) lo = mid;
+      else hi = mid;
+    }
+    return lo;
+  }
+
+  /**
+   * For methods that know their step count in advance (the fixed-step ones): fails at once,
+   * before any step, when `steps` more steps of `vectors` vectors would pass the ceiling.
+   * `timeAfter(k)` is the time reached after k of those steps, where the store would fill.
+   */
+  ensureRoom(steps: number, vectors: number, timeAfter: (k: number) => number): void {
+    const need = this.projectedBytes(steps, vectors);
+    if (need <= this.maxBytes) return;
+    const fit = this.affordableSteps(vectors);
+    const count = Number.isFinite(steps) ? String(steps) : 'more than 1e308';
+    throw this.full(
+      timeAfter(fit),
+      `${count} steps of ${vectors} vectors of ${this.dimension} values would need ${formatBytes(need)}; ${fit} fit`,
+      'a coarser step or a shorter span',
+    );
+  }
+
+  private full(t: number, what: string, remedy: string): IntegrationFailure {
+    return new IntegrationFailure(
+      'too-much-memory',
+      t,
+      null,
+      `the values kept between steps would pass the ${formatBytes(this.maxBytes)} ceiling at t = ${Number(t.toPrecision(6))} (${what}): use ${remedy}`,
+    );
   }
 
   /** Records one accepted step on [t0, t0 + h]; `coef` holds form.vectors × n values. */
   append(t0: number, h: number, form: DenseForm, coef: Float64Array): void {
     const size = form.vectors * this.dimension;
-    const at = this.reserve(size);
+    const at = this.reserve(size, t0);
     const target = this.openChunk;
     for (let i = 0; i < size; i++) target[at + i] = coef[i];
     this.commit(t0, h, form, size);
@@ -121,14 +239,30 @@ export class DenseStore implements Trajectory {
   /**
    * Room for the next step's `size` coefficients: returns the offset in openChunk where a
    * solver may write them before commit(). Writing without committing is harmless (a
-   * rejected step): the next reservation reuses the place.
+   * rejected step): the next reservation reuses the place. Fails with 'too-much-memory'
+   * when a new chunk would pass the ceiling; `t`, the start of the step, is the time the
+   * failure names.
    */
-  reserve(size: number): number {
+  reserve(size: number, t = this.end): number {
     if (this.used + size > chunkSize) {
-      this.chunks.push(new Float64Array(Math.max(chunkSize, size)));
+      const length = Math.max(chunkSize, size);
+      this.claim(length * 8, t);
+      this.chunks.push(new Float64Array(length));
       this.used = 0;
     }
     return this.used;
+  }
+
+  /** Counts `bytes` more against the ceiling, or fails naming time t. */
+  private claim(bytes: number, t: number): void {
+    if (this.allocated + bytes > this.maxBytes) {
+      throw this.full(
+        t,
+        `${this.count} steps of ${this.dimension} values stored in ${formatBytes(this.allocated)}`,
+        'a looser tolerance (rtol, atol), a coarser step or a shorter span',
+      );
+    }
+    this.allocated += bytes;
   }
 
   /** The chunk that reserve() points into. */
@@ -138,14 +272,36 @@ export class DenseStore implements Trajectory {
 
   /** Records the step on [t0, t0 + h] whose `size` coefficients were written at the reserved offset. */
   commit(t0: number, h: number, form: DenseForm, size: number): void {
-    if (this.count === this.t0s.length) this.growSteps();
-    this.t0s[this.count] = t0;
-    this.hs[this.count] = h;
-    this.chunkOf[this.count] = this.chunks.length - 1;
-    this.offsets[this.count] = this.used;
-    this.forms[this.count] = form;
+    const b = this.count >>> blockBits;
+    const i = this.count & blockMask;
+    if (b === this.t0Blocks.length) this.addBlock(t0);
+    this.t0Blocks[b][i] = t0;
+    this.hBlocks[b][i] = h;
+    this.chunkBlocks[b][i] = this.chunks.length - 1;
+    this.offsetBlocks[b][i] = this.used;
+    this.formBlocks[b][i] = form === this.lastForm ? this.lastFormIndex : this.formIndex(form);
     this.used += size;
     this.count++;
+  }
+
+  private formIndex(form: DenseForm): number {
+    let index = this.forms.indexOf(form);
+    if (index < 0) {
+      if (this.forms.length === 256) throw new RangeError('a dense store holds at most 256 distinct forms');
+      index = this.forms.push(form) - 1;
+    }
+    this.lastForm = form;
+    this.lastFormIndex = index;
+    return index;
+  }
+
+  private addBlock(t0: number): void {
+    this.claim(blockBytes, t0);
+    this.t0Blocks.push(new Float64Array(blockSteps));
+    this.hBlocks.push(new Float64Array(blockSteps));
+    this.chunkBlocks.push(new Int32Array(blockSteps));
+    this.offsetBlocks.push(new Int32Array(blockSteps));
+    this.formBlocks.push(new Uint8Array(blockSteps));
   }
 
   stateAt(t: number, side: 'left' | 'right', out: Float64Array): void {
@@ -153,9 +309,11 @@ export class DenseStore implements Trajectory {
   }
 
   private evaluateStep(k: number, t: number, out: Float64Array): void {
-    const h = this.hs[k];
-    const theta = h > 0 ? Math.min(1, Math.max(0, (t - this.t0s[k]) / h)) : 0;
-    this.forms[k].evaluate(theta, this.chunks[this.chunkOf[k]], this.offsets[k], this.dimension, out);
+    const b = k >>> blockBits;
+    const i = k & blockMask;
+    const h = this.hBlocks[b][i];
+    const theta = h > 0 ? Math.min(1, Math.max(0, (t - this.t0Blocks[b][i]) / h)) : 0;
+    this.forms[this.formBlocks[b][i]].evaluate(theta, this.chunks[this.chunkBlocks[b][i]], this.offsetBlocks[b][i], this.dimension, out);
   }
 
   /** Rows in ascending time: walks the steps forward instead of searching for each row. */
@@ -167,9 +325,9 @@ export class DenseStore implements Trajectory {
       const t = times[row];
       if (sides[row] === 0) {
         // Last step whose start is < t.
-        while (k < last && this.t0s[k + 1] < t) k++;
+        while (k < last && this.t0At(k + 1) < t) k++;
       } else {
-        while (k < last && this.t0s[k + 1] <= t) k++;
+        while (k < last && this.t0At(k + 1) <= t) k++;
       }
       this.evaluateStep(k, t, y);
       write(row, y);
@@ -178,7 +336,7 @@ export class DenseStore implements Trajectory {
 
   knots(): Float64Array {
     const out = new Float64Array(this.count + 1);
-    for (let k = 0; k < this.count; k++) out[k] = this.t0s[k];
+    for (let k = 0; k < this.count; k++) out[k] = this.t0At(k);
     out[this.count] = this.end;
     return out;
   }
@@ -191,22 +349,10 @@ export class DenseStore implements Trajectory {
     // Last step whose start is < t (left) or <= t (right).
     while (lo < hi) {
       const mid = (lo + hi + 1) >>> 1;
-      const s = this.t0s[mid];
+      const s = this.t0At(mid);
       if (side === 'left' ? s < t : s <= t) lo = mid;
       else hi = mid - 1;
     }
     return lo;
-  }
-
-  private growSteps(): void {
-    const size = this.t0s.length * 2;
-    const grow = <T extends Float64Array | Int32Array>(a: T, b: T): T => {
-      b.set(a);
-      return b;
-    };
-    this.t0s = grow(this.t0s, new Float64Array(size));
-    this.hs = grow(this.hs, new Float64Array(size));
-    this.chunkOf = grow(this.chunkOf, new Int32Array(size));
-    this.offsets = grow(this.offsets, new Int32Array(size));
   }
 }

@@ -343,7 +343,7 @@ export function integrateAdaptive(
     errOld = Math.max(err, 1e-4);
 
     const size = cm.form.vectors * n;
-    const at = store.reserve(size);
+    const at = store.reserve(size, t);
     const defect = kernel.complete(t, hStep, store.openChunk, at);
     stats.derivativeEvaluations += cm.completeEvaluations;
     const f1 = w.stage[cm.end];
@@ -393,10 +393,52 @@ export function integrateAdaptive(
   }
 }
 
+/** A number for a message: six significant digits, as the results print them. */
+const fmt6 = (v: number): string => String(Number(v.toPrecision(6)));
+
+/**
+ * Steps a fixed step h takes over [t0, t1]: the grid t0 + k·h, the last step shortened to land
+ * on t1. The tolerance on the count makes h = span/N give exactly N steps despite rounding.
+ * Infinite when the ratio overflows.
+ */
+export function fixedStepCount(t0: number, t1: number, h: number): number {
+  const span = t1 - t0;
+  return span === 0 ? 0 : Math.max(1, Math.ceil(span / h - 1e-9));
+}
+
+/**
+ * The checks a fixed-step method makes before its first step: its step count is known, so a
+ * span that needs more than maxSteps steps, or more room than the store has left, fails at
+ * once ('too-many-steps' at the time the budget would run out; 'too-much-memory') instead of
+ * after the budget's worth of work.
+ */
+export function checkFixedBudget(t0: number, t1: number, h: number, maxSteps: number, store: DenseStore, vectors: number): number {
+  const steps = fixedStepCount(t0, t1, h);
+  if (steps > maxSteps) {
+    const budget = Math.max(0, Math.floor(maxSteps));
+    throw tooManyFixedSteps(h, steps, t0, t1, budget, t0 + budget * h);
+  }
+  store.ensureRoom(steps, vectors, (k) => t0 + k * h);
+  return steps;
+}
+
+/** 'too-many-steps' for a fixed step h that needs `steps` steps over [t0, t1] where `budget` are allowed, running out at time t. */
+export function tooManyFixedSteps(h: number, steps: number, t0: number, t1: number, budget: number, t: number): IntegrationFailure {
+  const count = Number.isFinite(steps) ? String(steps) : 'more than 1e308';
+  return new IntegrationFailure(
+    'too-many-steps',
+    t,
+    null,
+    `a fixed step of ${fmt6(h)} needs ${count} steps from t = ${fmt6(t0)} to t = ${fmt6(t1)}, more than the ${budget} allowed (maxSteps): the budget runs out at t = ${fmt6(t)}; use a larger step`,
+  );
+}
+
 /**
  * Fixed step h from t0 to exactly t1; the grid is t0 + k·h (no accumulated drift) and the
- * last step is shortened to land on t1. Dense output is cubic Hermite from the end slopes,
- * and each end slope is reused as the next step's first stage.
+ * last step is shortened to land on t1. Each step keeps the tableau's `hermiteVectors` of the
+ * Hermite form from the end slopes (linear, quadratic or cubic between steps), and each end
+ * slope is reused as the next step's first stage. More than maxSteps steps, or more than the
+ * store can hold, is refused before the first step.
  */
 export function integrateFixed(
   system: OdeSystem,
@@ -407,6 +449,7 @@ export function integrateFixed(
   h: number,
   store: DenseStore,
   stats: SolverStats,
+  maxSteps: number,
 ): void {
   checkSpan(t0, t1);
   if (!(h > 0) || !Number.isFinite(h)) throw new RangeError(`fixed step must be positive (got ${h})`);
@@ -414,11 +457,10 @@ export function integrateFixed(
   if (span === 0) return;
   const n = system.dimension;
   const cm = unpack(tableau);
+  const steps = checkFixedBudget(t0, t1, h, maxSteps, store, cm.form.vectors);
   const w = makeWork(cm, n);
   const kernel = kernelFor(system, cm, w);
   const f0 = startSegment(system, w, t0, y, stats);
-  // Tolerance on the count so that h = span/N gives exactly N steps despite rounding.
-  const steps = Math.max(1, Math.ceil(span / h - 1e-9));
   for (let m = 0; m < steps; m++) {
     const t = t0 + m * h;
     const tNext = m === steps - 1 ? t1 : t0 + (m + 1) * h;
@@ -428,7 +470,7 @@ export function integrateFixed(
     const bad = firstNonFinite(w.y1);
     if (bad >= 0) throw nonFinite(tNext, bad, 'value');
     const size = cm.form.vectors * n;
-    const at = store.reserve(size);
+    const at = store.reserve(size, t);
     kernel.complete(t, hStep, store.openChunk, at);
     stats.derivativeEvaluations += cm.completeEvaluations;
     const f1 = w.stage[cm.end];

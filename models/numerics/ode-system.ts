@@ -57,10 +57,17 @@ export function emptyStats(): SolverStats {
   };
 }
 
+/**
+ * Why an integration gave up: the step shrank below what t can resolve; more steps were
+ * needed than the budget (solver.maxSteps) allows; a value became non-finite; or the dense
+ * store would grow past its memory ceiling (DENSE_STORE_MAX_BYTES in dense-store.ts).
+ */
+export type FailureReason = 'step-size-underflow' | 'too-many-steps' | 'non-finite' | 'too-much-memory';
+
 /** A numerical failure inside a segment; the driver turns it into an error value naming time and state index. */
 export class IntegrationFailure extends Error {
   constructor(
-    readonly reason: 'step-size-underflow' | 'too-many-steps' | 'non-finite',
+    readonly reason: FailureReason,
     readonly time: number,
     /** Index of the first offending state component, when one can be named. */
     readonly component: number | null,

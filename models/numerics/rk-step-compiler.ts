@@ -148,16 +148,17 @@ function completeSource(code: DerivativeCode, u: UnpackedTableau, n: number): st
     out.push(combination(u.rows[r], `s${r}`, n, A, X(r)));
     out.push(code.emit(X(r), K(r)));
   }
-  // Hermite part (dense-store.ts hermiteCoefficients), then the method's own vectors.
+  // Hermite part (dense-store.ts hermiteCoefficients: the first tab.hermiteVectors of the four), then the method's own vectors.
   const f1 = K(u.end);
+  const hv = tab.hermiteVectors;
   for (let i = 0; i < n; i++) {
     out.push(`const c0_${i} = ${A(i)};`);
     out.push(`const c1_${i} = ${B(i)} - ${A(i)};`);
-    out.push(`const c2_${i} = h * ${K(0)(i)} - c1_${i};`);
-    out.push(`const c3_${i} = c1_${i} - h * ${f1(i)} - c2_${i};`);
+    if (hv >= 3) out.push(`const c2_${i} = h * ${K(0)(i)} - c1_${i};`);
+    if (hv >= 4) out.push(`const c3_${i} = c1_${i} - h * ${f1(i)} - c2_${i};`);
   }
   u.d.forEach((row, v) => out.push(combination(row, `d${v}`, n, null, (i) => `c${4 + v}_${i}`)));
-  const vectors = 4 + u.d.length;
+  const vectors = u.form.vectors;
   for (let v = 0; v < vectors; v++) for (let i = 0; i < n; i++) out.push(`out[at + ${idx(v * n + i)}] = c${v}_${i};`);
   const check = u.denseCheck;
   if (!check) {

@@ -68,6 +68,7 @@ export function unpack(tab: ExplicitTableau): UnpackedTableau {
     nodes.push(...tab.dense.extraC);
   }
   const end = endSlopeIndex(tab);
+  if (tab.dense && tab.hermiteVectors !== 4) throw new RangeError(`${tab.name}: a method-specific continuous extension builds on all four Hermite vectors`);
   const unpacked: UnpackedTableau = {
     tab,
     total,
@@ -78,7 +79,7 @@ export function unpack(tab: ExplicitTableau): UnpackedTableau {
     e: tab.e ? sparse(tab.e) : null,
     e3: tab.e3 ? sparse(tab.e3) : null,
     d: tab.dense ? tab.dense.d.map(sparse) : [],
-    form: tab.dense ? alternatingForm(4 + tab.dense.d.length) : hermiteForm,
+    form: tab.dense ? alternatingForm(4 + tab.dense.d.length) : tab.hermiteVectors === 4 ? hermiteForm : alternatingForm(tab.hermiteVectors),
     denseCheck: tab.denseCheck ? { weight: tab.denseCheck.weight, form: alternatingForm(4 + (tab.dense?.d.length ?? 0)) } : null,
     attemptEvaluations: tab.stages - 1,
     completeEvaluations: (tab.fsal ? 0 : 1) + (total - end - 1) + (tab.denseCheck ? 1 : 0),
@@ -195,7 +196,7 @@ export function interpretedKernel(system: OdeSystem, u: UnpackedTableau, w: Work
     complete(t, h, out, at) {
       if (!tab.fsal) system.derivative(t + h, y1, stage[u.end]);
       for (let r = u.end + 1; r < u.total; r++) evalStage(r, t, h);
-      hermiteCoefficients(h, y0, stage[0], y1, stage[u.end], coef);
+      hermiteCoefficients(h, y0, stage[0], y1, stage[u.end], coef, u.tab.hermiteVectors);
       for (let v = 0; v < u.d.length; v++) {
         combine(k, n, u.d[v], h, null, err);
         coef.set(err, (4 + v) * n);

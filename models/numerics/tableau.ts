@@ -61,8 +61,16 @@ export interface ExplicitTableau {
   readonly e3: Row | null;
   /** The last stage is f(t+h, y1) (its a-row equals b), so it is the next step's first stage. */
   readonly fsal: boolean;
-  /** Method-specific continuous extension; null means cubic Hermite from (y0, f0, y1, f1). */
+  /** Method-specific continuous extension; null means the Hermite vectors alone (hermiteVectors). */
   readonly dense: DenseOutputData | null;
+  /**
+   * How many of the four Hermite vectors (y0, Δ, h f0 − Δ, Δ − h f1 − (h f0 − Δ)) a step
+   * keeps, which sets the interpolant between steps when `dense` is null: 2 the straight line
+   * from y0 to y1, 3 the quadratic through y0 and y1 with slope f0 at y0, 4 the cubic Hermite.
+   * A method's interpolant should be of its own order and no higher: a higher one only adds
+   * wiggles (a cubic through non-negative Euler steps dips below zero) and memory. 4 with `dense`.
+   */
+  readonly hermiteVectors: 2 | 3 | 4;
   readonly stiffness: StiffnessTest | null;
   /**
    * Check of the continuous extension between steps: its defect p'(t) − f(t, p(t)) at

@@ -20,6 +20,8 @@ export const EULER: ExplicitTableau = {
   e3: null,
   fsal: false,
   dense: null,
+  // Linear between steps: first order like the method, and never outside the two step values.
+  hermiteVectors: 2,
   stiffness: null,
   denseCheck: null,
   controller: NO_CONTROL,
@@ -38,6 +40,9 @@ export const HEUN: ExplicitTableau = {
   e3: null,
   fsal: false,
   dense: null,
+  // The quadratic through (y0, f0, y1), which is Heun's own second-order continuous extension
+  // y0 + h(θ − θ²/2)k1 + h(θ²/2)k2; non-negative where y0, y1 and y0 + h·f0/2 are.
+  hermiteVectors: 3,
   stiffness: null,
   denseCheck: null,
   controller: NO_CONTROL,
@@ -56,6 +61,8 @@ export const RK4: ExplicitTableau = {
   e3: null,
   fsal: false,
   dense: null,
+  // Cubic Hermite: its O(h⁴) interpolation error matches the method's local error.
+  hermiteVectors: 4,
   stiffness: null,
   denseCheck: null,
   controller: NO_CONTROL,
@@ -96,6 +103,7 @@ export const DOPRI5: ExplicitTableau = {
       ],
     ],
   },
+  hermiteVectors: 4,
   // Hairer's DOPRI5: stage 6 and the final slope are both at c = 1.
   stiffness: { stage: 5, threshold: 3.25 },
   // Its interpolant is about as accurate as its steps (measured in tests/numerics/adaptive.test.ts).
@@ -216,6 +224,7 @@ export const DOP853: ExplicitTableau = {
       ],
     ],
   },
+  hermiteVectors: 4,
   // dop853.f: stage 12 and the final slope are both at c = 1; threshold 6.1.
   stiffness: { stage: 11, threshold: 6.1 },
   // The 7th-order extension can be far less accurate than the 8th-order steps: without this check,

@@ -14,11 +14,14 @@ import { blowUp, decay, guarded, maxAbsDiff, twoState, twoStateExact } from './t
 
 type Runner = (system: OdeSystem, t1: number, y: Float64Array, h: number) => void;
 
+/** A step budget no test here comes near (tests/numerics/fixed-step-limits.test.ts tests the budget). */
+const BUDGET = 1e9;
+
 const fixed =
   (tab: ExplicitTableau): Runner =>
   (system, t1, y, h) =>
-    integrateFixed(system, 0, t1, y, tab, h, new DenseStore(system.dimension), emptyStats());
-const abm2: Runner = (system, t1, y, h) => integrateAbm2(system, 0, t1, y, h, new DenseStore(system.dimension), emptyStats());
+    integrateFixed(system, 0, t1, y, tab, h, new DenseStore(system.dimension), emptyStats(), BUDGET);
+const abm2: Runner = (system, t1, y, h) => integrateAbm2(system, 0, t1, y, h, new DenseStore(system.dimension), emptyStats(), BUDGET);
 
 const METHODS: readonly [string, Runner, number][] = [
   ['euler', fixed(EULER), 1],
@@ -58,8 +61,8 @@ describe.each(METHODS)('%s', (_name, run, order) => {
     const y = Float64Array.of(1);
     const store = new DenseStore(1);
     const stats = emptyStats();
-    if (run === abm2) integrateAbm2(guarded(decay, 0, t1), 0, t1, y, 0.07, store, stats);
-    else integrateFixed(guarded(decay, 0, t1), 0, t1, y, order === 1 ? EULER : order === 2 ? HEUN : RK4, 0.07, store, stats);
+    if (run === abm2) integrateAbm2(guarded(decay, 0, t1), 0, t1, y, 0.07, store, stats, BUDGET);
+    else integrateFixed(guarded(decay, 0, t1), 0, t1, y, order === 1 ? EULER : order === 2 ? HEUN : RK4, 0.07, store, stats, BUDGET);
     expect(store.end).toBe(t1);
     expect(stats.acceptedSteps).toBe(5); // 4 × 0.07 then 0.02
     const knots = store.knots();
@@ -72,18 +75,18 @@ describe.each(METHODS)('%s', (_name, run, order) => {
 describe('fixed-step evaluation counts', () => {
   it('RK4 costs 4 evaluations per step: 3 new stages and the end slope reused as the next first stage', () => {
     const stats = emptyStats();
-    integrateFixed(decay, 0, 1, Float64Array.of(1), RK4, 0.1, new DenseStore(1), stats);
+    integrateFixed(decay, 0, 1, Float64Array.of(1), RK4, 0.1, new DenseStore(1), stats, BUDGET);
     expect(stats.acceptedSteps).toBe(10);
     expect(stats.derivativeEvaluations).toBe(1 + 4 * 10);
   });
 
   it('ABM2 costs 2 evaluations per step (PECE) after the initial slope, Heun start included', () => {
     const stats = emptyStats();
-    integrateAbm2(twoState, 0, 1, Float64Array.of(1, 0), 0.1, new DenseStore(2), stats);
+    integrateAbm2(twoState, 0, 1, Float64Array.of(1, 0), 0.1, new DenseStore(2), stats, BUDGET);
     expect(stats.acceptedSteps).toBe(10);
     expect(stats.derivativeEvaluations).toBe(1 + 2 * 10);
     const short = emptyStats();
-    integrateAbm2(twoState, 0, 1, Float64Array.of(1, 0), 0.3, new DenseStore(2), short);
+    integrateAbm2(twoState, 0, 1, Float64Array.of(1, 0), 0.3, new DenseStore(2), short, BUDGET);
     expect(short.acceptedSteps).toBe(4); // 0.3, 0.3, 0.3, 0.1
     expect(short.derivativeEvaluations).toBe(1 + 2 * 4);
   });
@@ -98,7 +101,7 @@ describe('fixed-step evaluation counts', () => {
       },
       jacobian: decay.jacobian,
     };
-    integrateAbm2(spy, 0, 0.4, Float64Array.of(1), 0.1, new DenseStore(1), emptyStats());
+    integrateAbm2(spy, 0, 0.4, Float64Array.of(1), 0.1, new DenseStore(1), emptyStats(), BUDGET);
     // t0 once, then each new grid time twice (predicted, corrected).
     const expected = [0, 0.1, 0.1, 0.2, 0.2, 0.30000000000000004, 0.30000000000000004, 0.4, 0.4];
     expect(times).toHaveLength(expected.length);
@@ -112,7 +115,7 @@ describe('ABM2 variable last step', () => {
     // the error C·h², so halving h still divides the error by ~4 (Hairer–Nørsett–Wanner I, §III.5).
     const err = (n: number): number => {
       const y = Float64Array.of(1);
-      integrateAbm2(decay, 0, 1, y, 1 / (n + 0.5), new DenseStore(1), emptyStats());
+      integrateAbm2(decay, 0, 1, y, 1 / (n + 0.5), new DenseStore(1), emptyStats(), BUDGET);
       return Math.abs(y[0] - Math.exp(-1));
     };
     const observed = Math.log2(err(40) / err(81));
@@ -128,7 +131,7 @@ describe('ABM2 shortened step formula', () => {
     //   trapezoid:  y2 = 0.905 + 0.025·(−0.905 − 0.8609375) = 0.8608515625
     // (the constant-step predictor 1.5 f_n − 0.5 f_{n−1} would give 0.86086…).
     const y = Float64Array.of(1);
-    integrateAbm2(decay, 0, 0.15, y, 0.1, new DenseStore(1), emptyStats());
+    integrateAbm2(decay, 0, 0.15, y, 0.1, new DenseStore(1), emptyStats(), BUDGET);
     expect(y[0]).toBeCloseTo(0.8608515625, 14);
   });
 });
@@ -138,7 +141,7 @@ describe('Hermite dense output of fixed-step methods', () => {
     // Cubic Hermite interpolation error ≤ h⁴/384·max|y⁗| (Hairer–Nørsett–Wanner I, §II.6) plus the RK4 global error.
     const store = new DenseStore(1);
     const h = 0.1;
-    integrateFixed(decay, 0, 1, Float64Array.of(1), RK4, h, store, emptyStats());
+    integrateFixed(decay, 0, 1, Float64Array.of(1), RK4, h, store, emptyStats(), BUDGET);
     const out = new Float64Array(1);
     let worst = 0;
     for (let t = 0.005; t < 1; t += 0.01) {
@@ -154,7 +157,7 @@ describe('fixed-step failures', () => {
     // Euler on y' = y² from y = 1 with h = 0.5: 1 → 1.5 → 2.625 → … overflows to ∞ in a few dozen steps.
     let failure: unknown = null;
     try {
-      integrateFixed(blowUp, 0, 100, Float64Array.of(1), EULER, 0.5, new DenseStore(1), emptyStats());
+      integrateFixed(blowUp, 0, 100, Float64Array.of(1), EULER, 0.5, new DenseStore(1), emptyStats(), BUDGET);
     } catch (e) {
       failure = e;
     }
@@ -168,6 +171,6 @@ describe('fixed-step failures', () => {
   });
 
   it('rejects a non-positive step', () => {
-    expect(() => integrateFixed(decay, 0, 1, Float64Array.of(1), RK4, 0, new DenseStore(1), emptyStats())).toThrow(RangeError);
+    expect(() => integrateFixed(decay, 0, 1, Float64Array.of(1), RK4, 0, new DenseStore(1), emptyStats(), BUDGET)).toThrow(RangeError);
   });
 });
