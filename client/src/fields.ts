@@ -4,7 +4,7 @@
  * number box, so `[data-path="…"]` always finds exactly one element.
  */
 import { fieldId, h } from './dom.ts';
-import { isNumberText, splitQuantity, unitChoices, type Dim } from './quantity.ts';
+import { convertUnit, isNumberText, splitQuantity, unitChoices, type Dim } from './quantity.ts';
 import type { ScenarioStore } from './store.ts';
 
 interface BaseOptions {
@@ -93,7 +93,13 @@ export interface QuantityOptions extends BaseOptions {
 
 const asTyped = '';
 
-/** A number box with a unit picker; stores "<number> <unit>" (the scenario's own quantity strings). */
+/**
+ * A number box with a unit picker; stores "<number> <unit>" (the scenario's own quantity
+ * strings). Choosing another unit converts the number so that the quantity stays the same
+ * (0.9 1/h becomes 0.015 1/min), and a note beside the field says so; a unit the page cannot
+ * convert (one typed in a file, outside its tables) keeps the number and the note says that
+ * instead, so a relabelling is never silent.
+ */
 export function quantityField(store: ScenarioStore, opts: QuantityOptions): HTMLElement {
   const parts = splitQuantity(store.get(opts.path), opts.dim, store.units);
   const input = textInput(opts.path, parts.value, {
@@ -109,6 +115,15 @@ export function quantityField(store: ScenarioStore, opts: QuantityOptions): HTML
   if (parts.unit === null) select.append(h('option', { value: asTyped }, 'as typed'));
   for (const u of choices) select.append(h('option', { value: u }, u));
   select.value = parts.unit ?? asTyped;
+  let unitBefore = select.value;
+
+  const noteId = `${fieldId(opts.path)}-unit-note`;
+  const note = h('p', { class: 'hint unit-note', id: noteId, role: 'status', 'data-unit-note-for': opts.path });
+  note.hidden = true;
+  const say = (text: string | null) => {
+    note.textContent = text ?? '';
+    note.hidden = text === null;
+  };
 
   const write = () => {
     const t = input.value.trim();
@@ -119,10 +134,31 @@ export function quantityField(store: ScenarioStore, opts: QuantityOptions): HTML
     if (select.value === asTyped) store.set(opts.path, isNumberText(t) ? Number(t) : t);
     else store.set(opts.path, `${t} ${select.value}`);
   };
-  input.addEventListener('input', write);
-  select.addEventListener('change', write);
+  input.addEventListener('input', () => {
+    say(null); // the note was about the number before this edit
+    write();
+  });
+  select.addEventListener('change', () => {
+    const from = unitBefore;
+    const to = select.value;
+    unitBefore = to;
+    const t = input.value.trim();
+    if (from !== asTyped && to !== asTyped && isNumberText(t)) {
+      const converted = convertUnit(Number(t), from, to, opts.dim);
+      if (converted !== null) {
+        input.value = String(converted);
+        say(`converted ${t} ${from} → ${converted} ${to}`);
+      } else {
+        say(`${t} kept as it was: the page cannot convert ${from} to ${to}; check the number`);
+      }
+    } else say(null);
+    write();
+  });
   const unitLabel = h('label', { for: unitId, class: 'visually-hidden' }, `Unit of ${opts.label.toLowerCase()}`);
-  return wrapper(opts, h('div', { class: 'control' }, input, unitLabel, select), input);
+  const field = wrapper(opts, h('div', { class: 'control' }, input, unitLabel, select), input);
+  field.append(note);
+  input.setAttribute('aria-describedby', [input.getAttribute('aria-describedby'), noteId].filter(Boolean).join(' '));
+  return field;
 }
 
 export interface SelectOptions extends BaseOptions {

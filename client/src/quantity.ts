@@ -1,8 +1,9 @@
 /**
  * Quantities as the form sees them: a number box and a unit picker over the scenario's
- * strings ("12 L", "0.9 1/h") or plain numbers (read in the scenario's units). Only what
- * the page needs to draw (time placement, labels) is converted here; the server does the
- * real unit handling.
+ * strings ("12 L", "0.9 1/h") or plain numbers (read in the scenario's units). What the page
+ * needs to draw (time placement, labels) and the unit picker's conversion are done here with
+ * small tables of exact factors between the units the pickers offer (the page carries no
+ * unit library); the server does the real unit handling.
  */
 
 export type Dim = 'amount' | 'volume' | 'time' | 'rateConstant' | 'clearance' | 'amountRate' | 'concentration';
@@ -220,4 +221,62 @@ export function scaleQuantity(q: unknown, by: number): string | number | null {
 /** Rounds away binary noise (0.1 + 0.2) without touching meaningful digits. */
 function tidy(v: number): number {
   return Number(v.toPrecision(12));
+}
+
+// ---- the unit picker: converting a number from one offered unit to another ----
+
+/** "1/h", "/h", "h^-1", "h-1", "per h" → "h"; null when the text is not a reciprocal time. */
+function reciprocalTime(unit: string): string | null {
+  const u = unit.trim();
+  const m = /^(?:1\s*\/|\/|per\s+)\s*(\S+)$/.exec(u) ?? /^(\S+?)\s*(?:\^\s*-\s*1|-1)$/.exec(u);
+  return m ? m[1] : null;
+}
+
+/** "a/b" split once at the slash, both sides trimmed; null without exactly one slash. */
+function ratio(unit: string): [string, string] | null {
+  const parts = unit.split('/');
+  return parts.length === 2 ? [parts[0].trim(), parts[1].trim()] : null;
+}
+
+/**
+ * How large one `unit` of this dimension is, in mg, L and h (e.g. "mL/min" as a clearance is
+ * 1e-3 L / (1/60 h) = 0.06 L/h); null for a unit outside the tables.
+ */
+export function unitSize(unit: string, dim: Dim): number | null {
+  switch (dim) {
+    case 'amount':
+      return factor(amountInMg, unit);
+    case 'volume':
+      return factor(volumeInL, unit);
+    case 'time':
+      return factor(timeInHours, unit);
+    case 'rateConstant': {
+      const t = reciprocalTime(unit);
+      const h = t === null ? null : factor(timeInHours, t);
+      return h === null ? null : 1 / h;
+    }
+    case 'clearance':
+    case 'amountRate':
+    case 'concentration': {
+      const r = ratio(unit);
+      if (!r) return null;
+      const top = factor(dim === 'clearance' ? volumeInL : amountInMg, r[0]);
+      const bottom = factor(dim === 'concentration' ? volumeInL : timeInHours, r[1]);
+      return top === null || bottom === null ? null : top / bottom;
+    }
+  }
+}
+
+/**
+ * A value in `from` expressed in `to` (0.9 1/h → 0.015 1/min), rounded to 15 significant
+ * digits so that the division's binary noise does not show (0.9/60 is 0.015000000000000001
+ * in doubles); the quantity moves by less than 1e-15 relative. Null when either unit is
+ * outside the tables.
+ */
+export function convertUnit(value: number, from: string, to: string, dim: Dim): number | null {
+  if (from.trim() === to.trim()) return value;
+  const a = unitSize(from, dim);
+  const b = unitSize(to, dim);
+  if (a === null || b === null || !Number.isFinite(value)) return null;
+  return Number(((value * a) / b).toPrecision(15));
 }
