@@ -2,7 +2,7 @@
  * The HTTP face of Tidemark: a JSON API over the engine and the built page. Every error
  * is JSON with a list of {path, message}; nothing answers with a stack trace.
  */
-import express, { type ErrorRequestHandler, type Request, type Response } from 'express';
+import express, { type ErrorRequestHandler, type NextFunction, type Request, type RequestHandler, type Response } from 'express';
 import helmet from 'helmet';
 import { existsSync } from 'node:fs';
 import { join } from 'node:path';
@@ -20,13 +20,26 @@ export interface ServerLimits {
   maxOutputPoints: number;
   /** Wall-clock budget of one simulation, in milliseconds (enforced by the pool). */
   timeBudgetMs: number;
+  /** Largest JSON answer of a simulation, in bytes; estimated from the schedule before the work, measured after. */
+  maxResponseBytes: number;
 }
 
 export const defaultServerLimits: ServerLimits = {
   bodyLimit: '2mb',
   maxOutputPoints: 200_000,
   timeBudgetMs: 30_000,
+  maxResponseBytes: 32 * 2 ** 20,
 };
+
+/**
+ * Arrays and objects inside one another in a request body. A scenario needs about five;
+ * far deeper ones only serve to overflow a stack (copying the body to a worker), so they
+ * are refused right after parsing.
+ */
+export const maxNestingDepth = 64;
+
+/** The names a loopback server answers for by default, with any port. */
+export const loopbackHosts: readonly string[] = ['localhost', '127.0.0.1', '[::1]'];
 
 export interface AppOptions {
   pool: SimulationPool;
@@ -34,6 +47,60 @@ export interface AppOptions {
   /** Folder of the built page; when absent the API still works and / says how to build it. */
   clientDir: string | null;
   limits: ServerLimits;
+  /**
+   * Host names (without port) this server answers for; another Host header is refused
+   * with 421, so a page on a foreign name that resolves to this machine (DNS rebinding)
+   * cannot read or drive it. Default: the loopback names. 'any' turns the check off.
+   */
+  allowedHosts?: readonly string[] | 'any';
+}
+
+/** The host name of a Host header, lower case, without its port; IPv6 literals keep their brackets. */
+export function hostNameOf(header: string): string {
+  const h = header.trim().toLowerCase();
+  if (h.startsWith('[')) {
+    const close = h.indexOf(']');
+    return close < 0 ? h : h.slice(0, close + 1);
+  }
+  const colon = h.indexOf(':');
+  return colon < 0 ? h : h.slice(0, colon);
+}
+
+/**
+ * True when a parsed JSON value nests arrays and objects more than `limit` deep. An
+ * explicit stack, not recursion: the point is to survive bodies deep enough to overflow one.
+ */
+export function nestsDeeperThan(value: unknown, limit: number): boolean {
+  const stack: { v: unknown; depth: number }[] = [{ v: value, depth: 0 }];
+  while (stack.length > 0) {
+    const { v, depth } = stack.pop() as { v: unknown; depth: number };
+    if (typeof v !== 'object' || v === null) continue;
+    if (depth + 1 > limit) return true;
+    for (const child of Array.isArray(v) ? v : Object.values(v)) {
+      if (typeof child === 'object' && child !== null) stack.push({ v: child, depth: depth + 1 });
+    }
+  }
+  return false;
+}
+
+/**
+ * The Host names a server listening on `listenHost` answers for: the loopback names and
+ * `listenHost` itself, plus any listed in `extra` (comma-separated, the ALLOWED_HOSTS
+ * setting). A wildcard address (0.0.0.0, ::) can be reached by names no one can list in
+ * advance: it answers for any unless `extra` names them.
+ */
+export function allowedHostsFor(listenHost: string, extra?: string): readonly string[] | 'any' {
+  const listed = (extra ?? '').split(',').map((h) => h.trim()).filter((h) => h.length > 0);
+  const wildcard = ['', '0.0.0.0', '::', '[::]'].includes(listenHost.trim());
+  if (wildcard && listed.length === 0) return 'any';
+  const own = listenHost.includes(':') && !listenHost.startsWith('[') ? `[${listenHost}]` : listenHost;
+  return [...new Set([...loopbackHosts, ...(wildcard ? [] : [own]), ...listed].map(hostNameOf))];
+}
+
+/** Mentions a header's text in a message, cut short and without control characters. */
+function quoted(text: string): string {
+  const plain = text.replace(/[\u0000-\u001f\u007f]/g, '?');
+  return `'${plain.length > 80 ? `${plain.slice(0, 80)}…` : plain}'`;
 }
 
 function sendProblems(res: Response, status: number, problems: Problem[]): void {
@@ -64,11 +131,60 @@ export function createApp(options: AppOptions): express.Express {
     }),
   );
 
-  const json = express.json({ limit: options.limits.bodyLimit, strict: false, type: ['application/json', 'text/plain'] });
+  const allowedHosts = options.allowedHosts ?? loopbackHosts;
+  if (allowedHosts !== 'any') {
+    const allowed = new Set(allowedHosts.map(hostNameOf));
+    const shown = [...allowed].join(', ');
+    app.use((req: Request, res: Response, next: NextFunction) => {
+      const host = req.headers.host ?? '';
+      if (allowed.has(hostNameOf(host))) {
+        next();
+        return;
+      }
+      sendProblems(res, 421, [{ path: '', message: `this server answers only when addressed as ${shown} (any port); this request was addressed to ${quoted(host)}` }]);
+    });
+  }
+
+  // A POST body is JSON from this server's own page or a program, never a cross-site form
+  // or fetch: any page the user visits could otherwise make the browser send one.
+  const sameOrigin: RequestHandler = (req, res, next) => {
+    const site = req.headers['sec-fetch-site'];
+    if (site !== undefined && site !== 'same-origin' && site !== 'none') {
+      sendProblems(res, 403, [{ path: '', message: `requests from other sites are refused (Sec-Fetch-Site: ${quoted(String(site))}); post from this server's own page or from a program` }]);
+      return;
+    }
+    const origin = req.headers.origin;
+    if (origin !== undefined) {
+      const own = `${req.protocol}://${req.headers.host ?? ''}`.toLowerCase();
+      if (origin.toLowerCase() !== own) {
+        sendProblems(res, 403, [{ path: '', message: `requests from another origin are refused (Origin ${quoted(origin)}, this server is ${quoted(own)})` }]);
+        return;
+      }
+    }
+    next();
+  };
+  const jsonOnly: RequestHandler = (req, res, next) => {
+    const type = (req.headers['content-type'] ?? '').split(';')[0].trim().toLowerCase();
+    if (type !== 'application/json') {
+      sendProblems(res, 415, [{ path: '', message: `the request body must be sent as application/json (it was ${type ? quoted(type) : 'without a Content-Type'})` }]);
+      return;
+    }
+    next();
+  };
+  const parse = express.json({ limit: options.limits.bodyLimit, strict: false, type: 'application/json' });
+  const shallow: RequestHandler = (req, res, next) => {
+    if (nestsDeeperThan(req.body, maxNestingDepth)) {
+      sendProblems(res, 400, [{ path: '', message: `the request body nests arrays and objects too deep; this server accepts at most ${maxNestingDepth} levels` }]);
+      return;
+    }
+    next();
+  };
+  const json = [sameOrigin, jsonOnly, parse, shallow];
+  const answerLimits = { maxOutputPoints: options.limits.maxOutputPoints, maxResponseBytes: options.limits.maxResponseBytes };
   const api = express.Router();
 
   api.post('/simulate', json, async (req: Request, res: Response) => {
-    const reply = await options.pool.run({ kind: 'simulate', scenario: req.body, maxOutputPoints: options.limits.maxOutputPoints });
+    const reply = await options.pool.run({ kind: 'simulate', scenario: req.body, ...answerLimits });
     res.status(reply.status).type(reply.contentType).send(reply.body);
   });
 
@@ -91,7 +207,7 @@ export function createApp(options: AppOptions): express.Express {
 
   // Validation can be as heavy as expanding a long schedule, so it runs in the pool too.
   api.post('/validate', json, async (req: Request, res: Response) => {
-    const reply = await options.pool.run({ kind: 'validate', scenario: req.body, maxOutputPoints: options.limits.maxOutputPoints });
+    const reply = await options.pool.run({ kind: 'validate', scenario: req.body, ...answerLimits });
     res.status(reply.status).type(reply.contentType).send(reply.body);
   });
 
@@ -100,7 +216,15 @@ export function createApp(options: AppOptions): express.Express {
   });
 
   api.get('/limits', (_req, res) => {
-    res.json({ ...limits, outputPoints: Math.min(limits.outputPoints, options.limits.maxOutputPoints), bodyLimit: options.limits.bodyLimit, timeBudgetMs: options.limits.timeBudgetMs });
+    res.json({
+      ...limits,
+      outputPoints: Math.min(limits.outputPoints, options.limits.maxOutputPoints),
+      bodyLimit: options.limits.bodyLimit,
+      nestingDepth: maxNestingDepth,
+      responseBytes: options.limits.maxResponseBytes,
+      timeBudgetMs: options.limits.timeBudgetMs,
+      ...options.pool.memoryLimits,
+    });
   });
 
   api.get('/samples', (_req, res) => {

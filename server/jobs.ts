@@ -5,6 +5,8 @@ export interface JobRequest {
   kind: 'simulate' | 'report' | 'validate';
   scenario: unknown;
   maxOutputPoints: number;
+  /** Largest answer in bytes (simulate and validate; the report's PDF is not bounded by it); none when absent. */
+  maxResponseBytes?: number;
   /** Report only: a reference scenario drawn dashed over the first. */
   reference?: unknown;
 }

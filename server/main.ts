@@ -1,14 +1,16 @@
 /**
  * `npm start`: builds the page if it is missing, then serves it and the API on
  * http://127.0.0.1:8750 (PORT and HOST override; loopback unless HOST says otherwise).
+ * The server answers only for the loopback names and HOST; ALLOWED_HOSTS (comma-separated)
+ * adds names, e.g. when HOST is 0.0.0.0, which otherwise answers for any name.
  */
 import { spawnSync } from 'node:child_process';
 import { existsSync } from 'node:fs';
 import { availableParallelism } from 'node:os';
 import { fileURLToPath } from 'node:url';
-import { createApp, defaultServerLimits } from './app.ts';
+import { allowedHostsFor, createApp, defaultServerLimits } from './app.ts';
 import { loadSamples } from './samples.ts';
-import { SimulationPool } from './worker-pool.ts';
+import { defaultPoolMemory, SimulationPool } from './worker-pool.ts';
 
 const root = fileURLToPath(new URL('..', import.meta.url));
 const clientDir = fileURLToPath(new URL('../dist/client/', import.meta.url));
@@ -26,16 +28,21 @@ function main(): void {
   ensureClientBuilt();
   const host = process.env.HOST ?? '127.0.0.1';
   const port = Number(process.env.PORT ?? 8750);
+  const allowedHosts = allowedHostsFor(host, process.env.ALLOWED_HOSTS);
   const pool = new SimulationPool({
-    size: Math.max(1, Math.min(4, availableParallelism())),
+    // Two workers more than cores (at most 8): a long job holds a worker for up to the
+    // time budget, and short ones must still find a free worker beside two such jobs.
+    size: Math.min(8, availableParallelism() + 2),
     timeBudgetMs: defaultServerLimits.timeBudgetMs,
     maxQueue: 64,
+    ...defaultPoolMemory,
   });
-  const app = createApp({ pool, samples: loadSamples(), clientDir, limits: defaultServerLimits });
+  const app = createApp({ pool, samples: loadSamples(), clientDir, limits: defaultServerLimits, allowedHosts });
   const server = app.listen(port, host, () => {
     const shown = host.includes(':') ? `[${host}]` : host;
     console.log(`Tidemark is serving on http://${shown}:${port}/ (Ctrl-C to stop)`);
     console.log('Results are model simulations for review, not dosing advice.');
+    if (allowedHosts === 'any') console.log('Answering for any Host name; set ALLOWED_HOSTS to the names this server is reached by.');
   });
   server.on('error', (e: NodeJS.ErrnoException) => {
     console.error(e.code === 'EADDRINUSE' ? `port ${port} is in use; set PORT to another port` : `cannot listen: ${e.message}`);

@@ -4,15 +4,69 @@
  * forwards bytes.
  */
 import { parentPort } from 'node:worker_threads';
+import { scheduleOf } from '../models/events.ts';
+import type { Model } from '../models/model.ts';
 import { normaliseScenario } from '../models/normalize.ts';
 import { resultToJsonText } from '../models/result-format.ts';
-import { simulateModel } from '../models/simulate.ts';
+import { outputRows, simulateModel } from '../models/simulate.ts';
 import type { Problem } from '../models/problems.ts';
 import type { JobReply, JobRequest } from './jobs.ts';
 import { buildReport } from './report/report.ts';
 
 function problems(status: number, list: Problem[]): Omit<JobReply, 'id'> {
   return { status, contentType: 'application/json', body: JSON.stringify({ problems: list }) };
+}
+
+// What one item of a result costs in JSON text, measured on the bundled samples and the
+// 100k-dose case (a number 15–18 bytes with its comma, a dose event about 95, one dosing
+// interval's figures 250–460 per compartment with a volume). The estimate leans low: it
+// refuses what is surely too large before any work; the text itself is measured after.
+const bytesPerValue = 16;
+const bytesPerAdministration = 90;
+const bytesPerIntervalFigures = 250;
+const bytesFixed = 16_384;
+
+export interface AnswerSize {
+  /** Reported rows: the requested times merged with breakpoints (two rows at a bolus). */
+  rows: number;
+  /** Requested times alone. */
+  requested: number;
+  /** Numbers per row: the time, each compartment's amount, and its concentration when it has a volume. */
+  columns: number;
+  /** Estimated JSON bytes of the whole answer, and of the requested grid alone. */
+  bytes: number;
+  gridBytes: number;
+}
+
+/** The size of a model's answer, from its schedule, before anything is simulated. */
+export function answerSize(model: Model): AnswerSize {
+  let withVolume = 0;
+  for (const c of model.compartments) if (c.volume !== null) withVolume++;
+  const columns = 1 + model.compartments.length + withVolume;
+  const rows = outputRows(model.outputTimes, scheduleOf(model)).times.length;
+  const requested = model.outputTimes.length;
+  const doses = model.administrations.length;
+  const bytes = bytesFixed + rows * columns * bytesPerValue + doses * (bytesPerAdministration + withVolume * bytesPerIntervalFigures);
+  return { rows, requested, columns, bytes, gridBytes: requested * columns * bytesPerValue };
+}
+
+const megabytes = (bytes: number) => `${Math.round((bytes / 2 ** 20) * 10) / 10} MB`;
+
+/** A problem when the answer would exceed the server's size limit, naming what makes it large. */
+export function answerSizeProblem(model: Model, maxBytes: number): Problem | null {
+  const size = answerSize(model);
+  if (size.bytes <= maxBytes) return null;
+  const limit = `this server answers at most ${megabytes(maxBytes)}`;
+  if (size.gridBytes > maxBytes) {
+    return {
+      path: 'output.step',
+      message: `asks for ${size.requested} reported times × ${size.columns} columns, an answer of about ${megabytes(size.bytes)}; ${limit} (coarsen output.step, shorten output.end, or use the command line)`,
+    };
+  }
+  return {
+    path: 'doses',
+    message: `${model.administrations.length} administrations with ${size.rows} reported rows × ${size.columns} columns make an answer of about ${megabytes(size.bytes)}; ${limit} (give fewer doses, coarsen output.step, or use the command line)`,
+  };
 }
 
 export function runJob(job: Omit<JobRequest, 'id'>): Omit<JobReply, 'id'> {
@@ -32,6 +86,8 @@ export function runJob(job: Omit<JobRequest, 'id'>): Omit<JobReply, 'id'> {
       },
     ]);
   }
+  const tooLarge = job.maxResponseBytes === undefined ? null : answerSizeProblem(model.value, job.maxResponseBytes);
+  if (tooLarge) return problems(422, [tooLarge]);
   if (job.kind === 'validate') {
     const m = model.value;
     const summary = {
@@ -46,7 +102,18 @@ export function runJob(job: Omit<JobRequest, 'id'>): Omit<JobReply, 'id'> {
   }
   const result = simulateModel(model.value);
   if (!result.ok) return problems(422, result.problems);
-  return { status: 200, contentType: 'application/json', body: resultToJsonText(result.value) };
+  const text = resultToJsonText(result.value);
+  // The estimate above leans low; the text itself is the measure.
+  const bytes = job.maxResponseBytes === undefined ? 0 : Buffer.byteLength(text, 'utf8');
+  if (job.maxResponseBytes !== undefined && bytes > job.maxResponseBytes) {
+    return problems(422, [
+      {
+        path: 'output.step',
+        message: `the answer came to ${megabytes(bytes)}; this server answers at most ${megabytes(job.maxResponseBytes)} (coarsen output.step, give fewer doses, or use the command line)`,
+      },
+    ]);
+  }
+  return { status: 200, contentType: 'application/json', body: text };
 }
 
 parentPort?.on('message', (job: JobRequest) => {

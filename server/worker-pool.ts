@@ -1,7 +1,8 @@
 /**
  * A small pool of worker threads that run simulations off the request thread, each job
- * under a time budget: a job over budget has its worker terminated and replaced, and
- * answers with a plain error, so one heavy request never stalls the others for long.
+ * under a time budget and a memory ceiling: a job over either has its worker terminated
+ * and replaced, and answers with a plain error, so one heavy request never stalls the
+ * others for long nor takes the server's memory with it.
  */
 import { Worker } from 'node:worker_threads';
 import type { JobReply, JobRequest } from './jobs.ts';
@@ -12,7 +13,20 @@ export interface PoolOptions {
   timeBudgetMs: number;
   /** Jobs allowed to wait for a worker; more are refused with 503. */
   maxQueue: number;
+  /** JavaScript heap of one worker (V8's old generation), in MB; a worker past it dies and is replaced. */
+  workerHeapMb?: number;
+  /**
+   * Resident memory of the whole process (the HTTP thread and every worker), in MB. Typed
+   * arrays (the solvers' dense output) live outside the heap limit above, so the pool
+   * also samples the process's RSS while jobs run and, past this, stops the job that has
+   * run longest (a light job lasts milliseconds; the runaway is the long one).
+   */
+  memoryCeilingMb?: number;
 }
+
+export const defaultPoolMemory = { workerHeapMb: 1024, memoryCeilingMb: 3072 } as const;
+/** How often the process's resident memory is sampled while a job runs. */
+const memorySampleMs = 100;
 
 type Reply = Omit<JobReply, 'id'>;
 
@@ -27,6 +41,8 @@ interface Slot {
   ready: boolean;
   current: Pending | null;
   timer: NodeJS.Timeout | null;
+  /** When the current job was posted (performance.now()). */
+  startedAt: number;
 }
 
 const entry = new URL('./worker-entry.mjs', import.meta.url);
@@ -44,9 +60,21 @@ export class SimulationPool {
   /** Workers that died before they were ready, in a row; past a few the pool stops respawning. */
   private startFailures = 0;
   private broken = false;
+  private memoryWatch: NodeJS.Timeout | null = null;
+  /** After a job is stopped for memory, the ceiling is not judged again until its worker's memory is released. */
+  private memoryQuietUntil = 0;
+  private readonly workerHeapMb: number;
+  private readonly memoryCeilingMb: number;
 
   constructor(readonly options: PoolOptions) {
+    this.workerHeapMb = options.workerHeapMb ?? defaultPoolMemory.workerHeapMb;
+    this.memoryCeilingMb = options.memoryCeilingMb ?? defaultPoolMemory.memoryCeilingMb;
     for (let i = 0; i < options.size; i++) this.slots.push(this.spawn());
+  }
+
+  /** The memory limits in force, for /api/limits. */
+  get memoryLimits(): { workerHeapMb: number; memoryCeilingMb: number } {
+    return { workerHeapMb: this.workerHeapMb, memoryCeilingMb: this.memoryCeilingMb };
   }
 
   run(job: Omit<JobRequest, 'id'>): Promise<Reply> {
@@ -63,6 +91,7 @@ export class SimulationPool {
 
   async close(): Promise<void> {
     this.closed = true;
+    this.watchMemory();
     for (const p of this.queue.splice(0)) p.resolve(errorReply(503, 'the server is shutting down'));
     await Promise.all(
       this.slots.map((s) => {
@@ -75,25 +104,37 @@ export class SimulationPool {
   }
 
   private spawn(): Slot {
-    const worker = new Worker(entry, { workerData: { module: workerModule } });
-    const slot: Slot = { worker, ready: false, current: null, timer: null };
+    const worker = new Worker(entry, { workerData: { module: workerModule }, resourceLimits: { maxOldGenerationSizeMb: this.workerHeapMb } });
+    const slot: Slot = { worker, ready: false, current: null, timer: null, startedAt: 0 };
+    // Nothing thrown here may leave an event handler: it would end the process.
     worker.on('message', (reply: JobReply | { ready: true }) => {
-      if ('ready' in reply) {
-        slot.ready = true;
-        this.startFailures = 0;
-        this.dispatch();
-        return;
-      }
-      const pending = slot.current;
-      if (!pending || pending.job.id !== reply.id) return;
-      this.finish(slot, { status: reply.status, contentType: reply.contentType, body: reply.body });
+      guarded(() => {
+        if ('ready' in reply) {
+          slot.ready = true;
+          this.startFailures = 0;
+          this.dispatch();
+          return;
+        }
+        const pending = slot.current;
+        if (!pending || pending.job.id !== reply.id) return;
+        this.finish(slot, { status: reply.status, contentType: reply.contentType, body: reply.body });
+      });
     });
-    worker.on('error', (e) => {
-      console.error(`simulation worker failed: ${e.message}`);
-      this.replace(slot, errorReply(500, `internal error in the simulation worker: ${e.message}`));
+    worker.on('error', (e: Error & { code?: string }) => {
+      guarded(() => {
+        if (e.code === 'ERR_WORKER_OUT_OF_MEMORY') {
+          console.error(`simulation worker stopped: its job needed more than ${this.workerHeapMb} MB of heap`);
+          this.replace(slot, errorReply(422, `the computation needed more memory than this server allows one simulation (${this.workerHeapMb} MB) and was stopped; ${remedy}`));
+          return;
+        }
+        console.error(`simulation worker failed: ${e.message}`);
+        this.replace(slot, errorReply(500, `internal error in the simulation worker: ${e.message}`));
+      });
     });
     worker.on('exit', () => {
-      if (!this.closed && this.slots.includes(slot)) this.replace(slot, errorReply(500, 'the simulation worker stopped unexpectedly'));
+      guarded(() => {
+        if (!this.closed && this.slots.includes(slot)) this.replace(slot, errorReply(500, 'the simulation worker stopped unexpectedly'));
+      });
     });
     worker.unref();
     return slot;
@@ -127,19 +168,71 @@ export class SimulationPool {
     this.dispatch();
   }
 
+  /**
+   * Hands queued jobs to free, ready workers. A job is posted before its slot is marked
+   * busy: posting clones the job, and a clone that fails (a structure nested past the
+   * stack, say) must answer that job alone and leave the slot free for the next.
+   */
   private dispatch(): void {
     for (const slot of this.slots) {
-      if (!slot.ready || slot.current || this.queue.length === 0) continue;
-      const pending = this.queue.shift() as Pending;
-      slot.current = pending;
-      slot.timer = setTimeout(() => {
-        const seconds = this.options.timeBudgetMs / 1000;
-        this.replace(
-          slot,
-          errorReply(422, `the computation took longer than this server's budget of ${seconds} s and was stopped; shorten the span, coarsen the output or loosen the tolerance, or use the command line`, 'solver'),
-        );
-      }, this.options.timeBudgetMs);
-      slot.worker.postMessage(pending.job);
+      while (slot.ready && !slot.current && this.queue.length > 0) {
+        const pending = this.queue.shift() as Pending;
+        try {
+          slot.worker.postMessage(pending.job);
+        } catch (e) {
+          const why = e instanceof Error ? e.message : String(e);
+          pending.resolve(errorReply(400, `the request could not be handed to a simulation worker (${why}); send a plain scenario object`));
+          continue;
+        }
+        slot.current = pending;
+        slot.startedAt = performance.now();
+        slot.timer = setTimeout(() => {
+          const seconds = this.options.timeBudgetMs / 1000;
+          guarded(() =>
+            this.replace(
+              slot,
+              errorReply(422, `the computation took longer than this server's budget of ${seconds} s and was stopped; shorten the span, coarsen the output or loosen the tolerance, or use the command line`, 'solver'),
+            ),
+          );
+        }, this.options.timeBudgetMs);
+      }
     }
+    this.watchMemory();
+  }
+
+  /** Samples the process's resident memory while any job runs, and only then. */
+  private watchMemory(): void {
+    const busy = !this.closed && this.slots.some((s) => s.current !== null);
+    if (busy && !this.memoryWatch) {
+      this.memoryWatch = setInterval(() => guarded(() => this.checkMemory()), memorySampleMs);
+      this.memoryWatch.unref();
+    } else if (!busy && this.memoryWatch) {
+      clearInterval(this.memoryWatch);
+      this.memoryWatch = null;
+    }
+  }
+
+  private checkMemory(): void {
+    if (performance.now() < this.memoryQuietUntil) return;
+    const rssMb = process.memoryUsage.rss() / 2 ** 20;
+    if (rssMb <= this.memoryCeilingMb) return;
+    let oldest: Slot | null = null;
+    for (const s of this.slots) if (s.current && (!oldest || s.startedAt < oldest.startedAt)) oldest = s;
+    if (!oldest) return;
+    console.error(`server memory at ${Math.round(rssMb)} MB, over its ceiling of ${this.memoryCeilingMb} MB: stopping the longest-running simulation`);
+    // Terminating frees the worker's memory within a moment; wait for that before judging again.
+    this.memoryQuietUntil = performance.now() + 1000;
+    this.replace(oldest, errorReply(422, `the computation took the server past its memory ceiling (${this.memoryCeilingMb} MB) and was stopped; ${remedy}`));
+  }
+}
+
+const remedy = 'shorten the span, coarsen the output or the solver step, use fewer doses, or use the command line';
+
+/** Runs an event handler's body; an error is logged, never thrown out of the handler. */
+function guarded(body: () => void): void {
+  try {
+    body();
+  } catch (e) {
+    console.error(`simulation pool: ${e instanceof Error ? e.message : String(e)}`);
   }
 }

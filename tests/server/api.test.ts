@@ -84,14 +84,24 @@ describe('POST /api/simulate', () => {
   });
 
   it('stops a computation over the time budget with 422, and the pool keeps serving', async () => {
-    // A fixed-step run with a tiny step over a long span: millions of steps, far past 4 s.
+    // Heavy in time, light in memory (so no memory ceiling stops it first): a chain of 40
+    // compartments dosed by two lines whose intervals (1 h, 1.0007 h) drift apart, so nearly
+    // every piece between doses has its own length and its own 81 × 81 propagator. 200 doses
+    // a line took 9.7 s on the command line, 1000 took 132 s: far past 4 s.
+    const n = 40;
     const heavy = {
       title: 'heavy',
-      compartments: [{ id: 'central', volume: 10 }],
-      transfers: [{ from: 'central', vmax: 5, km: 0.5 }],
-      doses: [{ into: 'central', amount: 100, every: 1, count: 5000 }],
-      output: { end: 5000, step: 10 },
-      solver: { method: 'rk4', step: 1e-4, maxSteps: 50_000_000 },
+      compartments: Array.from({ length: n }, (_, i) => ({ id: `c${i}`, volume: `${5 + i} L` })),
+      transfers: [
+        ...Array.from({ length: n - 1 }, (_, i) => ({ from: `c${i}`, to: `c${i + 1}`, k: `${0.3 + 0.01 * i} 1/h` })),
+        ...Array.from({ length: n - 1 }, (_, i) => ({ from: `c${i + 1}`, to: `c${i}`, k: `${0.05 + 0.001 * i} 1/h` })),
+        { from: `c${n - 1}`, k: '0.1 1/h' },
+      ],
+      doses: [
+        { into: 'c0', amount: '10 mg', every: '1 h', count: 1000 },
+        { into: `c${n / 2}`, amount: '5 mg', every: '1.0007 h', count: 1000 },
+      ],
+      output: { end: '1000 h', step: '10 h' },
     };
     const light = request(app).post('/api/simulate').send(velarin);
     const [heavyRes, lightRes] = await Promise.all([request(app).post('/api/simulate').send(heavy), light]);
