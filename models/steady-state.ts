@@ -302,7 +302,10 @@ function saturableSearch(
   for (let attempt = 0; attempt < 2 && !found.ok && found.illConditioned; attempt++) {
     const current = tightened ?? model.solver.rtol;
     const rtol = Math.min(current / 10, current * found.illConditioned.rtolFactor);
-    if (!(rtol >= TIGHTEST_RTOL)) break;
+    if (!(rtol >= TIGHTEST_RTOL)) {
+      found = { ok: false, message: `${found.message}; resolving it would take rtol ${formatNumber(rtol)}, below ${formatNumber(TIGHTEST_RTOL)}, the tightest the search uses` };
+      break;
+    }
     const retry = cycleMap(tighterModel(rtol), system, schedule, stats, work);
     const retryTight = tightMap(rtol);
     found = iterate(settings, retry, retryTight, found.illConditioned.state, true);

@@ -48,6 +48,16 @@ export function capacityProblem(model: Model, cycle: readonly Administration[], 
 }
 
 /**
+ * A value printed with enough digits to tell it from `reference` (6 significant digits, more
+ * when they are needed): a dosing rate 0.00004% below Vmax must not read as Vmax itself.
+ */
+export function formatShare(value: number, reference: number): string {
+  const gap = Math.abs(value - reference) / Math.abs(reference);
+  const digits = gap > 0 ? Math.min(17, Math.max(6, Math.ceil(-Math.log10(gap)) + 2)) : 6;
+  return Number.isInteger(value) ? String(value) : Number(value.toPrecision(digits)).toString();
+}
+
+/**
  * "the average dosing rate is 12 mg/h: 20% of the saturable capacity out of 'central'
  * (Vmax 60 mg/h)" — the dose rate against each compartment's saturable capacity, as
  * computed; empty for a model without saturable kinetics.
@@ -58,7 +68,8 @@ export function capacityAccount(model: Model, cycle: readonly Administration[], 
   const rate = averageDoseRate(cycle, period);
   if (ways.length === 0) return `the model has no saturable kinetics; the average dosing rate is ${formatNumber(rate)} ${u}`;
   const parts = ways.map(
-    (w) => `${formatNumber((100 * rate) / w.vmax)}% of the saturable capacity out of '${model.compartments[w.compartment].id}' (Vmax ${formatNumber(w.vmax)} ${u}${w.allSaturable ? '' : ', beside first-order ways out'})`,
+    (w) => `${formatShare((100 * rate) / w.vmax, 100)}% of the saturable capacity out of '${model.compartments[w.compartment].id}' (Vmax ${formatNumber(w.vmax)} ${u}${w.allSaturable ? '' : ', beside first-order ways out'})`,
   );
-  return `the average dosing rate is ${formatNumber(rate)} ${u}: ${parts.join(', ')}`;
+  const closest = ways.reduce((best, w) => (Math.abs(w.vmax - rate) < Math.abs(best - rate) ? w.vmax : best), ways[0].vmax);
+  return `the average dosing rate is ${formatShare(rate, closest)} ${u}: ${parts.join(', ')}`;
 }

@@ -16,6 +16,7 @@ import type { Schedule } from '../events.ts';
 import { solveLinear } from '../linalg/lu.ts';
 import { limits } from '../limits.ts';
 import { formatNumber } from '../simulate.ts';
+import { formatShare } from './capacity.ts';
 
 export interface CycleMap {
   schedule: Schedule;
@@ -99,6 +100,14 @@ export function iterate(
   let jacobianScale: Float64Array | null = null;
   let residual = residualOf(x, px);
   let plain = 0;
+  /**
+   * Newton steps in a row that did not reduce the change per cycle. Where there is no fixed
+   * point (drug piling up behind a saturable way out) they jump about; after a few such misses
+   * only plain cycles are run, so that what the message reports at the cycle limit is the
+   * regimen's own course, not the cycle after an arbitrary jump.
+   */
+  let misses = 0;
+  let plainOnly = false;
   while (map.runs < limits.steadyStateCycles) {
     if (residual <= tolerance) {
       const nextFull = map.run(px);
@@ -148,7 +157,7 @@ export function iterate(
       // saturation ρ → 1) or not measurable (changes at rounding), plain cycles would not
       // tell: take a Newton step, which measures J.
       if (rho <= 0.5 && !needsJacobian) continue;
-    } else if (plain < 8) {
+    } else if (plain < 8 || plainOnly) {
       // A few plain cycles first: cheap, and they bring the state near the attracting cycle.
       x = px;
       full = map.run(x);
@@ -158,6 +167,15 @@ export function iterate(
       plain++;
       continue;
     }
+    if (plainOnly) {
+      x = px;
+      full = map.run(x);
+      px = full.slice(0, nc);
+      record(x, full);
+      residual = residualOf(x, px);
+      continue;
+    }
+    const before = residual;
     const s = scale(x);
     const newton = newtonStep(map, x, px, nc, s, relative);
     lastJacobian = newton.jacobian;
@@ -178,6 +196,10 @@ export function iterate(
     px = full.slice(0, nc);
     record(x, full);
     residual = residualOf(x, px);
+    misses = residual < before ? 0 : misses + 1;
+    // Only where the cycles show drug piling up (a cycle eliminating clearly less than it doses):
+    // near saturation a fixed point exists, and only Newton steps can find it.
+    plainOnly = misses >= 5 && dosePerCycle - lastChange.eliminated > 10 * tolerance * dosePerCycle;
   }
   return { ok: false, message: cycleLimitMessage(settings, lastChange, residual) };
 }
@@ -228,7 +250,7 @@ function illConditionedMessage(
   const what = m.resolved
     ? `${contraction}, and the integration error of one cycle (measured against the same cycle at rtol ${formatNumber(m.rtol / 100)}) moves the steady state by a relative ${formatNumber(m.drift)}, more than a tenth of the tolerance`
     : `${contraction}, which is not above the noise of that measurement (${formatNumber(m.jacobianNoise)}, from one cycle's integration error)`;
-  return `no steady state found to tolerance ${formatNumber(settings.tolerance)}: ${what}, even at rtol ${formatNumber(m.rtol)}; ${settings.account}`;
+  return `no steady state found to tolerance ${formatNumber(settings.tolerance)}: ${what}, with the cycles integrated at rtol ${formatNumber(m.rtol)}; ${settings.account}`;
 }
 
 function cycleLimitMessage(settings: SearchSettings, last: { body: number; eliminated: number }, residual: number): string {
@@ -237,7 +259,7 @@ function cycleLimitMessage(settings: SearchSettings, last: { body: number; elimi
   const short = dose - last.eliminated;
   const eliminated =
     dose > 0
-      ? `the last cycle computed eliminated ${formatNumber((100 * Math.abs(short)) / dose)}% ${short > 0 ? 'less' : 'more'} than it doses (${formatNumber(last.eliminated)} of ${formatNumber(dose)} ${u})`
+      ? `the last cycle computed eliminated ${formatNumber((100 * Math.abs(short)) / dose)}% ${short > 0 ? 'less' : 'more'} than it doses (${formatShare(last.eliminated, dose)} of ${formatNumber(dose)} ${u})`
       : `the last cycle computed eliminated ${formatNumber(last.eliminated)} ${u}`;
   const body = `the amount in the body ${last.body >= 0 ? 'rose' : 'fell'} by ${formatNumber(Math.abs(last.body))} ${u} over that cycle and the state changed by a relative ${formatNumber(residual)}`;
   return `no steady state within ${limits.steadyStateCycles} dosing cycles: ${eliminated}, ${body}; ${settings.account}`;

@@ -192,13 +192,17 @@ export function mmAuc(p: MmModel, ca: number, cb: number): number {
  * iterating the cycle map from empty: cycle after cycle, troughs by the integrated equation.
  * Returns time90/time95 as Infinity when they need more than `maxCycles` cycles.
  */
-export function mmReference(p: MmModel, maxCycles = 1e6): SteadyReference & { cycles90: number; cycles95: number } {
+export function mmReference(
+  p: MmModel,
+  maxCycles = 1e6,
+): SteadyReference & { cycles90: number; cycles95: number; slope90: number; slope95: number } {
   const rise = p.dose / p.volume;
   const v = p.vmax / p.volume;
   const trough = rise / Math.expm1(((p.period - p.dose / p.vmax) * v) / p.km);
   const auc = mmAuc(p, trough + rise, trough);
   const troughs = [0];
-  const timeTo = (f: number): { time: number; cycle: number } => {
+  /** W'(t) = C(t) − C(t − τ) at the crossing: how sharply the time is fixed by W. */
+  const timeTo = (f: number): { time: number; cycle: number; slope: number } => {
     const level = f * auc;
     for (let n = 1; n <= maxCycles; n++) {
       while (troughs.length <= n) {
@@ -220,11 +224,12 @@ export function mmReference(p: MmModel, maxCycles = 1e6): SteadyReference & { cy
         if (w(mid) >= level) hi = mid;
         else lo = mid;
       }
-      return { time: (n - 1) * p.period + hi, cycle: n };
+      const slope = mmConcentration(p, start, hi) - (previous === null ? 0 : mmConcentration(p, previous, hi));
+      return { time: (n - 1) * p.period + hi, cycle: n, slope };
     }
-    return { time: Infinity, cycle: Infinity };
+    return { time: Infinity, cycle: Infinity, slope: NaN };
   };
   const t90 = timeTo(0.9);
   const t95 = timeTo(0.95);
-  return { trough, peak: trough + rise, auc, time90: t90.time, time95: t95.time, cycles90: t90.cycle, cycles95: t95.cycle };
+  return { trough, peak: trough + rise, auc, time90: t90.time, time95: t95.time, cycles90: t90.cycle, cycles95: t95.cycle, slope90: t90.slope, slope95: t95.slope };
 }
