@@ -63,7 +63,11 @@ function runInWorker(args: string[], seconds: number): Promise<Finished> {
       }
       settle({ code: m.code, stdout: m.stdout, stderr: m.stderr, ...(m.file ? { file: { path: m.file.path, data: m.file.bytes } } : {}) });
     });
-    worker.on('error', (e) => settle(internal(e.message)));
+    worker.on('error', (e) => {
+      if ((e as NodeJS.ErrnoException).code === 'ERR_WORKER_OUT_OF_MEMORY') {
+        settle({ code: 1, stdout: '', stderr: 'the computation ran out of memory and was stopped; shorten the span (output.end), coarsen output.step or solver.step, or use fewer doses\n' });
+      } else settle(internal(visibleText(e.message)));
+    });
     worker.on('exit', () => settle(internal('the computation stopped unexpectedly')));
   });
 }
@@ -101,7 +105,7 @@ async function main(): Promise<void> {
     const written = writeFileAtomic(finished.file.path, finished.file.data);
     if (!written.ok) {
       const kept = written.existed ? '; the existing file was left unchanged' : '';
-      process.stderr.write(`cannot write '${visibleText(finished.file.path)}': ${written.reason}${kept}\n`);
+      process.stderr.write(`cannot write '${visibleText(finished.file.path)}': ${visibleText(written.reason)}${kept}\n`);
       process.exitCode = 1;
       return;
     }
