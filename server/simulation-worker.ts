@@ -3,6 +3,7 @@
  * status and the body (JSON text, or the PDF bytes of a report), so the main thread only
  * forwards bytes.
  */
+import { readlinkSync } from 'node:fs';
 import { parentPort } from 'node:worker_threads';
 import { scheduleOf } from '../models/events.ts';
 import type { Model } from '../models/model.ts';
@@ -132,4 +133,18 @@ parentPort?.on('message', (job: JobRequest) => {
   }
 });
 
-parentPort?.postMessage({ ready: true });
+/**
+ * This thread's id in the kernel (Linux: /proc/thread-self is <pid>/task/<tid>), so that
+ * the pool can lower the scheduling priority of this thread alone while it runs a long
+ * job; null where there is no such file.
+ */
+function kernelThreadId(): number | null {
+  try {
+    const tid = Number(readlinkSync('/proc/thread-self').split('/').pop());
+    return Number.isInteger(tid) && tid > 0 ? tid : null;
+  } catch {
+    return null;
+  }
+}
+
+parentPort?.postMessage({ ready: true, tid: kernelThreadId() });

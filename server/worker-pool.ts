@@ -4,6 +4,7 @@
  * and replaced, and answers with a plain error, so one heavy request never stalls the
  * others for long nor takes the server's memory with it.
  */
+import { setPriority } from 'node:os';
 import { Worker } from 'node:worker_threads';
 import type { JobReply, JobRequest } from './jobs.ts';
 
@@ -22,9 +23,18 @@ export interface PoolOptions {
    * run longest (a light job lasts milliseconds; the runaway is the long one).
    */
   memoryCeilingMb?: number;
+  /**
+   * A job that has run this long (ms) has its worker thread's scheduling priority lowered
+   * (nice 10) until it ends, so that short jobs and the HTTP thread get the CPU first
+   * while long ones run. Linux only (other systems keep every thread equal).
+   */
+  longJobMs?: number;
 }
 
 export const defaultPoolMemory = { workerHeapMb: 1024, memoryCeilingMb: 3072 } as const;
+const defaultLongJobMs = 1000;
+/** The niceness of a thread running a long job (0 is normal, 19 the lowest). */
+const longJobNice = 10;
 /** How often the process's resident memory is sampled while a job runs. */
 const memorySampleMs = 100;
 
@@ -43,6 +53,12 @@ interface Slot {
   timer: NodeJS.Timeout | null;
   /** When the current job was posted (performance.now()). */
   startedAt: number;
+  /** The worker thread's kernel id (Linux), reported when it is ready; null where unknown. */
+  tid: number | null;
+  /** Fires when the current job becomes a long one. */
+  longTimer: NodeJS.Timeout | null;
+  /** The thread runs at lowered priority. */
+  lowered: boolean;
 }
 
 const entry = new URL('./worker-entry.mjs', import.meta.url);
@@ -96,6 +112,7 @@ export class SimulationPool {
     await Promise.all(
       this.slots.map((s) => {
         if (s.timer) clearTimeout(s.timer);
+        if (s.longTimer) clearTimeout(s.longTimer);
         s.current?.resolve(errorReply(503, 'the server is shutting down'));
         s.current = null;
         return s.worker.terminate();
@@ -105,12 +122,13 @@ export class SimulationPool {
 
   private spawn(): Slot {
     const worker = new Worker(entry, { workerData: { module: workerModule }, resourceLimits: { maxOldGenerationSizeMb: this.workerHeapMb } });
-    const slot: Slot = { worker, ready: false, current: null, timer: null, startedAt: 0 };
+    const slot: Slot = { worker, ready: false, current: null, timer: null, startedAt: 0, tid: null, longTimer: null, lowered: false };
     // Nothing thrown here may leave an event handler: it would end the process.
-    worker.on('message', (reply: JobReply | { ready: true }) => {
+    worker.on('message', (reply: JobReply | { ready: true; tid: number | null }) => {
       guarded(() => {
         if ('ready' in reply) {
           slot.ready = true;
+          slot.tid = reply.tid;
           this.startFailures = 0;
           this.dispatch();
           return;
@@ -143,6 +161,7 @@ export class SimulationPool {
   private finish(slot: Slot, reply: Reply): void {
     if (slot.timer) clearTimeout(slot.timer);
     slot.timer = null;
+    this.endLongJob(slot);
     const pending = slot.current;
     slot.current = null;
     pending?.resolve(reply);
@@ -154,6 +173,7 @@ export class SimulationPool {
     const index = this.slots.indexOf(slot);
     if (index < 0) return;
     if (slot.timer) clearTimeout(slot.timer);
+    if (slot.longTimer) clearTimeout(slot.longTimer);
     const pending = slot.current;
     slot.current = null;
     this.slots.splice(index, 1);
@@ -195,9 +215,40 @@ export class SimulationPool {
             ),
           );
         }, this.options.timeBudgetMs);
+        if (slot.tid !== null && !slot.lowered) {
+          slot.longTimer = setTimeout(() => guarded(() => this.lowerPriority(slot)), this.options.longJobMs ?? defaultLongJobMs);
+        }
       }
     }
     this.watchMemory();
+  }
+
+  private lowerPriority(slot: Slot): void {
+    slot.longTimer = null;
+    if (slot.tid === null || !slot.current) return;
+    try {
+      setPriority(slot.tid, longJobNice);
+      slot.lowered = true;
+    } catch {
+      slot.tid = null; // not allowed here: leave every thread as it is
+    }
+  }
+
+  /**
+   * Back to normal priority when a long job ends. Going back up needs a permission an
+   * ordinary user may lack (RLIMIT_NICE); the worker then stays lowered, which costs only
+   * against other programs, since every worker that has run a long job is lowered alike.
+   */
+  private endLongJob(slot: Slot): void {
+    if (slot.longTimer) clearTimeout(slot.longTimer);
+    slot.longTimer = null;
+    if (!slot.lowered || slot.tid === null) return;
+    try {
+      setPriority(slot.tid, 0);
+      slot.lowered = false;
+    } catch {
+      slot.tid = null;
+    }
   }
 
   /** Samples the process's resident memory while any job runs, and only then. */
