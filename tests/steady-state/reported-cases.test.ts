@@ -138,3 +138,26 @@ describe('a compartment the doses never reach', () => {
     expect(ss?.compartments.find((x) => x.compartment === 'spare')?.trough).toBe(0);
   });
 });
+
+describe('the definition of the time to 90%, for a repeated infusion', () => {
+  it('is when the AUC over the preceding cycle reaches 90% of AUCτ, not when the concentration reaches 90% of Css', () => {
+    // 120 mg over 12 h every 12 h (a constant 10 mg/h), k = 0.1 /h, V = 10 L: Css = 10 mg/L, and the
+    // concentration reaches 90% of it at ln 10/k = 23.03 h (R&T ch. 10). The AUC over the preceding cycle is the
+    // AUC of one 12 h infusion given alone up to t (superposition); after it ends the AUC still to come is
+    // C(12)·e^{−k(t − 12)}/k with C(12) = (R/CL)(1 − e^{−12k}) (G&P ch. 2), and the total is D/CL = 120 mg·h/L,
+    // so 90% is reached at t = 12 + ln(C(12)/(k·0.1·120))/k = 29.62 h.
+    const [k, V, D, tinf] = [0.1, 10, 120, 12];
+    const c = run({
+      title: 'Fictional compound, back-to-back 12 h infusions',
+      compartments: [{ id: 'central', volume: V }],
+      transfers: [{ from: 'central', k }],
+      doses: [{ into: 'central', amount: D, duration: tinf, every: tinf, count: 20 }],
+      output: { end: 240, step: 1 },
+    }).metrics.steadyState?.compartments[0];
+    const c12 = (D / tinf / (k * V)) * -Math.expm1(-k * tinf);
+    const auc = D / (k * V);
+    expect(rel(c?.timeTo90 ?? NaN, tinf + Math.log(c12 / (k * 0.1 * auc)) / k)).toBeLessThan(1e-9);
+    expect(rel(c?.timeTo95 ?? NaN, tinf + Math.log(c12 / (k * 0.05 * auc)) / k)).toBeLessThan(1e-9);
+    expect(c?.timeTo90).toBeGreaterThan(Math.LN10 / k + 6);
+  });
+});
