@@ -3,6 +3,9 @@
  * the program can read its time limit before the engine is loaded (in a worker thread).
  */
 
+/** Default wall-clock limit of one simulate or report computation, in seconds. */
+export const defaultTimeLimitSeconds = 600;
+
 export const usage = `Tidemark — pharmacokinetic compartment-model simulator
 
 usage:
@@ -16,13 +19,10 @@ usage:
   tidemark validate FILE                                     check a scenario and list every problem
   tidemark schema                                            print the JSON Schema of the scenario format
 
-  --time-limit SECONDS           stop a computation that runs longer (default ${600}; 0 for none)
+  --time-limit SECONDS           stop a computation that runs longer (default ${defaultTimeLimitSeconds}; 0 for none)
   --out FILE                     written whole or not at all, never over an input file
 
 Results are model simulations for review, not dosing advice.`;
-
-/** Default wall-clock limit of one simulate or report computation, in seconds. */
-export const defaultTimeLimitSeconds = 600;
 
 /** The longest a timer can wait (2³¹ − 1 ms); a longer limit would fire at once. */
 const longestLimitSeconds = Math.floor((2 ** 31 - 1) / 1000);
