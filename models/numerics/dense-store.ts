@@ -133,6 +133,8 @@ export class DenseStore implements Trajectory {
   private readonly chunkBlocks: Int32Array[] = [];
   private readonly offsetBlocks: Int32Array[] = [];
   private readonly formBlocks: Uint8Array[] = [];
+  /** Start of each block's first step, for the first level of locate(). */
+  private blockFirsts = new Float64Array(16);
   /** The distinct forms used, indexed by the step records' form index. */
   private readonly forms: DenseForm[] = [];
   private lastForm: DenseForm | null = null;
@@ -275,6 +277,7 @@ export class DenseStore implements Trajectory {
     const b = this.count >>> blockBits;
     const i = this.count & blockMask;
     if (b === this.t0Blocks.length) this.addBlock(t0);
+    if (i === 0) this.blockFirsts[b] = t0;
     this.t0Blocks[b][i] = t0;
     this.hBlocks[b][i] = h;
     this.chunkBlocks[b][i] = this.chunks.length - 1;
@@ -297,6 +300,11 @@ export class DenseStore implements Trajectory {
 
   private addBlock(t0: number): void {
     this.claim(blockBytes, t0);
+    if (this.t0Blocks.length === this.blockFirsts.length) {
+      const grown = new Float64Array(2 * this.blockFirsts.length);
+      grown.set(this.blockFirsts);
+      this.blockFirsts = grown;
+    }
     this.t0Blocks.push(new Float64Array(blockSteps));
     this.hBlocks.push(new Float64Array(blockSteps));
     this.chunkBlocks.push(new Int32Array(blockSteps));
@@ -341,18 +349,34 @@ export class DenseStore implements Trajectory {
     return out;
   }
 
-  /** Index of the step that holds t, preferring the earlier step at a shared boundary when side is 'left'. */
+  /**
+   * Index of the step that holds t, preferring the earlier step at a shared boundary when side
+   * is 'left': the last step whose start is < t (left) or <= t (right), else the first. Searched
+   * in two levels, the blocks by their first starts and then one block's starts, so that each
+   * level reads one contiguous array.
+   */
   private locate(t: number, side: 'left' | 'right'): number {
+    if (this.count === 0) throw new RangeError('empty trajectory');
+    const left = side === 'left';
+    const firsts = this.blockFirsts;
     let lo = 0;
-    let hi = this.count - 1;
-    if (hi < 0) throw new RangeError('empty trajectory');
-    // Last step whose start is < t (left) or <= t (right).
+    let hi = this.t0Blocks.length - 1;
     while (lo < hi) {
       const mid = (lo + hi + 1) >>> 1;
-      const s = this.t0At(mid);
-      if (side === 'left' ? s < t : s <= t) lo = mid;
+      const s = firsts[mid];
+      if (left ? s < t : s <= t) lo = mid;
       else hi = mid - 1;
     }
-    return lo;
+    const block = this.t0Blocks[lo];
+    const base = lo << blockBits;
+    let i = 0;
+    let j = Math.min(blockSteps, this.count - base) - 1;
+    while (i < j) {
+      const mid = (i + j + 1) >>> 1;
+      const s = block[mid];
+      if (left ? s < t : s <= t) i = mid;
+      else j = mid - 1;
+    }
+    return base + i;
   }
 }
