@@ -105,9 +105,9 @@ const blockBytes = blockSteps * STEP_RECORD_BYTES;
  * Ceiling on one store's bytes (coefficients and step records), 1 GiB. The store lives
  * outside the JavaScript heap, where nothing else bounds it: without a ceiling a tiny fixed
  * step or a tight tolerance over a long span grows it until the machine runs out of memory
- * (16.8 million Euler steps once took 6.1 GB). 1 GiB holds about 12 million steps of a
- * four-state model with linear interpolation, or 1.4 million steps of a 20-compartment model
- * with DOPRI5's five vectors.
+ * (16.8 million Euler steps once took 6.1 GB). 1 GiB holds 12 million Euler steps of a
+ * four-state model (two vectors each, 89 B), or 650,000 DOPRI5 steps (five vectors) of a
+ * 20-compartment model with 41 states (1665 B each).
  */
 export const DENSE_STORE_MAX_BYTES = 2 ** 30;
 
@@ -179,7 +179,7 @@ export class DenseStore implements Trajectory {
    * as reserve() and commit() would place them.
    */
   projectedBytes(steps: number, vectors: number): number {
-    const size = vectors * this.dimension;
+    const size = Math.max(1, vectors * this.dimension);
     const room = this.used + size <= chunkSize ? Math.floor((chunkSize - this.used) / size) : 0;
     const perChunk = Math.max(1, Math.floor(chunkSize / size));
     const newChunks = Math.ceil(Math.max(0, steps - room) / perChunk);
@@ -189,6 +189,7 @@ export class DenseStore implements Trajectory {
 
   /** The most steps of `vectors` vectors that still fit under the ceiling. */
   affordableSteps(vectors: number): number {
+    if (!Number.isFinite(this.maxBytes)) return Infinity;
     let lo = 0;
     let hi = 1;
     while (this.projectedBytes(hi, vectors) <= this.maxBytes) {
