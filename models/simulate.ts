@@ -16,7 +16,7 @@ import type { Trajectory } from './numerics/dense-store.ts';
 import { emptyStats, IntegrationFailure, type SolverStats } from './numerics/ode-system.ts';
 import type { Outcome, Problem } from './problems.ts';
 import type { SolverMethod } from './schema.ts';
-import { steadyStateFigures, type SteadyStateFigures } from './steady-state.ts';
+import { APPROACH_DEFINITION, steadyStateFigures, type SteadyStateFigures } from './steady-state.ts';
 import { CompartmentSystem, type StateLayout } from './system.ts';
 import { displayUnit } from './units.ts';
 
@@ -186,6 +186,8 @@ function guardedSteadyState(model: Model, system: CompartmentSystem, stats: Solv
       cycles: 0,
       residual: NaN,
       compartments: [],
+      approachDefinition: APPROACH_DEFINITION,
+      work: { cycles: 0, integrations: 0, steps: 0 },
     };
   }
 }

@@ -82,8 +82,8 @@ export interface SteadyStateFigures {
   residual: number;
   compartments: SteadyStateCompartment[];
   /** What timeTo90/timeTo95 mean (APPROACH_DEFINITION). */
-  approachDefinition?: string;
-  work?: SteadyStateWork;
+  approachDefinition: string;
+  work: SteadyStateWork;
 }
 
 /** Tightest relative tolerance the steady-state search asks of the integrator. */

@@ -369,7 +369,8 @@ describe('time to 90% of steady state: ln10/k ≈ 3.3 half-lives', () => {
     expect(c?.timeTo90).not.toBeNull();
     expect(c?.timeTo95).not.toBeNull();
     // One compartment: 1 − f(t) = e^{−kt}, so 90% at ln10/k ≈ 3.32·t½ (common practice: "3.3 half-lives";
-    // R&T ch. 10). The engine interpolates in ln(1 − f) between cycles, exact here.
+    // R&T ch. 10). The engine finds when the AUC over the preceding cycle reaches 90% of AUCτ at
+    // steady state, from the exact solution of one cycle's doses: for IV boluses that is ln10/k.
     expectWithin(rel(c?.timeTo90 as number, Math.LN10 / k), EXACT, 'timeTo90 (IV bolus)');
     expectWithin(rel(c?.timeTo95 as number, Math.log(20) / k), EXACT, 'timeTo95 (IV bolus)');
     expect(c?.cyclesTo90).toBe(Math.ceil(Math.LN10 / k / tau));
