@@ -14,6 +14,7 @@ import { normaliseScenario } from './normalize.ts';
 import { integrateSchedule } from './numerical-path.ts';
 import type { Trajectory } from './numerics/dense-store.ts';
 import { emptyStats, IntegrationFailure, type SolverStats } from './numerics/ode-system.ts';
+import { realStabilityLimit } from './numerics/stability.ts';
 import type { Outcome, Problem } from './problems.ts';
 import type { SolverMethod } from './schema.ts';
 import { APPROACH_DEFINITION, steadyStateFigures, type SteadyStateFigures } from './steady-state.ts';
@@ -286,7 +287,8 @@ function numericalProblem(e: unknown, model: Model, layout: StateLayout): Proble
   if (e instanceof IntegrationFailure) {
     const what = {
       'step-size-underflow': 'the step size fell below what the arithmetic can resolve',
-      'too-many-steps': `more than solver.maxSteps (${model.solver.maxSteps}) steps were needed`,
+      // A fixed step's count is known in advance; its own message gives the count and the fix.
+      'too-many-steps': model.solver.step !== null ? e.message : `more than solver.maxSteps (${model.solver.maxSteps}) steps were needed`,
       'non-finite': 'the solution became non-finite (overflow or division by zero)',
       'too-much-memory': e.message,
     }[e.reason];
@@ -305,9 +307,6 @@ export function formatNumber(v: number): string {
   return Number.isInteger(v) ? String(v) : Number(v.toPrecision(6)).toString();
 }
 
-/** Stability limits on the real axis of the explicit methods (Hairer & Wanner, Solving ODEs II, §IV.2). */
-const realStabilityLimit: Record<string, number> = { euler: 2, heun: 2, rk4: 2.785, abm2: 1 };
-
 function fixedStepWarnings(model: Model, dispo: Disposition): string[] {
   const h = model.solver.step;
   const limit = realStabilityLimit[model.solver.method];
@@ -316,7 +315,7 @@ function fixedStepWarnings(model: Model, dispo: Disposition): string[] {
   const unit = model.units.time;
   if (hl > limit) {
     return [
-      `the fixed step ${formatNumber(h)} ${unit} is beyond the stability limit of ${model.solver.method} for the fastest rate in the model (${formatNumber(dispo.fastestRate)} 1/${unit}: h·λ = ${formatNumber(hl)} > ${limit}); the curve is not to be trusted — use a step below ${formatNumber(limit / dispo.fastestRate)} ${unit} or method 'auto'`,
+      `the fixed step ${formatNumber(h)} ${unit} is beyond the stability limit of ${model.solver.method} for the fastest rate in the model (${formatNumber(dispo.fastestRate)} 1/${unit}: h·λ = ${formatNumber(hl)} > ${formatNumber(limit)}); the curve is not to be trusted — use a step below ${formatNumber(limit / dispo.fastestRate)} ${unit} or method 'auto'`,
     ];
   }
   if (hl > 0.2) {
