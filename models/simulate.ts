@@ -5,14 +5,15 @@
  */
 import { disposition, type Disposition } from './disposition.ts';
 import { doseEvents, scheduleOf, timeResolution, type DoseEventKind, type Schedule } from './events.ts';
-import { propagateExact } from './linear-path.ts';
 import { CurveProbe } from './metrics/curve-probe.ts';
 import { exposureFigures, type CompartmentFigures } from './metrics/exposure.ts';
 import { massBalance, massBalanceProblem, type MassBalance } from './mass-balance.ts';
 import type { Model } from './model.ts';
 import { normaliseScenario } from './normalize.ts';
-import { integrateSchedule } from './numerical-path.ts';
 import type { Trajectory } from './numerics/dense-store.ts';
+import { choosePath, solveSchedule, type Solution, type SolutionPath } from './solve.ts';
+import { outputRows } from './output-rows.ts';
+import { formatNumber } from './format-number.ts';
 import { emptyStats, IntegrationFailure, type SolverStats } from './numerics/ode-system.ts';
 import { realStabilityLimit } from './numerics/stability.ts';
 import type { Outcome, Problem } from './problems.ts';
@@ -20,8 +21,12 @@ import type { SolverMethod } from './schema.ts';
 import { APPROACH_DEFINITION, steadyStateFigures, type SteadyStateFigures } from './steady-state.ts';
 import { CompartmentSystem, type StateLayout } from './system.ts';
 import { displayUnit } from './units.ts';
+import { limits } from './limits.ts';
 
-export type SolutionPath = 'exact' | 'adaptive' | 'fixed';
+// Re-exported for the server and the tests, which take them from the entry point.
+export { choosePath, solveSchedule, type Solution, type SolutionPath } from './solve.ts';
+export { outputRows } from './output-rows.ts';
+export { formatNumber } from './format-number.ts';
 
 export interface CompartmentSeries {
   id: string;
@@ -88,35 +93,6 @@ export function simulate(input: unknown): Outcome<SimulationResult> {
   return model.ok ? simulateModel(model.value) : model;
 }
 
-export function choosePath(model: Model): SolutionPath {
-  const m = model.solver.method;
-  if (m === 'exact' || (m === 'auto' && model.linear)) return 'exact';
-  return ['euler', 'heun', 'rk4', 'abm2'].includes(m) ? 'fixed' : 'adaptive';
-}
-
-export interface Solution {
-  trajectory: Trajectory;
-  final: Float64Array;
-  methodsUsed: string[];
-  propagators: number;
-}
-
-/** Solves the model's schedule from state y0 by the path the model's settings choose. */
-export function solveSchedule(
-  model: Model,
-  system: CompartmentSystem,
-  schedule: Schedule,
-  y0: Float64Array,
-  stats: SolverStats,
-): Solution {
-  if (choosePath(model) === 'exact') {
-    const run = propagateExact(system, schedule, y0);
-    return { trajectory: run.trajectory, final: run.final, methodsUsed: ['exact'], propagators: run.trajectory.cache.computed };
-  }
-  const run = integrateSchedule(system, schedule, y0, model.solver, stats);
-  return { trajectory: run.trajectory, final: run.final, methodsUsed: [...run.methodsUsed], propagators: 0 };
-}
-
 export function simulateModel(model: Model): Outcome<SimulationResult> {
   const system = new CompartmentSystem(model);
   const schedule = scheduleOf(model);
@@ -143,6 +119,7 @@ export function simulateModel(model: Model): Outcome<SimulationResult> {
   const compartmentFigures = exposureFigures(model, system.layout, probe);
   const steady = guardedSteadyState(model, system, stats);
   if (steady && !steady.reached) warnings.push(steady.message);
+  if (steady?.reached) warnings.push(...courseEndWarnings(model, steady));
 
   const units = resultUnits(model);
   return {
@@ -189,6 +166,7 @@ function guardedSteadyState(model: Model, system: CompartmentSystem, stats: Solv
       compartments: [],
       approachDefinition: APPROACH_DEFINITION,
       work: { cycles: 0, integrations: 0, steps: 0 },
+      profile: null,
     };
   }
 }
@@ -204,38 +182,6 @@ export function resultUnits(model: Model): ResultUnits {
     auc: `${concentration}·${u.time}`,
     rateConstant: displayUnit('rateConstant', u),
   };
-}
-
-/** Output times merged with breakpoints; a breakpoint with a bolus gives two rows (before and after). */
-export function outputRows(outputTimes: Float64Array, schedule: Schedule): { times: Float64Array; sides: Uint8Array } {
-  const bps = schedule.breakpoints;
-  let jumps = 0;
-  for (const b of bps) if (b.jumps.length > 0) jumps++;
-  const times = new Float64Array(outputTimes.length + bps.length + jumps);
-  const sides = new Uint8Array(times.length);
-  let r = 0;
-  let i = 0;
-  let k = 0;
-  // Merge two ascending lists; a time present in both is one row (two at a bolus).
-  while (i < outputTimes.length || k < bps.length) {
-    const tOut = i < outputTimes.length ? outputTimes[i] : Infinity;
-    const tBp = k < bps.length ? bps[k].time : Infinity;
-    if (tBp <= tOut) {
-      if (bps[k].jumps.length > 0) {
-        times[r] = tBp;
-        sides[r++] = 0;
-      }
-      times[r] = tBp;
-      sides[r++] = 1;
-      k++;
-      if (tOut === tBp) i++;
-    } else {
-      times[r] = tOut;
-      sides[r++] = 1;
-      i++;
-    }
-  }
-  return { times: times.slice(0, r), sides: sides.slice(0, r) };
 }
 
 /**
@@ -303,9 +249,6 @@ function numericalProblem(e: unknown, model: Model, layout: StateLayout): Proble
   return { path: 'solver', message: `numerical failure: ${message}` };
 }
 
-export function formatNumber(v: number): string {
-  return Number.isInteger(v) ? String(v) : Number(v.toPrecision(6)).toString();
-}
 
 function fixedStepWarnings(model: Model, dispo: Disposition): string[] {
   const h = model.solver.step;
@@ -356,4 +299,36 @@ function shortInfusionWarnings(model: Model): string[] {
     (line) =>
       `doses[${line}]: an infusion of ${formatNumber(model.doseLines.find((l) => l.line === line)?.duration ?? 0)} ${model.units.time} is shorter than the time resolution of this span (${formatNumber(resolution)} ${model.units.time}) and is given as a bolus`,
   );
+}
+
+/**
+ * A steady state computed is not a steady state reached: when the simulated course ends
+ * before the maintenance regimen comes within 90% of it, say so, with what the steady state
+ * would be against the target window, so nobody reads the steady-state figures as the course's.
+ */
+export function courseEndWarnings(model: Model, steady: SteadyStateFigures): string[] {
+  const firstDose = Math.min(...steady.lines.map((line) => model.doseLines.find((l) => l.line === line)?.firstGiven ?? model.start));
+  const elapsed = model.end - firstDose;
+  const t = model.units.time;
+  const c = displayUnit('concentration', model.units);
+  const out: string[] = [];
+  for (const figures of steady.compartments) {
+    if (figures.timeTo90 !== null && figures.timeTo90 <= elapsed) continue;
+    const takes =
+      figures.timeTo90 === null
+        ? `90% of steady state takes more than ${limits.steadyStateCycles} dosing cycles`
+        : `90% of steady state takes ${formatNumber(figures.timeTo90)} ${t} from the first maintenance dose at ${formatNumber(firstDose)} ${t}`;
+    const index = model.compartments.findIndex((x) => x.id === figures.compartment);
+    const against = model.thresholds
+      .filter((w) => w.compartment === index)
+      .flatMap((w) => [
+        w.below !== null && figures.cmax > w.below ? `, above the window's upper edge of ${formatNumber(w.below)} ${c}` : '',
+        w.above !== null && figures.trough < w.above ? `; the trough would be ${formatNumber(figures.trough)} ${c}, below the window's lower edge of ${formatNumber(w.above)} ${c}` : '',
+      ])
+      .join('');
+    out.push(
+      `'${figures.compartment}' is not at steady state by the end of the span (${formatNumber(model.end)} ${t}): ${takes}; at steady state the peak would be ${formatNumber(figures.cmax)} ${c}${against} — the steady-state figures describe the regimen continued, not this course`,
+    );
+  }
+  return out;
 }

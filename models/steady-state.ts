@@ -16,12 +16,14 @@ import { CurveProbe } from './metrics/curve-probe.ts';
 import { exposureFigures, type WindowFigures } from './metrics/exposure.ts';
 import type { Model } from './model.ts';
 import type { SolverStats } from './numerics/ode-system.ts';
-import { formatNumber, solveSchedule } from './simulate.ts';
+import { formatNumber } from './format-number.ts';
+import { solveSchedule } from './solve.ts';
 import { iteratedApproach, type Approach, type Work } from './steady-state/approach.ts';
 import { capacityAccount, capacityProblem } from './steady-state/capacity.ts';
 import { cycleAdministrations, givenAdministrations, maintenanceLines, maintenancePeriod, reachableFrom, trappedCompartments } from './steady-state/cycle.ts';
 import { iterate, type CycleMap, type Found, type SearchSettings } from './steady-state/fixed-point.ts';
 import { linearApproach, linearPeriodicState } from './steady-state/linear.ts';
+import { cycleProfile, type CycleProfile } from './steady-state/profile.ts';
 import type { CompartmentSystem } from './system.ts';
 
 export { cycleAdministrations, maintenanceLines, maintenancePeriod, trappedCompartments } from './steady-state/cycle.ts';
@@ -84,6 +86,8 @@ export interface SteadyStateFigures {
   /** What timeTo90/timeTo95 mean (APPROACH_DEFINITION). */
   approachDefinition: string;
   work: SteadyStateWork;
+  /** The steady-state cycle itself, for plotting; null when no steady state was found. */
+  profile: CycleProfile | null;
 }
 
 /** Tightest relative tolerance the steady-state search asks of the integrator. */
@@ -154,6 +158,7 @@ export function steadyStateFigures(model: Model, system: CompartmentSystem, stat
     compartments: [],
     approachDefinition: APPROACH_DEFINITION,
     work: spent(),
+    profile: null,
   });
   if (period === null) {
     return notReached(NaN, 'no steady state computed: the dosing intervals of the repeating lines have no common period');
@@ -246,7 +251,7 @@ export function steadyStateFigures(model: Model, system: CompartmentSystem, stat
       windows: f.overall.windows,
     };
   });
-  const regimen = lines.map((l) => `doses[${l.line}]`).join(' and ');
+  const regimen = lines.map((l) => doseLineName(l.line, l.label)).join(' and ');
   return {
     period,
     lines: lineIndices,
@@ -258,7 +263,13 @@ export function steadyStateFigures(model: Model, system: CompartmentSystem, stat
     compartments,
     approachDefinition: APPROACH_DEFINITION,
     work: spent(),
+    profile: cycleProfile(cycleModel, run.trajectory, schedule, y0),
   };
+}
+
+/** A dose line as people number it: "dose line 2 — maintenance" for doses[1] labelled maintenance. */
+export function doseLineName(line: number, label: string | null): string {
+  return `dose line ${line + 1}${label ? ` — ${label}` : ''}`;
 }
 
 /** The cycle (1-based) in which time t falls; a time on a cycle's end belongs to that cycle. */

@@ -12,7 +12,7 @@ import { buildSchedule } from '../events.ts';
 import { limits } from '../limits.ts';
 import type { Model } from '../model.ts';
 import type { SolverStats } from '../numerics/ode-system.ts';
-import { solveSchedule } from '../simulate.ts';
+import { solveSchedule } from '../solve.ts';
 import type { CompartmentSystem } from '../system.ts';
 import { administrationsWithin, givenAdministrations, type DoseLines } from './cycle.ts';
 

@@ -4,7 +4,7 @@
  * search's messages quote (only numbers that were computed, never a guess at a cause).
  */
 import type { Administration, Model } from '../model.ts';
-import { formatNumber } from '../simulate.ts';
+import { formatNumber } from '../format-number.ts';
 
 /** Average bioavailable input rate of the cycle, amount per time. */
 export function averageDoseRate(cycle: readonly Administration[], period: number): number {

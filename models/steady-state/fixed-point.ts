@@ -15,7 +15,7 @@
 import type { Schedule } from '../events.ts';
 import { solveLinear } from '../linalg/lu.ts';
 import { limits } from '../limits.ts';
-import { formatNumber } from '../simulate.ts';
+import { formatNumber } from '../format-number.ts';
 import { formatShare } from './capacity.ts';
 
 export interface CycleMap {

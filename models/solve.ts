@@ -1,0 +1,42 @@
+/**
+ * Solving a schedule: the exact path for a linear model (or when asked for), the numerical
+ * path otherwise. Shared by the main run and the steady-state search.
+ */
+import type { Schedule } from './events.ts';
+import { propagateExact } from './linear-path.ts';
+import type { Model } from './model.ts';
+import { integrateSchedule } from './numerical-path.ts';
+import type { Trajectory } from './numerics/dense-store.ts';
+import type { SolverStats } from './numerics/ode-system.ts';
+import type { CompartmentSystem } from './system.ts';
+
+export type SolutionPath = 'exact' | 'adaptive' | 'fixed';
+
+export function choosePath(model: Model): SolutionPath {
+  const m = model.solver.method;
+  if (m === 'exact' || (m === 'auto' && model.linear)) return 'exact';
+  return ['euler', 'heun', 'rk4', 'abm2'].includes(m) ? 'fixed' : 'adaptive';
+}
+
+export interface Solution {
+  trajectory: Trajectory;
+  final: Float64Array;
+  methodsUsed: string[];
+  propagators: number;
+}
+
+/** Solves the model's schedule from state y0 by the path the model's settings choose. */
+export function solveSchedule(
+  model: Model,
+  system: CompartmentSystem,
+  schedule: Schedule,
+  y0: Float64Array,
+  stats: SolverStats,
+): Solution {
+  if (choosePath(model) === 'exact') {
+    const run = propagateExact(system, schedule, y0);
+    return { trajectory: run.trajectory, final: run.final, methodsUsed: ['exact'], propagators: run.trajectory.cache.computed };
+  }
+  const run = integrateSchedule(system, schedule, y0, model.solver, stats);
+  return { trajectory: run.trajectory, final: run.final, methodsUsed: [...run.methodsUsed], propagators: 0 };
+}
