@@ -6,7 +6,7 @@
  * peak and trough that can be seen at print resolution.
  */
 import { contentLeft, contentWidth, ensureSpace, font, palette, type } from './document.ts';
-import { linearAxis, logAxis, timeAxis, type Axis } from './ticks.ts';
+import { linearAxis, logAxis, lowAfterRise, timeAxis, type Axis } from './ticks.ts';
 import { fmt, unitText } from './format.ts';
 
 export interface PlotSeries {
@@ -125,13 +125,9 @@ function range(spec: FigureSpec): { maxC: number; lowC: number } {
       if (s.times[i] >= spec.start && s.times[i] <= spec.end && s.values[i] > peak) peak = s.values[i];
     }
     maxC = Math.max(maxC, peak);
-    let risen = false;
-    for (let i = 0; i < s.values.length; i++) {
-      if (s.times[i] < spec.start || s.times[i] > spec.end) continue;
-      const v = s.values[i];
-      if (!risen && v >= peak / 10) risen = true;
-      if (risen && v > 0 && v < lowC) lowC = v;
-    }
+    const inSpan: number[] = [];
+    for (let i = 0; i < s.values.length; i++) if (s.times[i] >= spec.start && s.times[i] <= spec.end) inSpan.push(s.values[i]);
+    lowC = Math.min(lowC, lowAfterRise(inSpan, peak));
   }
   return { maxC, lowC };
 }

@@ -15,6 +15,7 @@ import type { SteadyStateFigures } from '../../models/steady-state.ts';
 import type { WindowFigures } from '../../models/metrics/exposure.ts';
 import { independentCheck, verdict, type CheckOutcome } from './check.ts';
 import { drawDiagram } from './diagram.ts';
+import { plainDoseWords } from './dose-words.ts';
 import { createReportDocument, documentBytes, font, gap, heading, keyValues, palette, paragraph, type } from './document.ts';
 import { clock, duration, fmt, percent, reportFileName, unitText, withUnit } from './format.ts';
 import { drawCautionBox, drawTitleBlock, stampPages } from './furniture.ts';
@@ -123,7 +124,7 @@ function renderReport(parts: Parts): { bytes: Uint8Array; pages: number } {
   regimenSection(doc, model, result);
   plotSection(doc, model, result, reference);
   exposureSection(doc, model, result, params, reference);
-  warningsSection(doc, result, check);
+  warningsSection(doc, model, result, check);
   methodSection(doc, result, check);
   intervalSection(doc, model, result, params);
 
@@ -184,8 +185,8 @@ function modelSection(doc: PDFKit.PDFDocument, model: Model, result: SimulationR
       { header: 'How it is obtained', width: 3 },
     ],
     rows: params.derived.map((d) => [d.quantity, d.value, d.basis]),
+    footnote: `${centralRule} ${steadyVolumeRule}`,
   });
-  note(doc, `${centralRule} ${steadyVolumeRule}`);
 }
 
 // ---- 2. Regimen ----
@@ -326,7 +327,7 @@ function steadyStateTable(doc: PDFKit.PDFDocument, model: Model, result: Simulat
     paragraph(doc, 'No dose line repeats, so there is no steady state to report.');
     return;
   }
-  paragraph(doc, `${ss.reached ? 'Reached' : 'Not reached'}: ${ss.message}.`, { size: type.small });
+  paragraph(doc, `${ss.reached ? 'Reached' : 'Not reached'}: ${plainDoseWords(ss.message, doseLabels(model))}.`, { size: type.small });
   if (!ss.reached) return;
   const withVolume = ss.compartments.filter((c) => result.compartments.find((s) => s.id === c.compartment)?.concentration);
   const reached = (time: number | null, cycles: number | null) => (time === null ? '—' : `${fmt(time)} (${cycles} cycle${cycles === 1 ? '' : 's'})`);
@@ -336,24 +337,29 @@ function steadyStateTable(doc: PDFKit.PDFDocument, model: Model, result: Simulat
     [`Trough (${unitText(u.concentration)})`, (c) => fmt(c.trough)],
     [`Cavg (${unitText(u.concentration)})`, (c) => fmt(c.cavg)],
     [`AUCτ (${unitText(u.auc)})`, (c) => fmt(c.auc)],
-    ['Fluctuation (Cmax − Cmin)/Cavg', (c) => fmt(c.fluctuation)],
+    ['Fluctuation (Cmax − Cmin)/Cavg (%)', (c) => fmt(c.fluctuation === null ? null : 100 * c.fluctuation)],
     ['Accumulation AUCτ,ss / AUC of the first cycle', (c) => fmt(c.accumulationRatio)],
     [`90% of AUCτ reached after (${u.time})`, (c) => reached(c.timeTo90, c.cyclesTo90)],
     [`95% of AUCτ reached after (${u.time})`, (c) => reached(c.timeTo95, c.cyclesTo95)],
   ];
-  // One column per compartment, four at most per table.
+  const footnote = `One dosing cycle τ = ${duration(ss.period, model.units.time)} at steady state; Tmax is counted from the start of the cycle. Fluctuation in percent of Cavg. The time to 90% (95%) runs from the first maintenance dose until a cycle's AUC reaches 90% (95%) of AUCτ. Method: ${ss.method === 'closed-form' ? 'closed form from the cycle propagator' : 'dosing cycles iterated'}, ${ss.cycles} cycles, residual ${fmt(ss.residual, 2)}.`;
+  // One column per compartment, four at most per table; the note goes with the last table.
   for (let first = 0; first < withVolume.length; first += 4) {
     const group = withVolume.slice(first, first + 4);
     drawTable(doc, {
       width: Math.min(1, 0.5 + 0.125 * group.length),
       columns: [{ header: 'At steady state, one cycle', width: 2.6 }, ...group.map((c) => ({ header: c.compartment, width: 1.1, align: 'right' as const }))],
       rows: figures.map(([name, value]) => [name, ...group.map(value)]),
+      footnote: first + 4 >= withVolume.length ? footnote : undefined,
     });
   }
-  note(
-    doc,
-    `One dosing cycle τ = ${duration(ss.period, model.units.time)} at steady state; Tmax is counted from the start of the cycle. The time to 90% (95%) runs from the first maintenance dose until a cycle's AUC reaches 90% (95%) of AUCτ. Method: ${ss.method === 'closed-form' ? 'closed form from the cycle propagator' : 'dosing cycles iterated'}, ${ss.cycles} cycles, residual ${fmt(ss.residual, 2)}.`,
-  );
+}
+
+/** Dose-line labels by line index, for the engine's "doses[N]" in messages. */
+function doseLabels(model: Model): (string | null)[] {
+  const labels: (string | null)[] = [];
+  for (const l of model.doseLines) labels[l.line] = l.label;
+  return labels;
 }
 
 function referenceTable(doc: PDFKit.PDFDocument, result: SimulationResult, reference: Run): void {
@@ -389,9 +395,9 @@ function referenceTable(doc: PDFKit.PDFDocument, result: SimulationResult, refer
 }
 
 // ---- 5. Warnings ----
-function warningsSection(doc: PDFKit.PDFDocument, result: SimulationResult, check: CheckOutcome): void {
+function warningsSection(doc: PDFKit.PDFDocument, model: Model, result: SimulationResult, check: CheckOutcome): void {
   section(doc, '5  Warnings', 40);
-  const list = [...result.diagnostics.warnings];
+  const list = result.diagnostics.warnings.map((w) => plainDoseWords(w, doseLabels(model)));
   if (!check.ok) list.push(`the independent check could not be completed: ${check.problems.join('; ')}`);
   else if (check.maxRelativeToCmax > 1e-2) list.push(`the independent check differs by ${percent(check.maxRelativeToCmax)} of Cmax (section 6)`);
   if (list.length === 0) {
@@ -476,7 +482,7 @@ function intervalSection(doc: PDFKit.PDFDocument, model: Model, result: Simulati
     { header: 'Trough', width: 0.9, align: 'right' as const },
     { header: 'AUC', width: 0.95, align: 'right' as const },
     { header: 'Cavg', width: 0.9, align: 'right' as const },
-    { header: 'Fluct.', width: 0.8, align: 'right' as const },
+    { header: 'Fluct. %', width: 0.8, align: 'right' as const },
   ];
   if (windowed) columns.push({ header: 'In window', width: 0.95, align: 'right' as const });
   drawTable(doc, {
@@ -485,11 +491,11 @@ function intervalSection(doc: PDFKit.PDFDocument, model: Model, result: Simulati
     zebra: true,
     size: type.tiny + 0.3,
     rows: figures.intervals.map((iv) => {
-      const row = [String(iv.index + 1), fmt(iv.start), fmt(iv.end), fmt(iv.cmax), fmt(iv.tmax), fmt(iv.trough), fmt(iv.auc), fmt(iv.cavg), fmt(iv.fluctuation)];
+      const row = [String(iv.index + 1), fmt(iv.start), fmt(iv.end), fmt(iv.cmax), fmt(iv.tmax), fmt(iv.trough), fmt(iv.auc), fmt(iv.cavg), fmt(iv.fluctuation === null ? null : 100 * iv.fluctuation)];
       if (windowed) row.push(percent(iv.windows[0]?.fractionInWindow));
       return row;
     }),
+    footnote: `Trough: the concentration just before the next dose (— for the last interval). Fluct.: fluctuation (Cmax − Cmin)/Cavg in percent. In window: share of the interval inside the first target window.`,
   });
-  note(doc, `Trough: the concentration just before the next dose (— for the last interval). In window: share of the interval inside the first target window.`);
 }
 

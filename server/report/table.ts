@@ -1,7 +1,9 @@
 /**
  * Tables that flow over pages: rows are measured before they are drawn, a row that would
  * cross the bottom margin starts a new page, and the header (with the caption marked
- * "continued") is drawn again at the top of every page the table reaches.
+ * "continued") is drawn again at the top of every page the table reaches. A table's note
+ * (`footnote`) is drawn under it and never alone: when the note does not fit under the last
+ * rows, those rows go to the next page with it.
  */
 import { contentBottom, contentLeft, contentTop, contentWidth, ensureSpace, font, palette, type } from './document.ts';
 
@@ -28,7 +30,12 @@ export interface TableSpec {
   zebra?: boolean;
   /** Share of the content width the table takes, from the left margin (default 1). */
   width?: number;
+  /** A note that belongs to the table, drawn under it and kept on a page with its last rows. */
+  footnote?: string;
 }
+
+/** Rows that go to a new page with the footnote rather than leave it alone on one. */
+const rowsKeptWithNote = 2;
 
 const padX = 3.5;
 const padY = 2.2;
@@ -40,6 +47,9 @@ function cellOf(value: string | Cell): Cell {
 export interface TableResult {
   /** Pages the table was drawn on (0-based, as PDFKit buffers them). */
   pages: number[];
+  /** Page of the last row, and of the footnote when there is one (0-based). */
+  lastRowPage: number;
+  footnotePage: number | null;
 }
 
 export function drawTable(doc: PDFKit.PDFDocument, spec: TableSpec): TableResult {
@@ -97,23 +107,41 @@ export function drawTable(doc: PDFKit.PDFDocument, spec: TableSpec): TableResult
     return y;
   };
 
-  const firstRow = spec.rows.length > 0 ? measure(spec.rows[0].map(cellOf), false) : 0;
+  const noteGap = 6;
+  const footnoteHeight = spec.footnote ? (doc.font(font.regular).fontSize(type.small), doc.heightOfString(spec.footnote, { width: contentWidth, lineGap: 1 }) + noteGap) : 0;
+  const heights = spec.rows.map((raw) => measure(raw.map(cellOf), false));
+  // Height from row r to the end of the table, note included, for the rows kept with the note.
+  const tail = (r: number): number => heights.slice(r).reduce((a, b) => a + b, 0) + footnoteHeight;
+  const keepFrom = spec.footnote ? Math.max(0, spec.rows.length - rowsKeptWithNote) : spec.rows.length;
+  const firstRow = spec.rows.length === 0 ? footnoteHeight : keepFrom === 0 ? tail(0) : heights[0];
   ensureSpace(doc, captionHeight + headerHeight + firstRow + 4);
   let y = startPage(false);
+  let rowsOnPage = 0;
   spec.rows.forEach((raw, r) => {
     const cells = raw.map(cellOf);
-    const height = measure(cells, false);
-    if (y + height > contentBottom) {
+    const height = heights[r];
+    const needed = r === keepFrom && rowsOnPage > 0 ? tail(r) : height;
+    if (y + needed > contentBottom) {
       doc.addPage();
       doc.y = contentTop;
       y = startPage(true);
+      rowsOnPage = 0;
     }
     drawRow(cells, y, height, false, Boolean(spec.zebra) && r % 2 === 1);
     y += height;
+    rowsOnPage++;
   });
   rule(y, 0.8, palette.text);
+  const lastRowPage = currentPage();
   doc.x = contentLeft;
-  doc.y = y + 6;
+  doc.y = y + noteGap;
+  let footnotePage: number | null = null;
+  if (spec.footnote) {
+    doc.font(font.regular).fontSize(type.small).fillColor(palette.muted);
+    doc.text(spec.footnote, contentLeft, doc.y, { width: contentWidth, lineGap: 1 });
+    footnotePage = currentPage();
+    doc.y += 4;
+  }
   doc.font(font.regular).fontSize(type.body).fillColor(palette.text);
-  return { pages };
+  return { pages, lastRowPage, footnotePage };
 }

@@ -125,3 +125,19 @@ export function logAxis(min: number, max: number, maxDecades = 5): Axis {
   }
   return { min: 10 ** lo, max: 10 ** hi, ticks, minor };
 }
+
+/**
+ * The low end of a logarithmic axis for one curve: its smallest positive value once it has
+ * risen to a tenth of its peak. The zero before the first dose, and the climb from it, would
+ * otherwise stretch the axis over decades nobody reads. Infinity when there is none.
+ */
+export function lowAfterRise(values: ArrayLike<number>, peak: number): number {
+  let low = Infinity;
+  let risen = false;
+  for (let i = 0; i < values.length; i++) {
+    const v = values[i];
+    if (!risen && v >= peak / 10) risen = true;
+    if (risen && v > 0 && v < low) low = v;
+  }
+  return low;
+}

@@ -114,7 +114,7 @@ describe("numbers equal the engine's", () => {
   it("one row per dosing interval with the engine's figures", () => {
     expect(central.intervals).toHaveLength(14);
     for (const iv of central.intervals) {
-      const cells = [iv.index + 1, iv.start, iv.end, iv.cmax, iv.tmax, iv.trough, iv.auc, iv.cavg, iv.fluctuation].map((v) => escapeRegExp(fmt(v)));
+      const cells = [iv.index + 1, iv.start, iv.end, iv.cmax, iv.tmax, iv.trough, iv.auc, iv.cavg, iv.fluctuation === null ? null : 100 * iv.fluctuation].map((v) => escapeRegExp(fmt(v)));
       const row = new RegExp(`^\\s*${cells.join('\\s+')}\\s+${escapeRegExp(pct(iv.windows[0].fractionInWindow))}\\s*$`, 'm');
       expect(all, `interval ${iv.index + 1}`).toMatch(row);
     }

@@ -97,7 +97,7 @@ describe('long regimens', () => {
     expect(tablePages.length).toBeGreaterThanOrEqual(5);
     tablePages.slice(1).forEach((page) => {
       expect(page).toContain('Per-interval figures — central (continued)');
-      expect(page).toMatch(/#\s+Start\s+End\s+Cmax\s+Tmax\s+Trough\s+AUC\s+Cavg\s+Fluct\.\s+In window/);
+      expect(page).toMatch(/#\s+Start\s+End\s+Cmax\s+Tmax\s+Trough\s+AUC\s+Cavg\s+Fluct\.\s+%\s+In window/);
     });
     const rows = tablePages.join('\n').match(/^\s*(\d+)\s+\d[\d.e+-]*\s+\d[\d.e+-]*\s+\d[\d.e+-]*\s+\d[\d.e+-]*\s+(?:[\d.e+-]+|—)\s+\d/gm) ?? [];
     const numbers = rows.map((r) => Number(/^\s*(\d+)/.exec(r)?.[1]));
