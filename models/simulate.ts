@@ -79,6 +79,8 @@ export interface SimulationEvent {
 
 export interface SimulationResult {
   title: string;
+  /** The subject's covariates (given and derived) and the quantities their relations changed; null without a subject. */
+  subject: Model['subject'];
   units: ResultUnits;
   /** Reported times; a time appears twice at a bolus: the value just before, then just after. */
   times: Float64Array;
@@ -126,6 +128,7 @@ export function simulateModel(model: Model): Outcome<SimulationResult> {
     ok: true,
     value: {
       title: model.title,
+      subject: model.subject,
       units,
       times: rows.times,
       compartments: series,
@@ -307,6 +310,9 @@ function shortInfusionWarnings(model: Model): string[] {
  * would be against the target window, so nobody reads the steady-state figures as the course's.
  */
 export function courseEndWarnings(model: Model, steady: SteadyStateFigures): string[] {
+  // A regimen that stopped within the span was never going to reach steady state; say it only of one still running.
+  const running = steady.lines.some((line) => model.doseLines.find((l) => l.line === line)?.nextGiven != null);
+  if (!running) return [];
   const firstDose = Math.min(...steady.lines.map((line) => model.doseLines.find((l) => l.line === line)?.firstGiven ?? model.start));
   const elapsed = model.end - firstDose;
   const t = model.units.time;

@@ -56,6 +56,18 @@ describe('a course that ends before steady state says so', () => {
     expect(warning).toContain(`the peak would be ${Number(peak.toPrecision(6))} mg/L, above the window's upper edge of 8 mg/L`);
   });
 
+  it('says nothing of a regimen that stopped within the span', () => {
+    const r = simulate({
+      title: 'four doses',
+      compartments: [{ id: 'central', volume: V }],
+      transfers: [{ from: 'central', k }],
+      doses: [{ into: 'central', amount: dose, every: tau, count: 4 }],
+      output: { end: 96, step: 1 },
+    });
+    if (!r.ok) throw new Error(JSON.stringify(r.problems));
+    expect(r.value.diagnostics.warnings.filter((w) => w.includes('not at steady state'))).toEqual([]);
+  });
+
   it('says nothing once the course has come within 90%', () => {
     const result = run(240);
     expect(result.diagnostics.warnings.filter((w) => w.includes('not at steady state'))).toEqual([]);
