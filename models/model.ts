@@ -4,6 +4,7 @@
  * Everything downstream (system builder, solvers, metrics) reads only this.
  */
 import type { SolverMethod } from './schema.ts';
+import type { Covariates } from './subject/subject.ts';
 import type { UnitSystem } from './units.ts';
 
 export interface ModelCompartment {
@@ -96,4 +97,19 @@ export interface Model {
   solver: SolverSettings;
   /** True when no transfer is saturable: the exact matrix-exponential path applies. */
   linear: boolean;
+  /** The subject's covariates and the quantities they changed; null when the scenario describes no subject. */
+  subject: { covariates: Covariates; adjustments: Adjustment[] } | null;
 }
+
+/** A model quantity that covariate relations changed for this subject, for tables and reports. */
+export interface Adjustment {
+  /** JSON path of the quantity, e.g. "transfers[1].cl". */
+  path: string;
+  /** The quantity's own name, when the scenario gives one. */
+  name: string | null;
+  typical: number;
+  value: number;
+  /** The relations in words, each a multiplier, e.g. ["× (weight / 70 kg)^0.75"]. */
+  relations: string[];
+}
+

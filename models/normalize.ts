@@ -6,6 +6,7 @@
 import type { z } from 'zod';
 import { limits } from './limits.ts';
 import type {
+  Adjustment,
   Administration,
   DoseLineSummary,
   Kinetics,
@@ -15,28 +16,38 @@ import type {
   ModelTransfer,
 } from './model.ts';
 import { formatPath, type Outcome, type Problem } from './problems.ts';
-import { scenarioSchema, type Quantity, type Scenario } from './schema.ts';
-import { checkUnitSystem, convertQuantity, type Dimension, type UnitSystem } from './units.ts';
+import { scenarioSchema, type AdjustedQuantity, type ModelQuantity, type Quantity, type Scenario } from './schema.ts';
+import { applyRelation } from './subject/relations.ts';
+import { readSubject, type Covariates } from './subject/subject.ts';
+import { checkUnitSystem, convertQuantity, unitWritten, type Dimension, type UnitSystem } from './units.ts';
 
 const fixedStepMethods = new Set(['euler', 'heun', 'rk4', 'abm2']);
 
 /** Reads quantities, collecting problems instead of stopping at the first. */
 class Reader {
   readonly problems: Problem[] = [];
-  constructor(readonly units: UnitSystem) {}
+  readonly adjustments: Adjustment[] = [];
+  constructor(
+    readonly units: UnitSystem,
+    readonly covariates: Covariates = {},
+  ) {}
 
   fail(path: string, message: string): void {
     this.problems.push({ path, message });
   }
 
-  /** Converts q; records a problem and returns null when it is unreadable or out of range. */
+  /** Converts q (for a quantity with covariate relations, its value for this subject); records a problem and returns null when it is unreadable or out of range. */
   read(
-    q: Quantity | undefined,
+    q: ModelQuantity | undefined,
     dimension: Dimension,
     path: string,
     range: 'positive' | 'non-negative' | 'any' = 'positive',
   ): number | null {
     if (q === undefined) return null;
+    if (typeof q === 'object') {
+      const typical = this.read(q.typical, dimension, `${path}.typical`, range);
+      return typical === null ? null : this.adjust(q, typical, path);
+    }
     const converted = convertQuantity(q, dimension, this.units);
     if (!converted.ok) {
       this.fail(path, converted.message);
@@ -52,6 +63,26 @@ class Reader {
       return null;
     }
     return v;
+  }
+
+  /** The typical value times each relation's multiplier for this subject. */
+  adjust(q: AdjustedQuantity, typical: number, path: string): number | null {
+    let value = typical;
+    const words: string[] = [];
+    let failed = false;
+    q.covariates.forEach((relation, j) => {
+      const applied = applyRelation(relation, this.covariates, `${path}.covariates[${j}]`);
+      if (!applied.ok) {
+        this.problems.push(applied.problem);
+        failed = true;
+        return;
+      }
+      value *= applied.applied.multiplier;
+      words.push(applied.applied.words);
+    });
+    if (failed) return null;
+    this.adjustments.push({ path, name: q.name ?? null, typical, value, relations: words });
+    return value;
   }
 }
 
@@ -123,7 +154,9 @@ export function buildModel(s: Scenario): Outcome<Model> {
   if (unitCheck.problems.length > 0) {
     return { ok: false, problems: unitCheck.problems.map((p) => ({ path: `units.${p.field}`, message: p.message })) };
   }
-  const r = new Reader(unitCheck.units);
+  const subject = readSubject(s.subject);
+  const r = new Reader(unitCheck.units, subject.covariates);
+  r.problems.push(...subject.problems);
 
   const compartments = readCompartments(s, r);
   const index = new Map(compartments.map((c, i) => [c.id, i]));
@@ -162,12 +195,22 @@ export function buildModel(s: Scenario): Outcome<Model> {
       thresholds,
       solver,
       linear: transfers.every((t) => t.kinetics.kind === 'first-order'),
+      subject: s.subject === undefined ? null : { covariates: subject.covariates, adjustments: r.adjustments },
     },
   };
 }
 
 /** A fraction from 0 to 1, written as a number or as a percentage ("85%"). */
-function readFraction(value: number | string, path: string, r: Reader): number | null {
+function readFraction(value: number | string | AdjustedQuantity, path: string, r: Reader): number | null {
+  if (typeof value === 'object') {
+    const typical = readFraction(value.typical, `${path}.typical`, r);
+    const adjusted = typical === null ? null : r.adjust(value, typical, path);
+    if (adjusted !== null && adjusted > 1) {
+      r.fail(path, `is ${Number(adjusted.toPrecision(6))} for this subject (typical ${typical} with its covariate relations); a bioavailability cannot exceed 1`);
+      return null;
+    }
+    return adjusted;
+  }
   const percent = typeof value === 'string' ? /^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(%?)\s*$/.exec(value) : null;
   if (typeof value === 'string' && !percent) {
     r.fail(path, `expected a fraction from 0 to 1 or a percentage such as "85%", got '${value.trim()}'`);
@@ -179,6 +222,24 @@ function readFraction(value: number | string, path: string, r: Reader): number |
   const hint = !percent?.[2] && fraction > 1 && fraction <= 100 ? `; ${written} looks like a percentage — write "${fraction}%" or ${fraction / 100}` : '';
   r.fail(path, `must be a fraction from 0 to 1 (or a percentage from 0% to 100%), got ${written}${hint}`);
   return null;
+}
+
+/**
+ * A dose amount, per dose or per body size: "5 mg/kg" times the subject's weight, "100 mg/m2"
+ * times its body surface area (Du Bois); per size without the subject's size is a problem here.
+ */
+function readDoseAmount(q: Quantity, path: string, r: Reader): number | null {
+  const unit = unitWritten(q);
+  const perSize = unit === null ? null : /^(.*)\/\s*(kg|m\^?2)$/.exec(unit);
+  if (!perSize || typeof q !== 'string') return r.read(q, 'amount', path, 'non-negative');
+  const size = perSize[2] === 'kg' ? 'weight' : 'bsa';
+  const covariate = r.covariates[size];
+  if (!covariate || typeof covariate.value !== 'number') {
+    r.fail(path, size === 'weight' ? `is per kg of body weight, but the scenario gives no subject.weight` : `is per m² of body surface area, but the scenario gives no subject.weight and subject.height to derive it from`);
+    return null;
+  }
+  const perUnit = r.read(q.replace(/\/\s*(kg|m\^?2)\s*$/, ''), 'amount', path, 'non-negative');
+  return perUnit === null ? null : perUnit * covariate.value;
 }
 
 /** limits.spanHours in the scenario's time unit. */
@@ -278,7 +339,7 @@ function readDoses(
     const path = `doses[${i}]`;
     const into = index.get(d.into);
     if (into === undefined) r.fail(`${path}.into`, noSuchCompartment(d.into, compartments));
-    const amount = r.read(d.amount, 'amount', `${path}.amount`, 'non-negative');
+    const amount = readDoseAmount(d.amount, `${path}.amount`, r);
     const at = r.read(d.at, 'time', `${path}.at`, 'any');
     if (at !== null && at < span.start) r.fail(`${path}.at`, 'is before output.start; the simulation starts empty at output.start');
     const lag = r.read(d.lag, 'time', `${path}.lag`, 'non-negative') ?? 0;

@@ -15,6 +15,7 @@ export interface CompartmentSeriesJson {
 
 export interface SimulationResultJson {
   title: string;
+  subject: SimulationResult['subject'];
   units: ResultUnits;
   times: number[];
   compartments: Record<string, CompartmentSeriesJson>;
@@ -40,6 +41,7 @@ export function resultToJson(result: SimulationResult): SimulationResultJson {
   for (const { compartment, ...rest } of result.metrics.compartments) figures[compartment] = rest;
   return {
     title: result.title,
+    subject: result.subject,
     units: result.units,
     times: Array.from(result.times),
     compartments,

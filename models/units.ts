@@ -114,12 +114,20 @@ function quoted(text: string): string {
  * quantity already in the scenario's unit keeps every bit of the number written.
  */
 export function convertQuantity(q: Quantity, dimension: Dimension, units: UnitSystem): Converted {
+  return convertToUnit(q, unitFor(dimension, units), dimensionWords[dimension], displayUnit(dimension, units));
+}
+
+/**
+ * Converts a quantity to `targetText` (a unit mathjs reads); a bare number is taken to be in
+ * it already. `words` says what kind of unit is expected, for the messages.
+ */
+export function convertToUnit(q: Quantity, targetText: string, words: string, shown = targetText): Converted {
   if (typeof q === 'number') {
     return Number.isFinite(q) ? { ok: true, value: q } : { ok: false, message: 'must be a finite number' };
   }
   const split = numberThenRest.exec(q.trim());
   if (!split) {
-    return { ok: false, message: `expected a number with ${dimensionWords[dimension]}, got ${quoted(q)}` };
+    return { ok: false, message: `expected a number with ${words}, got ${quoted(q)}` };
   }
   const magnitude = Number(split[1]);
   if (!Number.isFinite(magnitude)) return { ok: false, message: `${quoted(q)} is not a finite number` };
@@ -132,17 +140,22 @@ export function convertQuantity(q: Quantity, dimension: Dimension, units: UnitSy
   const unitText = normaliseUnitText(typedUnit);
   const parsed = parseUnit(`1 ${unitText}`);
   if (!parsed) return { ok: false, message: `could not read the unit ${quoted(typedUnit)} in ${quoted(q)}` };
-  const targetText = unitFor(dimension, units);
   const target = parseUnit(`1 ${targetText}`);
-  if (!target) return { ok: false, message: `the scenario unit '${targetText}' is not a known unit` };
+  if (!target) return { ok: false, message: `the unit '${targetText}' is not a known unit` };
   const factor = conversionFactor(parsed, target, targetText);
   if (factor === null) {
-    return { ok: false, message: `expected ${dimensionWords[dimension]}, got ${quoted(typedUnit)}` };
+    return { ok: false, message: `expected ${words}, got ${quoted(typedUnit)}` };
   }
   const value = magnitude * factor;
-  return Number.isFinite(value)
-    ? { ok: true, value }
-    : { ok: false, message: `${quoted(q)} is too large once converted to ${displayUnit(dimension, units)}` };
+  return Number.isFinite(value) ? { ok: true, value } : { ok: false, message: `${quoted(q)} is too large once converted to ${shown}` };
+}
+
+/** The unit written after the number of a quantity string, or null for a bare number or a number. */
+export function unitWritten(q: Quantity): string | null {
+  if (typeof q === 'number') return null;
+  const split = numberThenRest.exec(q.trim());
+  const unit = split ? split[2].trim() : '';
+  return unit === '' ? null : normaliseUnitText(unit);
 }
 
 const baseDimension: Record<keyof UnitSystem, { probe: string; words: string; example: string }[]> = {
