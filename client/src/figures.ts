@@ -5,6 +5,7 @@
  */
 import type { SimulationResultJson } from '../../models/result-format.ts';
 import { fmt } from '../../models/summary-text.ts';
+import { plainDoseWords } from '../../server/report/dose-words.ts';
 import { h } from './dom.ts';
 
 type Result = SimulationResultJson;
@@ -46,9 +47,10 @@ export function methodSentence(d: Diagnostics, timeUnit: string): string {
   );
 }
 
-function valueCell(v: number | null | undefined, unit: string, testid?: string): HTMLTableCellElement {
+function valueCell(v: number | null | undefined, unit: string, testid?: string, extra?: string): HTMLTableCellElement {
   const num = h('span', { class: 'num', 'data-testid': testid ?? null }, fmt(v));
-  return h('td', {}, num, unit && v !== null && v !== undefined && Number.isFinite(v) ? h('span', { class: 'unit' }, unit) : null);
+  const shown = v !== null && v !== undefined && Number.isFinite(v);
+  return h('td', {}, num, unit && shown ? h('span', { class: 'unit' }, unit) : null, extra && shown ? h('span', { class: 'extra' }, ` ${extra}`) : null);
 }
 
 function percent(v: number | null | undefined): number | null {
@@ -61,10 +63,13 @@ function windowEdges(w: Window, unit: string): string {
   return `below ${fmt(w.below)} ${unit}`;
 }
 
+/** A value, its unit and, optionally, words after it that belong to that side alone ("(4 cycles)"). */
+type Value = [number | null | undefined, string] | [number | null | undefined, string, string | undefined];
+
 interface Row {
   name: string;
-  cur: [number | null | undefined, string];
-  ref?: [number | null | undefined, string];
+  cur: Value;
+  ref?: Value;
   testid?: string;
 }
 
@@ -74,11 +79,11 @@ function figureTable(caption: string, rows: Row[], withRef: boolean, cls: string
   for (const r of rows) {
     const tr = h('tr', {}, h('th', { scope: 'row' }, r.name));
     if (withRef) {
-      const refCell = valueCell(r.ref?.[0] ?? null, r.ref?.[1] ?? '', r.testid ? `ref-${r.testid}` : undefined);
+      const refCell = valueCell(r.ref?.[0] ?? null, r.ref?.[1] ?? '', r.testid ? `ref-${r.testid}` : undefined, r.ref?.[2]);
       refCell.classList.add('ref-col');
       tr.append(refCell);
     }
-    tr.append(valueCell(r.cur[0], r.cur[1], r.testid));
+    tr.append(valueCell(r.cur[0], r.cur[1], r.testid, r.cur[2]));
     body.append(tr);
   }
   return h('table', { class: `fig ${cls}` }, h('caption', {}, caption), h('thead', {}, head), body);
@@ -141,7 +146,7 @@ function intervalTable(id: string, cur: Result, ref: Result | null): HTMLElement
   });
   const table = h(
     'table',
-    { class: 'fig intervals' },
+    { class: withRef ? 'fig intervals compare' : 'fig intervals', 'data-testid': `intervals-${id}` },
     h('caption', {}, withRef ? 'Each dosing interval: reference beside current' : 'Each dosing interval'),
     h('thead', {}, head1, withRef ? head2 : null),
     body,
@@ -151,7 +156,13 @@ function intervalTable(id: string, cur: Result, ref: Result | null): HTMLElement
   return details;
 }
 
-function steadyBlock(id: string, cur: Result, ref: Result | null): HTMLElement {
+/** Dose-line labels of the current run's scenario and of the reference's, for the engine's words. */
+export interface DoseLabels {
+  current: (string | null)[];
+  reference: (string | null)[];
+}
+
+function steadyBlock(id: string, cur: Result, ref: Result | null, labels: DoseLabels): HTMLElement {
   const ss = cur.metrics.steadyState;
   const rss = ref?.metrics.steadyState ?? null;
   const box = h('div', { class: 'steady' });
@@ -160,7 +171,7 @@ function steadyBlock(id: string, cur: Result, ref: Result | null): HTMLElement {
     return box;
   }
   if (!ss.reached) {
-    box.append(h('p', { class: 'note' }, `Steady state not reached: ${ss.message}.`));
+    box.append(h('p', { class: 'note' }, `Steady state not reached: ${plainDoseWords(ss.message, labels.current)}.`));
     return box;
   }
   const c = ss.compartments.find((x) => x.compartment === id);
@@ -168,27 +179,34 @@ function steadyBlock(id: string, cur: Result, ref: Result | null): HTMLElement {
   if (!c) return box;
   const u = cur.units;
   const ru = ref?.units;
-  const pair = (get: (x: SteadyCompartment) => number | null, unit: (x: Result['units']) => string, testid?: string): Pick<Row, 'cur' | 'ref' | 'testid'> => ({
-    cur: [get(c), unit(u)],
-    ref: rc && ru ? [get(rc), unit(ru)] : ref ? [null, ''] : undefined,
+  // Words after a value (the cycle count) come from the same side as the value.
+  const pair = (
+    get: (x: SteadyCompartment) => number | null,
+    unit: (x: Result['units']) => string,
+    testid?: string,
+    extra?: (x: SteadyCompartment) => string | undefined,
+  ): Pick<Row, 'cur' | 'ref' | 'testid'> => ({
+    cur: [get(c), unit(u), extra?.(c)],
+    ref: rc && ru ? [get(rc), unit(ru), extra?.(rc)] : ref ? [null, ''] : undefined,
     testid,
   });
+  const cycles = (n: number | null) => (n === null ? undefined : `(${plural(n, 'cycle')})`);
   const rows: Row[] = [
     { name: 'Cmax', ...pair((x) => x.cmax, (x) => x.concentration, `ss-cmax-${id}`) },
     { name: 'Trough', ...pair((x) => x.trough, (x) => x.concentration, `ss-trough-${id}`) },
     { name: 'Cavg', ...pair((x) => x.cavg, (x) => x.concentration) },
     { name: 'AUCτ', ...pair((x) => x.auc, (x) => x.auc) },
-    { name: 'Fluctuation (Cmax − Cmin)/Cavg', ...pair((x) => percent(x.fluctuation), () => '%') },
+    { name: 'Fluctuation (Cmax − Cmin)/Cavg, in %', ...pair((x) => percent(x.fluctuation), () => '%', `ss-fluctuation-${id}`) },
     { name: 'Accumulation ratio (AUCτ at steady state / first cycle)', ...pair((x) => x.accumulationRatio, () => '') },
-    { name: `Time to 90% of steady state${c.cyclesTo90 !== null ? ` (${plural(c.cyclesTo90, 'cycle')})` : ''}`, ...pair((x) => x.timeTo90, (x) => x.time) },
-    { name: `Time to 95% of steady state${c.cyclesTo95 !== null ? ` (${plural(c.cyclesTo95, 'cycle')})` : ''}`, ...pair((x) => x.timeTo95, (x) => x.time) },
+    { name: 'Time to 90% of steady state', ...pair((x) => x.timeTo90, (x) => x.time, `ss-t90-${id}`, (x) => cycles(x.cyclesTo90)) },
+    { name: 'Time to 95% of steady state', ...pair((x) => x.timeTo95, (x) => x.time, `ss-t95-${id}`, (x) => cycles(x.cyclesTo95)) },
   ];
   box.append(figureTable(`Steady state, dosing cycle τ = ${fmt(ss.period)} ${u.time}`, rows, ref !== null, 'steady-table'));
-  box.append(h('p', { class: 'note' }, `Found as: ${ss.message}.`));
+  box.append(h('p', { class: 'note', 'data-testid': 'steady-message' }, `Found as: ${plainDoseWords(ss.message, labels.current)}.`));
   return box;
 }
 
-function diagnosticsBlock(cur: Result, ref: Result | null): HTMLElement {
+function diagnosticsBlock(cur: Result, ref: Result | null, labels: DoseLabels): HTMLElement {
   const d = cur.diagnostics;
   const u = cur.units;
   const t = d.disposition;
@@ -213,7 +231,7 @@ function diagnosticsBlock(cur: Result, ref: Result | null): HTMLElement {
     ),
   );
   const warnings = d.warnings.length
-    ? h('ul', { class: 'warnings', 'aria-label': 'Warnings' }, ...d.warnings.map((w) => h('li', {}, w)))
+    ? h('ul', { class: 'warnings', 'aria-label': 'Warnings' }, ...d.warnings.map((w) => h('li', {}, plainDoseWords(w, labels.current))))
     : h('p', { class: 'note' }, 'No warnings.');
   const section = h('section', { class: 'diagnostics', 'aria-labelledby': 'diag-heading' }, h('h3', { id: 'diag-heading' }, 'How this run was solved'), list, warnings);
   if (ref) {
@@ -225,12 +243,19 @@ function diagnosticsBlock(cur: Result, ref: Result | null): HTMLElement {
           (ref.diagnostics.disposition.terminalHalfLife !== null ? ` Terminal half-life ${fmt(ref.diagnostics.disposition.terminalHalfLife)} ${ref.units.time}.` : ''),
       ),
     );
-    if (ref.diagnostics.warnings.length) section.append(h('ul', { class: 'warnings', 'aria-label': 'Reference warnings' }, ...ref.diagnostics.warnings.map((w) => h('li', {}, `Reference: ${w}`))));
+    if (ref.diagnostics.warnings.length) section.append(h('ul', { class: 'warnings', 'aria-label': 'Reference warnings' }, ...ref.diagnostics.warnings.map((w) => h('li', {}, `Reference: ${plainDoseWords(w, labels.reference)}`))));
   }
   return section;
 }
 
-export function renderFigures(host: HTMLElement, cur: Result | null, ref: Result | null, selected: string[], referenceTitle: string | null): void {
+export function renderFigures(
+  host: HTMLElement,
+  cur: Result | null,
+  ref: Result | null,
+  selected: string[],
+  referenceTitle: string | null,
+  labels: DoseLabels = { current: [], reference: [] },
+): void {
   if (!cur) {
     host.replaceChildren(h('p', { class: 'empty' }, 'Run the simulation to see the figures.'));
     return;
@@ -252,9 +277,9 @@ export function renderFigures(host: HTMLElement, cur: Result | null, ref: Result
     if (cur.metrics.compartments[id].overall.windows.length === 0) section.append(h('p', { class: 'note' }, 'No target window for this compartment.'));
     const iv = intervalTable(id, cur, withRef ? ref : null);
     if (iv) section.append(iv);
-    section.append(steadyBlock(id, cur, withRef ? ref : null));
+    section.append(steadyBlock(id, cur, withRef ? ref : null, labels));
     parts.push(section);
   }
-  parts.push(diagnosticsBlock(cur, ref));
+  parts.push(diagnosticsBlock(cur, ref, labels));
   host.replaceChildren(...parts);
 }

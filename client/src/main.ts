@@ -6,6 +6,7 @@
 import '../styles.css';
 import type { SimulationResultJson } from '../../models/result-format.ts';
 import { fmt } from '../../models/summary-text.ts';
+import { doseLabelsOf } from '../../server/report/dose-words.ts';
 import { fetchSample, fetchSamples, simulate } from './api.ts';
 import { Compare } from './compare.ts';
 import { renderDiagram } from './diagram.ts';
@@ -15,12 +16,13 @@ import { refreshCompartmentSelects, textField } from './fields.ts';
 import { renderFigures } from './figures.ts';
 import { exportCurves, openScenario, saveScenario } from './io.ts';
 import { ModelForm, type FormHooks } from './model-form.ts';
-import { OutputForm } from './output-form.ts';
+import { manyPointsWarning, OutputForm } from './output-form.ts';
 import { PlotControls } from './plot-controls.ts';
 import { PlotView } from './plot.ts';
 import { RegimenForm } from './regimen-form.ts';
 import { addReportButton } from './report.ts';
 import { emptyScenario, formProblem, ScenarioStore, type ScenarioDoc } from './store.ts';
+import { renderPrintSummary } from './print-summary.ts';
 import { renderTimeline } from './timeline.ts';
 
 const defaultSample = 'velarin-oral-bid';
@@ -132,7 +134,11 @@ const controls = new PlotControls(() => showResult());
 function showResult(): void {
   const reference = compare.reference;
   plot.update({ current: lastResult, reference: reference?.result ?? null, selected: [...controls.selected], log: controls.log, range: controls.range() });
-  renderFigures(figuresHost, lastResult, reference?.result ?? null, [...controls.selected], reference?.title ?? null);
+  renderFigures(figuresHost, lastResult, reference?.result ?? null, [...controls.selected], reference?.title ?? null, {
+    current: doseLabelsOf(lastScenario),
+    reference: doseLabelsOf(reference?.scenario),
+  });
+  renderPrintSummary(byId('print-summary'), lastScenario, lastResult);
   exportButton.disabled = lastResult === null;
   compare.refresh();
   if (plot.referenceNote) byId('reference-note').append(` ${plot.referenceNote}`);
@@ -140,8 +146,28 @@ function showResult(): void {
 
 // ---- running ----
 let inFlight: AbortController | null = null;
+/** The store revision whose large output grid the user chose to run anyway. */
+let largeGridAccepted = -1;
+
+/**
+ * A grid past the limit is not sent until the user says so: the status names the count and
+ * offers "Run anyway" (a step typed in minutes while meaning hours gave 144,041 points).
+ */
+function holdLargeGrid(): boolean {
+  const warning = manyPointsWarning(store.scenario, store.units);
+  if (warning === null || largeGridAccepted === store.revision) return false;
+  const anyway = h('button', { type: 'button', id: 'run-anyway', 'data-testid': 'run-anyway', class: 'quiet' }, 'Run anyway');
+  anyway.addEventListener('click', () => {
+    largeGridAccepted = store.revision;
+    void run();
+  });
+  runStatus.replaceChildren(`Not run: ${warning} `, anyway);
+  announce(`Not run: ${warning}`);
+  return true;
+}
 
 async function run(): Promise<void> {
+  if (holdLargeGrid()) return;
   inFlight?.abort();
   const controller = new AbortController();
   inFlight = controller;
@@ -251,8 +277,21 @@ byId('save-json').addEventListener('click', () => {
 });
 
 // The printable report of the scenario on screen, with the kept reference when there is one.
+/**
+ * The report is of the run on screen. When the form changed since that run, it is run first
+ * (problems are shown as for any run and no report is made), so the PDF never disagrees with
+ * the plot and figures the user reviewed; the status says so.
+ */
+async function scenarioForReport(): Promise<{ scenario: unknown; rerun: boolean } | null> {
+  if (lastResult !== null && store.revision === lastRevision) return { scenario: lastScenario, rerun: false };
+  await run();
+  if (lastResult === null || store.revision !== lastRevision) return null;
+  runStatus.append(' Run for the report, because the form had changed since the previous run: the plot, the figures and the report all show the changed form.');
+  return { scenario: lastScenario, rerun: true };
+}
+
 addReportButton(exportButton, {
-  scenario: () => store.scenario,
+  scenario: scenarioForReport,
   reference: () => compare.reference?.scenario ?? null,
   announce,
   showInvalid: (problems) => errors.showInvalid(problems),

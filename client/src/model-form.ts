@@ -2,9 +2,11 @@
  * The model form: compartments (id, label, volume or none) and transfers between them or
  * out of the body (rate constant, clearance, or saturable Vmax/Km). Writes into the store.
  */
+import { fmt } from '../../models/summary-text.ts';
 import { h } from './dom.ts';
 import { button, compartmentField, quantityField, refreshCompartmentSelects, selectField, textField } from './fields.ts';
-import type { CompartmentDoc, ScenarioStore, TransferDoc } from './store.ts';
+import { isNumberText, scenarioUnitOf, splitQuantity, unitSize, type Dim, type UnitSet } from './quantity.ts';
+import type { CompartmentDoc, ScenarioDoc, ScenarioStore, TransferDoc } from './store.ts';
 
 export interface FormHooks {
   /** Re-render every form, keeping keyboard focus where it was. */
@@ -21,6 +23,31 @@ export type TransferKind = 'k' | 'cl' | 'mm';
 const pendingKind = new WeakMap<object, TransferKind>();
 /** The volume a compartment had before it was made a depot, to restore it when unticked. */
 const formerVolume = new WeakMap<object, unknown>();
+/** Values a transfer had under kinetics it no longer uses, to restore when switched back. */
+const formerKinetics = new WeakMap<object, Partial<Record<'k' | 'cl' | 'vmax' | 'km', unknown>>>();
+
+const kindWords: Record<TransferKind, string> = { k: 'rate constant', cl: 'clearance', mm: 'saturable (Vmax, Km)' };
+
+/** A quantity in mg, L and h (a plain number read in the scenario's units); null when the page cannot read it. */
+function inBase(q: unknown, dim: Dim, u: UnitSet): number | null {
+  const parts = splitQuantity(q, dim, u);
+  if (parts.unit === null || !isNumberText(parts.value)) return null;
+  const size = unitSize(parts.unit === '' ? scenarioUnitOf(dim, u) : parts.unit, dim);
+  return size === null ? null : Number(parts.value) * size;
+}
+
+/** A base value (mg, L, h) written in the scenario's unit of the dimension, 4 significant digits. */
+function inScenarioUnit(base: number, dim: Dim, u: UnitSet): string | null {
+  const unit = scenarioUnitOf(dim, u);
+  const size = unitSize(unit, dim);
+  return size === null || !Number.isFinite(base) ? null : `${Number((base / size).toPrecision(4))} ${unit}`;
+}
+
+/** What a removal took out, to put back with Undo. */
+interface Removal {
+  message: string;
+  restore(doc: ScenarioDoc): void;
+}
 
 export function transferKind(t: TransferDoc): TransferKind {
   if (t.vmax !== undefined || t.km !== undefined) return 'mm';
@@ -34,7 +61,40 @@ export class ModelForm {
     private readonly store: ScenarioStore,
     private readonly root: HTMLElement,
     private readonly hooks: FormHooks,
-  ) {}
+  ) {
+    // Undo is offered for the last removal until the scenario changes in any other way.
+    store.subscribe(() => {
+      if (this.undoing || !this.lastRemoval) return;
+      this.lastRemoval = null;
+      this.root.querySelector('.undo-bar')?.remove();
+    });
+  }
+
+  private lastRemoval: Removal | null = null;
+  private undoing = false;
+
+  private undoBar(): HTMLElement | null {
+    const removal = this.lastRemoval;
+    if (!removal) return null;
+    const undo = button('Undo', { 'data-testid': 'undo-removal', 'data-focus-key': 'undo-removal', class: 'quiet' }, () => {
+      this.undoing = true;
+      try {
+        this.store.mutate((doc) => removal.restore(doc));
+      } finally {
+        this.undoing = false;
+      }
+      this.lastRemoval = null;
+      this.hooks.clearErrors();
+      this.hooks.rerender('key:add-compartment');
+      this.hooks.announce('Undone: put back what was removed.');
+    });
+    return h('div', { class: 'undo-bar', role: 'status', 'data-testid': 'undo-bar' }, h('span', {}, removal.message), undo);
+  }
+
+  /** Records a removal (after the store changed) so that the bar offers Undo. */
+  private offerUndo(removal: Removal): void {
+    this.lastRemoval = removal;
+  }
 
   render(): void {
     this.renaming = null;
@@ -50,6 +110,7 @@ export class ModelForm {
     if (transfers.length === 0) transferRows.append(h('p', { class: 'empty' }, 'No transfers: drug stays where it is dosed. Add elimination or distribution.'));
 
     this.root.replaceChildren(
+      ...[this.undoBar()].filter((x): x is HTMLElement => x !== null),
       h(
         'fieldset',
         { class: 'group' },
@@ -181,8 +242,9 @@ export class ModelForm {
 
   private addCompartment(): void {
     const ids = new Set(this.store.compartmentIds());
-    let id = ids.size === 0 ? 'central' : '';
-    for (let n = ids.size + 1; id === '' || ids.has(id); n++) id = `cmt${n}`;
+    // Plain words: the first is the central compartment, later ones peripheral1, peripheral2…
+    let id = ids.has('central') ? '' : 'central';
+    for (let n = 1; id === '' || ids.has(id); n++) id = `peripheral${n}`;
     this.store.mutate(() => {
       this.store.list('compartments').push({ id, volume: `10 ${this.store.units.volume}` });
     });
@@ -195,33 +257,97 @@ export class ModelForm {
     const c = this.store.compartments[i];
     if (!c) return;
     const id = c.id;
-    let dropped = 0;
+    // The transfers to or from it go with it; each is named, and Undo puts all back in place.
+    const gone: { index: number; row: TransferDoc }[] = [];
+    this.store.transfers.forEach((t, k) => {
+      if (typeof id === 'string' && (t.from === id || t.to === id)) gone.push({ index: k, row: t });
+    });
+    const described = gone.map(({ row }) => `${String(row.from ?? '?')} → ${typeof row.to === 'string' ? row.to : 'out'}${typeof row.label === 'string' && row.label ? ` (${row.label})` : ''}`);
     this.store.mutate((doc) => {
       doc.compartments?.splice(i, 1);
-      if (Array.isArray(doc.transfers) && typeof id === 'string') {
-        const before = doc.transfers.length;
-        doc.transfers = doc.transfers.filter((t) => t.from !== id && t.to !== id);
-        dropped = before - doc.transfers.length;
-      }
+      if (Array.isArray(doc.transfers) && gone.length) doc.transfers = doc.transfers.filter((t) => !gone.some((g) => g.row === t));
+    });
+    const stillDosed = this.store.doses.some((d) => d.into === id) || this.store.thresholds.some((t) => t.compartment === id);
+    const message =
+      `Removed compartment ${String(id)}${gone.length ? ` and its ${gone.length === 1 ? 'transfer' : `${gone.length} transfers`}: ${described.join('; ')}` : ''}.` +
+      (stillDosed ? ` Doses or windows still name ${String(id)}; choose another compartment for them.` : '');
+    this.offerUndo({
+      message,
+      restore: (doc) => {
+        if (!Array.isArray(doc.compartments)) doc.compartments = [];
+        doc.compartments.splice(Math.min(i, doc.compartments.length), 0, c);
+        if (!Array.isArray(doc.transfers)) doc.transfers = [];
+        for (const g of gone) doc.transfers.splice(Math.min(g.index, doc.transfers.length), 0, g.row);
+      },
     });
     this.hooks.clearErrors();
     const left = this.store.compartments.length;
     this.hooks.rerender(left === 0 ? 'key:add-compartment' : `key:remove-compartment-${Math.min(i, left - 1)}`);
-    const stillDosed = this.store.doses.some((d) => d.into === id) || this.store.thresholds.some((t) => t.compartment === id);
-    this.hooks.announce(
-      `Removed compartment ${String(id)}${dropped ? ` and its ${dropped} transfer${dropped > 1 ? 's' : ''}` : ''}.` +
-        (stillDosed ? ` Doses or windows still name ${String(id)}; choose another compartment for them.` : ''),
-    );
+    this.hooks.announce(`${message} Undo puts ${gone.length ? 'them' : 'it'} back.`);
   }
 
+  /**
+   * Another kinetics for a transfer. Nothing typed is lost: a rate constant and a clearance
+   * are converted into each other through the volume of the compartment the route leaves
+   * (k = CL/V); values that cannot be carried over (a clearance on a switch to saturable) are
+   * kept aside and come back when the route is switched back; the announcement says which.
+   */
   private setKind(i: number, kind: TransferKind): void {
     const t = this.store.transfers[i];
     if (!t) return;
-    if (transferKind(t) === kind) return;
+    const was = transferKind(t);
+    if (was === kind) return;
     const p = `transfers[${i}]`;
+    const u = this.store.units;
+    const kept = { ...(formerKinetics.get(t) ?? {}) };
+    const old: Partial<Record<'k' | 'cl' | 'vmax' | 'km', unknown>> = {};
+    for (const key of ['k', 'cl', 'vmax', 'km'] as const) if (t[key] !== undefined) old[key] = t[key];
+    for (const key of Object.keys(old) as (keyof typeof old)[]) kept[key] = old[key];
+    const from = this.store.compartments.find((c) => c.id === t.from);
+    const volume = from?.volume === undefined ? null : inBase(from.volume, 'volume', u);
+    const next: Partial<Record<'k' | 'cl' | 'vmax' | 'km', unknown>> = {};
+    let said = '';
+    if (kind === 'cl' && old.k !== undefined && volume !== null && inBase(old.k, 'rateConstant', u) !== null) {
+      const cl = inScenarioUnit((inBase(old.k, 'rateConstant', u) as number) * volume, 'clearance', u);
+      if (cl) {
+        next.cl = cl;
+        said = `k ${String(old.k)} × V ${String(from?.volume)} = CL ${cl}`;
+      }
+    } else if (kind === 'k' && old.cl !== undefined && volume !== null && volume > 0 && inBase(old.cl, 'clearance', u) !== null) {
+      const k = inScenarioUnit((inBase(old.cl, 'clearance', u) as number) / volume, 'rateConstant', u);
+      if (k) {
+        next.k = k;
+        said = `CL ${String(old.cl)} / V ${String(from?.volume)} = k ${k}`;
+      }
+    }
+    // Values kept from an earlier switch come back when nothing was converted.
+    if (kind === 'mm') {
+      if (kept.vmax !== undefined) next.vmax = kept.vmax;
+      if (kept.km !== undefined) next.km = kept.km;
+    } else if (next[kind] === undefined && kept[kind] !== undefined) next[kind] = kept[kind];
     for (const key of ['k', 'cl', 'vmax', 'km'] as const) if (t[key] !== undefined) this.store.set(`${p}.${key}`, undefined);
+    for (const [key, value] of Object.entries(next)) this.store.set(`${p}.${key}`, value);
+    formerKinetics.set(t, kept);
     pendingKind.set(t, kind);
     this.hooks.rerender(`path:${p}`);
+    const aside = Object.entries(old)
+      .filter(([key]) => !(key in next) && !said)
+      .map(([key, value]) => `${key === 'vmax' ? 'Vmax' : key === 'km' ? 'Km' : key === 'cl' ? 'CL' : 'k'} ${String(value)}`);
+    const restored = Object.keys(next).length > 0 && !said ? ` Restored the ${kindWords[kind]} entered before.` : '';
+    const kindSentence = `Transfer ${i + 1} is now ${kindWords[kind]}.`;
+    const carry = said ? ` Converted through the volume of ${String(t.from)}: ${said}.` : '';
+    const keptWords = !said && aside.length ? ` ${aside.join(' and ')} kept aside: switch back to ${kindWords[was]} to restore ${aside.length > 1 ? 'them' : 'it'}.` : '';
+    this.hooks.announce(`${kindSentence}${carry}${restored}${keptWords}`);
+    this.note(`transfer-note-${i}`, `${carry.trim()}${restored}${keptWords}`.trim() || null);
+  }
+
+  /** A short note under the transfers, kept until the next render (the announcement is spoken once). */
+  private note(key: string, text: string | null): void {
+    const host = this.root.querySelectorAll('.transfer-row');
+    const i = Number(key.split('-').pop());
+    const row = host[i];
+    if (!row || !text) return;
+    row.append(h('p', { class: 'hint kinetics-note', 'data-testid': `kinetics-note-${i}`, role: 'status' }, text));
   }
 
   private addTransfer(): void {
@@ -240,12 +366,22 @@ export class ModelForm {
   }
 
   private removeTransfer(i: number): void {
+    const row = this.store.transfers[i];
+    if (!row) return;
     this.store.mutate((doc) => {
       doc.transfers?.splice(i, 1);
+    });
+    const message = `Removed transfer ${i + 1}: ${String(row.from ?? '?')} → ${typeof row.to === 'string' ? row.to : 'out'}${typeof row.label === 'string' && row.label ? ` (${row.label})` : ''}.`;
+    this.offerUndo({
+      message,
+      restore: (doc) => {
+        if (!Array.isArray(doc.transfers)) doc.transfers = [];
+        doc.transfers.splice(Math.min(i, doc.transfers.length), 0, row);
+      },
     });
     this.hooks.clearErrors();
     const left = this.store.transfers.length;
     this.hooks.rerender(left === 0 ? 'key:add-transfer' : `key:remove-transfer-${Math.min(i, left - 1)}`);
-    this.hooks.announce(`Removed transfer ${i + 1}.`);
+    this.hooks.announce(`${message} Undo puts it back.`);
   }
 }

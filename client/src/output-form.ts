@@ -5,7 +5,33 @@
 import { h } from './dom.ts';
 import { button, compartmentField, numberField, quantityField, selectField } from './fields.ts';
 import type { FormHooks } from './model-form.ts';
-import type { ScenarioStore } from './store.ts';
+import { timeValue, type UnitSet } from './quantity.ts';
+import type { ScenarioDoc, ScenarioStore } from './store.ts';
+
+/** Past this many reported times the page asks before running (a step typed in the wrong unit). */
+export const manyPointsLimit = 20_000;
+
+/**
+ * How many times the output grid of a scenario holds: (end − start)/step + 1, the step read
+ * in its own unit. Null when the form cannot tell (no step: the server picks 500 points; a
+ * value it cannot read here: the server judges it).
+ */
+export function reportedTimesOf(doc: ScenarioDoc, units: UnitSet): number | null {
+  const out = doc.output;
+  if (!out) return null;
+  const end = timeValue(out.end, units);
+  const start = out.start === undefined ? 0 : timeValue(out.start, units);
+  const step = timeValue(out.step, units);
+  if (end === null || start === null || step === null || !(step > 0) || !(end > start)) return null;
+  return Math.floor((end - start) / step + 1e-9) + 1;
+}
+
+/** The warning for a grid past the limit, or null. */
+export function manyPointsWarning(doc: ScenarioDoc, units: UnitSet): string | null {
+  const n = reportedTimesOf(doc, units);
+  if (n === null || n <= manyPointsLimit) return null;
+  return `This step gives ${n.toLocaleString('en')} reported times (more than ${manyPointsLimit.toLocaleString('en')}); check the step's unit — ${units.time} is the scenario's time unit.`;
+}
 
 const methodChoices: [string, string][] = [
   ['auto', 'auto — exact for linear models, adaptive otherwise'],
@@ -33,7 +59,20 @@ export class OutputForm {
     private readonly store: ScenarioStore,
     private readonly root: HTMLElement,
     private readonly hooks: FormHooks,
-  ) {}
+  ) {
+    // The warning under the output step follows every change of the span, step or units.
+    store.subscribe(() => this.refreshPointsWarning());
+  }
+
+  private pointsWarning: HTMLElement | null = null;
+
+  private refreshPointsWarning(): void {
+    const el = this.pointsWarning;
+    if (!el) return;
+    const text = manyPointsWarning(this.store.scenario, this.store.units);
+    el.textContent = text ?? '';
+    el.hidden = text === null;
+  }
 
   render(): void {
     const s = this.store;
@@ -107,6 +146,7 @@ export class OutputForm {
           quantityField(s, { path: 'output.end', label: 'End time', dim: 'time', required: true }),
           quantityField(s, { path: 'output.step', label: 'Output step', dim: 'time', placeholder: '500 points' }),
         ),
+        (this.pointsWarning = h('p', { class: 'field-warning', id: 'points-warning', 'data-testid': 'points-warning', role: 'status' })),
         h('div', { class: 'row' }, unitSelect('amount', 'Amount unit'), unitSelect('volume', 'Volume unit'), unitSelect('time', 'Time unit')),
         h('p', { class: 'hint' }, 'Plain numbers are read in these units, and results are reported in them.'),
       ),
@@ -119,6 +159,7 @@ export class OutputForm {
       ),
       details,
     );
+    this.refreshPointsWarning();
   }
 
   private addWindow(): void {

@@ -1,11 +1,11 @@
 /**
- * The concentration plot: chart.js line chart (parsing off, min–max decimation for long
- * series), linear or logarithmic y, target windows shaded, dose times marked, the kept
+ * The concentration plot: chart.js line chart (parsing off; the points come from curve.ts,
+ * smoothed and thinned to the canvas), linear or logarithmic y (the logarithmic axis by the
+ * report's rule, server/report/ticks.ts), target windows shaded, dose times marked, the kept
  * reference drawn dashed underneath the current run.
  */
 import {
   Chart,
-  Decimation,
   Legend,
   LinearScale,
   LineController,
@@ -18,16 +18,24 @@ import {
 } from 'chart.js';
 import type { SimulationResultJson } from '../../models/result-format.ts';
 import { fmt } from '../../models/summary-text.ts';
+import { logAxis, lowAfterRise, type Axis } from '../../server/report/ticks.ts';
+import { curvePoints, type CurvePoint, type CurveView } from './curve.ts';
 import { concentrationFactor, timeFactor } from './quantity.ts';
 import { doseMarksPlugin, windowBandPlugin, type Band } from './plot-plugins.ts';
 
 /** A data point as chart.js takes it with parsing off. */
-export interface XY {
-  x: number;
-  y: number;
-}
+export type XY = CurvePoint;
 
-Chart.register(LineController, LineElement, PointElement, LinearScale, LogarithmicScale, Tooltip, Legend, Decimation);
+Chart.register(LineController, LineElement, PointElement, LinearScale, LogarithmicScale, Tooltip, Legend);
+
+/**
+ * chart.js draws a solid line without tension through its "fast path", which puts every
+ * point of one pixel column on a vertical bar at their mean x: on a rising limb that is a
+ * staircase, on a falling one a row of notches. Any tension takes the ordinary path; this one
+ * moves the Bézier control points by a millionth of the point spacing, so the line is still
+ * the polyline through the points (curve.ts makes those dense enough to look smooth).
+ */
+const noFastPathTension = 1e-6;
 
 export const seriesPalette = ['#1f6f8b', '#b5562b', '#5a7d2c', '#7b4f9d', '#a0346a', '#3d5a80', '#8c6d1f', '#2a7f62'];
 const bandFills = ['rgba(76, 150, 120, 0.13)', 'rgba(190, 120, 60, 0.12)', 'rgba(110, 90, 170, 0.12)', 'rgba(60, 110, 170, 0.12)'];
@@ -57,15 +65,10 @@ function withAlpha(hex: string, alpha: number): string {
   return `rgba(${(n >> 16) & 255}, ${(n >> 8) & 255}, ${n & 255}, ${alpha})`;
 }
 
-function points(times: number[], values: (number | null)[], log: boolean, tf = 1, cf = 1): XY[] {
-  const out: XY[] = [];
-  for (let i = 0; i < times.length; i++) {
-    const y = values[i];
-    if (y === null || !Number.isFinite(y)) continue;
-    if (log && !(y > 0)) continue;
-    out.push({ x: times[i] * tf, y: y * cf });
-  }
-  return out;
+/** The log axis's tick labels by value, set when the axis is drawn. */
+function logTicks(axis: Axis): { ticks: { value: number; major: boolean }[]; labels: Map<number, string> } {
+  const ticks = [...axis.ticks.map((t) => ({ value: t.value, major: true })), ...axis.minor.map((value) => ({ value, major: false }))].sort((a, b) => a.value - b.value);
+  return { ticks, labels: new Map(axis.ticks.map((t) => [t.value, t.label])) };
 }
 
 export class PlotView {
@@ -81,15 +84,16 @@ export class PlotView {
       responsive: true,
       maintainAspectRatio: false,
       interaction: { mode: 'nearest', axis: 'x', intersect: false },
-      elements: { point: { radius: 0, hitRadius: 4, hoverRadius: 4 }, line: { borderWidth: 2, tension: 0 } },
+      elements: { point: { radius: 0, hitRadius: 4, hoverRadius: 4 }, line: { borderWidth: 2, tension: noFastPathTension } },
       scales: {
         x: { type: 'linear', title: { display: true, text: 'time' }, ticks: { maxTicksLimit: 12 } },
         y: { type: 'linear', title: { display: true, text: 'concentration' }, beginAtZero: true },
       },
       plugins: {
-        decimation: { enabled: true, algorithm: 'min-max' },
         legend: { position: 'bottom', labels: { boxWidth: 24, boxHeight: 2, usePointStyle: false } },
         tooltip: {
+          // Only reported times: the points added between them are for the line alone.
+          filter: (item) => (item.raw as XY).between !== true,
           callbacks: {
             title: (items) => {
               const u = this.state.current?.units;
@@ -115,9 +119,15 @@ export class PlotView {
     return this.state.current;
   }
 
+  /** The log axis in use (null on a linear axis), for the tick callbacks. */
+  private logScale: ReturnType<typeof logTicks> | null = null;
+
   update(next: Partial<PlotState>): void {
     this.state = { ...this.state, ...next };
     const { current, reference, selected, log } = this.state;
+    const whole = current ? { min: current.times[0] ?? 0, max: current.times[current.times.length - 1] ?? 1 } : { min: 0, max: 1 };
+    const shown = this.state.range ?? whole;
+    const view: CurveView = { min: shown.min, max: shown.max, pixels: this.chart.chartArea?.width || this.chart.width || 600 };
     const datasets: ChartDataset<'line', XY[]>[] = [];
     this.referenceNote = '';
     if (current) {
@@ -134,7 +144,7 @@ export class PlotView {
             const colour = colourOf(current, id);
             datasets.push({
               label: `${id} — reference`,
-              data: points(reference.times, s.concentration, log, tf, cf),
+              data: curvePoints(reference.times, s.concentration, log, view, tf, cf),
               borderColor: withAlpha(colour, 0.75),
               backgroundColor: withAlpha(colour, 0.75),
               borderDash: [6, 4],
@@ -150,7 +160,7 @@ export class PlotView {
         const colour = colourOf(current, id);
         datasets.push({
           label: s.label && s.label !== id ? `${id} (${s.label})` : id,
-          data: points(current.times, s.concentration, log),
+          data: curvePoints(current.times, s.concentration, log, view),
           borderColor: colour,
           backgroundColor: colour,
           order: 1,
@@ -188,27 +198,60 @@ export class PlotView {
       const hi = Math.max(dataHi, ...edges.filter((e) => e <= 1.6 * dataHi));
       y.type = log ? 'logarithmic' : 'linear';
       y.title = { display: true, text: `concentration (${current.units.concentration})${log ? ', log scale' : ''}` };
-      // chart.js fits y to the points inside the x range; these only widen it to the window edge
-      // and keep a log axis to five decades below the peak.
-      y.max = undefined;
-      y.suggestedMax = hi > 0 ? hi * (log ? 1.2 : 1.02) : undefined;
-      y.min = log ? (hi > 0 ? Math.max(lo, hi * 1e-5) : undefined) : 0;
+      if (log) {
+        // The report's rule: whole decades from the lowest value after the first rise (the
+        // zero before the first dose and the climb from it do not count) to the peak, at most
+        // four, labelled 0.1, 1, 10 with unlabelled 2…9 between.
+        const axis = logAxis(Number.isFinite(lo) && lo > 0 ? lo : hi / 1e4, hi > 0 ? hi : 1, 4);
+        this.logScale = logTicks(axis);
+        y.min = axis.min;
+        y.max = axis.max;
+        y.suggestedMax = undefined;
+      } else {
+        // chart.js fits y to the points inside the x range; this only widens it to the window edge.
+        this.logScale = null;
+        y.max = undefined;
+        y.suggestedMax = hi > 0 ? hi * 1.02 : undefined;
+        y.min = 0;
+      }
     }
+    this.configureYTicks();
     chart.update('none');
   }
 
-  /** Smallest positive and largest value of the drawn curves within [min, max]. */
+  /** Decade ticks with the report's labels on a log axis; chart.js's own on a linear one. */
+  private configureYTicks(): void {
+    const y = this.chart.options.scales?.y;
+    if (!y) return;
+    const logScale = this.logScale;
+    if (logScale) {
+      y.afterBuildTicks = (scale) => {
+        scale.ticks = logScale.ticks.filter((t) => t.value >= (scale.min as number) * (1 - 1e-9) && t.value <= (scale.max as number) * (1 + 1e-9)).map((t) => ({ ...t }));
+      };
+      y.ticks = { ...y.ticks, autoSkip: false, callback: (value) => logScale.labels.get(Number(value)) ?? '' };
+      y.grid = { ...y.grid, color: (ctx) => (ctx.tick?.major ? 'rgba(0, 0, 0, 0.16)' : 'rgba(0, 0, 0, 0.06)') };
+    } else {
+      y.afterBuildTicks = undefined;
+      y.ticks = { ...y.ticks, autoSkip: true, callback: undefined };
+      y.grid = { ...y.grid, color: undefined };
+    }
+  }
+
+  /**
+   * Largest value of the drawn curves within [min, max], and the smallest positive one once
+   * each curve has risen to a tenth of its peak there (the log axis's low end, as in the report).
+   */
   private visibleRange(datasets: ChartDataset<'line', XY[]>[], min: number, max: number): [number, number] {
     let lo = Infinity;
     let hi = 0;
     for (const d of datasets) {
-      for (const p of d.data) {
-        if (p.x < min || p.x > max) continue;
-        if (p.y > hi) hi = p.y;
-        if (p.y > 0 && p.y < lo) lo = p.y;
-      }
+      const inside = d.data.filter((p) => p.x >= min && p.x <= max);
+      const ys = inside.map((p) => p.y);
+      const peak = ys.reduce((a, b) => Math.max(a, b), 0);
+      hi = Math.max(hi, peak);
+      lo = Math.min(lo, lowAfterRise(ys, peak));
     }
-    return [Number.isFinite(lo) ? lo : 0, hi];
+    return [lo, hi];
   }
 
   private bands(): Band[] {

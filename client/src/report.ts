@@ -1,7 +1,9 @@
 /**
- * "Download report": sends the scenario on screen (and the kept compare reference, when
- * there is one) to /api/report and saves the PDF the server answers. Problems come back as
- * for a run: beside their fields (400) or in the summary (422, busy, unreachable).
+ * "Download report": sends the scenario of the run on screen (and the kept compare reference,
+ * when there is one) to /api/report and saves the PDF the server answers. When the form has
+ * changed since that run, the page runs it first (see main.ts), so the report and the screen
+ * always show the same run. Problems come back as for a run: beside their fields (400) or in
+ * the summary (422, busy, unreachable).
  */
 import type { Problem } from './api.ts';
 import { failureOf, unreachable } from './api.ts';
@@ -54,8 +56,11 @@ function save(blob: Blob, filename: string): void {
 }
 
 export interface ReportHooks {
-  /** The scenario as it stands in the forms. */
-  scenario: () => unknown;
+  /**
+   * The scenario of the run on screen, after running the form first when it changed since
+   * (`rerun`); null when that run did not succeed (its problems are already shown).
+   */
+  scenario: () => Promise<{ scenario: unknown; rerun: boolean } | null>;
   /** The kept reference's scenario, or null. */
   reference: () => unknown | null;
   announce: (message: string) => void;
@@ -68,7 +73,7 @@ export interface ReportHooks {
 export function addReportButton(anchor: HTMLElement, hooks: ReportHooks): HTMLButtonElement {
   const button = h(
     'button',
-    { type: 'button', id: 'download-report', 'data-testid': 'download-report', title: 'A printable PDF of the scenario on screen: model, regimen, plots, figures and the check of the numbers' },
+    { type: 'button', id: 'download-report', 'data-testid': 'download-report', title: 'A printable PDF of the run on screen (the form is run first if it changed): model, regimen, plots, figures and the check of the numbers' },
     'Download report',
   );
   anchor.after(button);
@@ -76,14 +81,23 @@ export function addReportButton(anchor: HTMLElement, hooks: ReportHooks): HTMLBu
     if (button.getAttribute('aria-busy') === 'true') return;
     button.setAttribute('aria-busy', 'true');
     button.disabled = true;
-    const reference = hooks.reference();
-    hooks.announce(reference === null ? 'Making the report…' : 'Making the report, with the kept reference drawn dashed…');
     try {
-      const outcome = await requestReport(structuredClone(hooks.scenario()), reference);
+      const shown = await hooks.scenario();
+      if (shown === null) {
+        hooks.announce('No report: the changed form did not run; the problems are listed with the run.');
+        return;
+      }
+      const reference = hooks.reference();
+      hooks.announce(reference === null ? 'Making the report…' : 'Making the report, with the kept reference drawn dashed…');
+      const outcome = await requestReport(structuredClone(shown.scenario), reference);
       switch (outcome.kind) {
         case 'ok':
           save(outcome.blob, outcome.filename);
-          hooks.announce(`Downloaded the report as ${outcome.filename}.`);
+          hooks.announce(
+            shown.rerun
+              ? `The form had changed since the last run, so it was run first; downloaded the report of that run (now on screen) as ${outcome.filename}.`
+              : `Downloaded the report of the run on screen as ${outcome.filename}.`,
+          );
           break;
         case 'invalid':
           hooks.showInvalid(outcome.problems);

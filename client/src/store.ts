@@ -86,7 +86,9 @@ export function emptyScenario(): ScenarioDoc {
     compartments: [],
     transfers: [],
     doses: [],
-    output: { end: '24 h', step: '15 min', thresholds: [] },
+    // Every time in the scenario's time unit (hours): a step in minutes beside hours invited
+    // "0.1" meant as hours and read as minutes.
+    output: { end: '24 h', step: '0.25 h', thresholds: [] },
   };
 }
 

@@ -29,12 +29,19 @@ function newestMtime(path: string): number {
 
 /**
  * Builds the page with the repository's vite config when dist/client/index.html is missing
- * or older than anything the bundle is made from (client/, the config, and the one engine
- * module the page imports at run time), so the test never drives a stale page.
+ * or older than anything the bundle is made from (client/, the config, the engine module and
+ * the report helpers the page imports at run time), so the test never drives a stale page.
  */
 export function ensureClientBuilt(): void {
   const index = join(clientDir, 'index.html');
-  const sources = [join(repoRoot, 'client'), join(repoRoot, 'vite.config.ts'), join(repoRoot, 'models/summary-text.ts')];
+  // The page also imports the report's pure helpers (log-axis ticks, dose-line words).
+  const sources = [
+    join(repoRoot, 'client'),
+    join(repoRoot, 'vite.config.ts'),
+    join(repoRoot, 'models/summary-text.ts'),
+    join(repoRoot, 'server/report/ticks.ts'),
+    join(repoRoot, 'server/report/dose-words.ts'),
+  ];
   const fresh = () => existsSync(index) && statSync(index).mtimeMs >= Math.max(...sources.map(newestMtime));
   if (fresh()) return;
   // Browser test files run in parallel processes, and the build empties dist/client first:
