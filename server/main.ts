@@ -3,23 +3,40 @@
  * http://127.0.0.1:8750 (PORT and HOST override; loopback unless HOST says otherwise).
  * The server answers only for the loopback names and HOST; ALLOWED_HOSTS (comma-separated)
  * adds names, e.g. when HOST is 0.0.0.0, which otherwise answers for any name.
+ *
+ * `npm start` runs the build of this file (dist/server/main.js, scripts/build-server.mjs)
+ * with plain node; `tsx server/main.ts` runs the sources. Each starts its workers in its own
+ * form: the built server the built worker beside it, the sources the worker's source.
  */
 import { spawnSync } from 'node:child_process';
 import { existsSync } from 'node:fs';
 import { availableParallelism } from 'node:os';
+import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { allowedHostsFor, createApp, defaultServerLimits } from './app.ts';
 import { loadSamples } from './samples.ts';
-import { defaultPoolMemory, SimulationPool } from './worker-pool.ts';
+import { defaultPoolMemory, SimulationPool, type WorkerModule } from './worker-pool.ts';
 
-const root = fileURLToPath(new URL('..', import.meta.url));
-const clientDir = fileURLToPath(new URL('../dist/client/', import.meta.url));
+// The build keeps this module's own URL (its other modules see their sources' URLs), so
+// the extension says which form is running.
+const built = import.meta.url.endsWith('.js');
+const worker: WorkerModule | undefined = built ? { kind: 'built', url: new URL('./simulation-worker.js', import.meta.url) } : undefined;
+
+/** The repository root: the nearest folder above this file that holds package.json (server/ or dist/server/ lie below it). */
+function projectRoot(): string {
+  let dir = dirname(fileURLToPath(import.meta.url));
+  while (!existsSync(join(dir, 'package.json')) && dirname(dir) !== dir) dir = dirname(dir);
+  return dir;
+}
+
+const root = projectRoot();
+const clientDir = join(root, 'dist', 'client') + '/';
 
 function ensureClientBuilt(): void {
   if (existsSync(`${clientDir}index.html`)) return;
   console.log('Building the page (first start)…');
-  const built = spawnSync('npx', ['vite', 'build', '--logLevel', 'warn'], { cwd: root, stdio: 'inherit' });
-  if (built.status !== 0) {
+  const page = spawnSync('npx', ['vite', 'build', '--logLevel', 'warn'], { cwd: root, stdio: 'inherit' });
+  if (page.status !== 0) {
     console.error('The page could not be built; the API will still answer. Run `npm run build` to see why.');
   }
 }
@@ -36,6 +53,7 @@ function main(): void {
     timeBudgetMs: defaultServerLimits.timeBudgetMs,
     maxQueue: 64,
     ...defaultPoolMemory,
+    ...(worker ? { worker } : {}),
   });
   const app = createApp({ pool, samples: loadSamples(), clientDir, limits: defaultServerLimits, allowedHosts });
   const server = app.listen(port, host, () => {

@@ -13,7 +13,13 @@ import { outputRows } from '../models/output-rows.ts';
 import { simulateModel } from '../models/simulate.ts';
 import type { Problem } from '../models/problems.ts';
 import type { JobReply, JobRequest } from './jobs.ts';
-import { buildReport } from './report/report.ts';
+
+type ReportModule = typeof import('./report/report.ts');
+/**
+ * The report writer (pdfkit, its fonts, the drawing code) is loaded by the first report job,
+ * not at start: a worker that only simulates never pays for it.
+ */
+let reportModule: ReportModule | null = null;
 
 function problems(status: number, list: Problem[]): Omit<JobReply, 'id'> {
   return { status, contentType: 'application/json', body: JSON.stringify({ problems: list }) };
@@ -71,12 +77,18 @@ export function answerSizeProblem(model: Model, maxBytes: number): Problem | nul
   };
 }
 
-export function runJob(job: Omit<JobRequest, 'id'>): Omit<JobReply, 'id'> {
+export async function runJob(job: Omit<JobRequest, 'id'>): Promise<Omit<JobReply, 'id'>> {
   if (job.kind === 'report') {
-    const report = buildReport(job.reference === undefined ? { scenario: job.scenario } : { scenario: job.scenario, reference: job.reference }, { maxOutputPoints: job.maxOutputPoints });
+    reportModule ??= await import('./report/report.ts');
+    const report = reportModule.buildReport(job.reference === undefined ? { scenario: job.scenario } : { scenario: job.scenario, reference: job.reference }, { maxOutputPoints: job.maxOutputPoints });
     if (!report.ok) return problems(report.status, report.problems);
     return { status: 200, contentType: 'application/pdf', body: report.bytes };
   }
+  return computeJob(job);
+}
+
+/** Simulate and validate: synchronous once the worker has started. */
+function computeJob(job: Omit<JobRequest, 'id'>): Omit<JobReply, 'id'> {
   const model = normaliseScenario(job.scenario);
   if (!model.ok) return problems(400, model.problems);
   const points = model.value.outputTimes.length;
@@ -118,10 +130,12 @@ export function runJob(job: Omit<JobRequest, 'id'>): Omit<JobReply, 'id'> {
   return { status: 200, contentType: 'application/json', body: text };
 }
 
-parentPort?.on('message', (job: JobRequest) => {
+// The pool hands a worker one job at a time, so a report job awaiting its module never
+// overlaps another job here.
+parentPort?.on('message', async (job: JobRequest) => {
   let reply: Omit<JobReply, 'id'>;
   try {
-    reply = runJob(job);
+    reply = await runJob(job);
   } catch (e) {
     reply = problems(500, [{ path: '', message: `internal error: ${e instanceof Error ? e.message : String(e)}` }]);
   }

@@ -5,8 +5,31 @@
  * others for long nor takes the server's memory with it.
  */
 import { setPriority } from 'node:os';
-import { Worker } from 'node:worker_threads';
+import { Worker, type WorkerOptions } from 'node:worker_threads';
 import type { JobReply, JobRequest } from './jobs.ts';
+
+/**
+ * The module a worker thread runs. 'built': a JavaScript file of the build (dist/server/),
+ * run by plain node. 'source': a TypeScript module, run through tsx's loader, which
+ * worker-entry.mjs registers in the thread (worker threads do not inherit it) before
+ * importing the module; that compiles the engine at every start, seconds on a busy
+ * machine. Whoever starts a worker says which: nothing here looks at what lies in dist/,
+ * so a missing or stale build never reaches the tests, which run the sources.
+ */
+export type WorkerModule = { kind: 'built'; url: URL } | { kind: 'source'; url: URL };
+
+const sourceEntry = new URL('./worker-entry.mjs', import.meta.url);
+
+/** Starts a worker thread running `module`; the options are node's own. */
+export function startWorker(module: WorkerModule, options: WorkerOptions = {}): Worker {
+  if (module.kind === 'built') return new Worker(module.url, options);
+  const data: unknown = options.workerData;
+  const workerData = typeof data === 'object' && data !== null ? { ...data, module: module.url.href } : { module: module.url.href };
+  return new Worker(sourceEntry, { ...options, workerData });
+}
+
+/** The simulation worker's TypeScript source: the pool's default (tests, `tsx server/main.ts`). */
+export const simulationWorkerSource: WorkerModule = { kind: 'source', url: new URL('./simulation-worker.ts', import.meta.url) };
 
 export interface PoolOptions {
   size: number;
@@ -29,6 +52,11 @@ export interface PoolOptions {
    * while long ones run. Linux only (other systems keep every thread equal).
    */
   longJobMs?: number;
+  /**
+   * The module each worker runs: the built dist/server/simulation-worker.js when the built
+   * server starts the pool (main.ts), else the TypeScript source through tsx.
+   */
+  worker?: WorkerModule;
 }
 
 export const defaultPoolMemory = { workerHeapMb: 1024, memoryCeilingMb: 3072 } as const;
@@ -60,9 +88,6 @@ interface Slot {
   /** The thread runs at lowered priority. */
   lowered: boolean;
 }
-
-const entry = new URL('./worker-entry.mjs', import.meta.url);
-const workerModule = new URL('./simulation-worker.ts', import.meta.url).href;
 
 function errorReply(status: number, message: string, path = ''): Reply {
   return { status, contentType: 'application/json', body: JSON.stringify({ problems: [{ path, message }] }) };
@@ -121,7 +146,7 @@ export class SimulationPool {
   }
 
   private spawn(): Slot {
-    const worker = new Worker(entry, { workerData: { module: workerModule }, resourceLimits: { maxOldGenerationSizeMb: this.workerHeapMb } });
+    const worker = startWorker(this.options.worker ?? simulationWorkerSource, { resourceLimits: { maxOldGenerationSizeMb: this.workerHeapMb } });
     const slot: Slot = { worker, ready: false, current: null, timer: null, startedAt: 0, tid: null, longTimer: null, lowered: false };
     // Nothing thrown here may leave an event handler: it would end the process.
     worker.on('message', (reply: JobReply | { ready: true; tid: number | null }) => {
