@@ -6,6 +6,7 @@
  */
 import {
   Chart,
+  Interaction,
   Legend,
   LinearScale,
   LineController,
@@ -15,6 +16,8 @@ import {
   Tooltip,
   type ChartDataset,
   type ChartOptions,
+  type InteractionItem,
+  type InteractionModeFunction,
 } from 'chart.js';
 import type { SimulationResultJson } from '../../models/result-format.ts';
 import { fmt } from '../../models/summary-text.ts';
@@ -36,6 +39,39 @@ Chart.register(LineController, LineElement, PointElement, LinearScale, Logarithm
  * the polyline through the points (curve.ts makes those dense enough to look smooth).
  */
 const noFastPathTension = 1e-6;
+
+declare module 'chart.js' {
+  interface InteractionModeMap {
+    reported: InteractionModeFunction;
+  }
+}
+
+/**
+ * Hover and tooltips at reported times only: for each curve, its reported point nearest the
+ * pointer in x. The points curve.ts adds between reported times are for the line alone, so a
+ * tooltip never shows an interpolated value as if it had been computed.
+ */
+Interaction.modes.reported = (chart, e) => {
+  const items: InteractionItem[] = [];
+  if (e.x === null) return items;
+  chart.data.datasets.forEach((dataset, datasetIndex) => {
+    if (!chart.isDatasetVisible(datasetIndex)) return;
+    const elements = chart.getDatasetMeta(datasetIndex).data;
+    const data = dataset.data as unknown as XY[];
+    let best = -1;
+    let distance = Infinity;
+    for (let i = 0; i < elements.length; i++) {
+      if (data[i]?.between) continue;
+      const d = Math.abs(elements[i].x - (e.x as number));
+      if (d < distance) {
+        distance = d;
+        best = i;
+      }
+    }
+    if (best >= 0 && distance <= 40) items.push({ element: elements[best], datasetIndex, index: best });
+  });
+  return items;
+};
 
 export const seriesPalette = ['#1f6f8b', '#b5562b', '#5a7d2c', '#7b4f9d', '#a0346a', '#3d5a80', '#8c6d1f', '#2a7f62'];
 const bandFills = ['rgba(76, 150, 120, 0.13)', 'rgba(190, 120, 60, 0.12)', 'rgba(110, 90, 170, 0.12)', 'rgba(60, 110, 170, 0.12)'];
@@ -83,7 +119,7 @@ export class PlotView {
       animation: false,
       responsive: true,
       maintainAspectRatio: false,
-      interaction: { mode: 'nearest', axis: 'x', intersect: false },
+      interaction: { mode: 'reported', axis: 'x', intersect: false },
       elements: { point: { radius: 0, hitRadius: 4, hoverRadius: 4 }, line: { borderWidth: 2, tension: noFastPathTension } },
       scales: {
         x: { type: 'linear', title: { display: true, text: 'time' }, ticks: { maxTicksLimit: 12 } },
@@ -92,8 +128,6 @@ export class PlotView {
       plugins: {
         legend: { position: 'bottom', labels: { boxWidth: 24, boxHeight: 2, usePointStyle: false } },
         tooltip: {
-          // Only reported times: the points added between them are for the line alone.
-          filter: (item) => (item.raw as XY).between !== true,
           callbacks: {
             title: (items) => {
               const u = this.state.current?.units;

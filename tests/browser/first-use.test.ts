@@ -186,6 +186,17 @@ describe('first use of the page', () => {
     });
     expect(zoomed.reported).toBeGreaterThan(40);
     expect(zoomed.added).toBeGreaterThan(zoomed.reported);
+    // Hovering between two reported times shows the nearer reported one, never an added point.
+    const at = await page.evaluate(() => {
+      const c = window.__tidemark.chart;
+      return { x: c.scales.x.getPixelForValue(1.1), y: c.scales.y.getPixelForValue(4) };
+    });
+    const box = (await page.getByTestId('plot').boundingBox())!;
+    await page.mouse.move(box.x + at.x, box.y + at.y);
+    await expect.poll(() => page.evaluate(() => window.__tidemark.chart.tooltip?.dataPoints?.length ?? 0)).toBeGreaterThan(0);
+    const hovered = await page.evaluate(() => window.__tidemark.chart.tooltip!.dataPoints.map((d) => d.raw as { x: number; between?: boolean }));
+    expect(hovered.map((p) => p.x)).toEqual([1]);
+    expect(hovered[0].between).toBeUndefined();
     noPageErrors(record);
   }, stepTimeout);
 
