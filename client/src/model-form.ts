@@ -6,7 +6,8 @@ import { fmt } from '../../models/summary-text.ts';
 import { h } from './dom.ts';
 import { button, compartmentField, quantityField, refreshCompartmentSelects, selectField, textField } from './fields.ts';
 import { isNumberText, scenarioUnitOf, splitQuantity, unitSize, type Dim, type UnitSet } from './quantity.ts';
-import type { CompartmentDoc, ScenarioDoc, ScenarioStore, TransferDoc } from './store.ts';
+import type { CompartmentDoc, ScenarioStore, TransferDoc } from './store.ts';
+import { UndoOffer } from './undo.ts';
 
 export interface FormHooks {
   /** Re-render every form, keeping keyboard focus where it was. */
@@ -43,11 +44,6 @@ function inScenarioUnit(base: number, dim: Dim, u: UnitSet): string | null {
   return size === null || !Number.isFinite(base) ? null : `${Number((base / size).toPrecision(4))} ${unit}`;
 }
 
-/** What a removal took out, to put back with Undo. */
-interface Removal {
-  message: string;
-  restore(doc: ScenarioDoc): void;
-}
 
 export function transferKind(t: TransferDoc): TransferKind {
   if (t.vmax !== undefined || t.km !== undefined) return 'mm';
@@ -62,39 +58,10 @@ export class ModelForm {
     private readonly root: HTMLElement,
     private readonly hooks: FormHooks,
   ) {
-    // Undo is offered for the last removal until the scenario changes in any other way.
-    store.subscribe(() => {
-      if (this.undoing || !this.lastRemoval) return;
-      this.lastRemoval = null;
-      this.root.querySelector('.undo-bar')?.remove();
-    });
+    this.undo = new UndoOffer(store, root, hooks, 'model');
   }
 
-  private lastRemoval: Removal | null = null;
-  private undoing = false;
-
-  private undoBar(): HTMLElement | null {
-    const removal = this.lastRemoval;
-    if (!removal) return null;
-    const undo = button('Undo', { 'data-testid': 'undo-removal', 'data-focus-key': 'undo-removal', class: 'quiet' }, () => {
-      this.undoing = true;
-      try {
-        this.store.mutate((doc) => removal.restore(doc));
-      } finally {
-        this.undoing = false;
-      }
-      this.lastRemoval = null;
-      this.hooks.clearErrors();
-      this.hooks.rerender('key:add-compartment');
-      this.hooks.announce('Undone: put back what was removed.');
-    });
-    return h('div', { class: 'undo-bar', role: 'status', 'data-testid': 'undo-bar' }, h('span', {}, removal.message), undo);
-  }
-
-  /** Records a removal (after the store changed) so that the bar offers Undo. */
-  private offerUndo(removal: Removal): void {
-    this.lastRemoval = removal;
-  }
+  private readonly undo: UndoOffer;
 
   render(): void {
     this.renaming = null;
@@ -110,7 +77,7 @@ export class ModelForm {
     if (transfers.length === 0) transferRows.append(h('p', { class: 'empty' }, 'No transfers: drug stays where it is dosed. Add elimination or distribution.'));
 
     this.root.replaceChildren(
-      ...[this.undoBar()].filter((x): x is HTMLElement => x !== null),
+      ...[this.undo.bar()].filter((x): x is HTMLElement => x !== null),
       h(
         'fieldset',
         { class: 'group' },
@@ -271,8 +238,9 @@ export class ModelForm {
     const message =
       `Removed compartment ${String(id)}${gone.length ? ` and its ${gone.length === 1 ? 'transfer' : `${gone.length} transfers`}: ${described.join('; ')}` : ''}.` +
       (stillDosed ? ` Doses or windows still name ${String(id)}; choose another compartment for them.` : '');
-    this.offerUndo({
+    this.undo.offer({
       message,
+      focusAfter: `path:compartments[${i}].id`,
       restore: (doc) => {
         if (!Array.isArray(doc.compartments)) doc.compartments = [];
         doc.compartments.splice(Math.min(i, doc.compartments.length), 0, c);
@@ -372,8 +340,9 @@ export class ModelForm {
       doc.transfers?.splice(i, 1);
     });
     const message = `Removed transfer ${i + 1}: ${String(row.from ?? '?')} → ${typeof row.to === 'string' ? row.to : 'out'}${typeof row.label === 'string' && row.label ? ` (${row.label})` : ''}.`;
-    this.offerUndo({
+    this.undo.offer({
       message,
+      focusAfter: `path:transfers[${i}].from`,
       restore: (doc) => {
         if (!Array.isArray(doc.transfers)) doc.transfers = [];
         doc.transfers.splice(Math.min(i, doc.transfers.length), 0, row);

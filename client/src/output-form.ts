@@ -7,6 +7,7 @@ import { button, compartmentField, numberField, quantityField, selectField } fro
 import type { FormHooks } from './model-form.ts';
 import { timeValue, type UnitSet } from './quantity.ts';
 import type { ScenarioDoc, ScenarioStore } from './store.ts';
+import { UndoOffer } from './undo.ts';
 
 /** Past this many reported times the page asks before running (a step typed in the wrong unit). */
 export const manyPointsLimit = 20_000;
@@ -62,7 +63,10 @@ export class OutputForm {
   ) {
     // The warning under the output step follows every change of the span, step or units.
     store.subscribe(() => this.refreshPointsWarning());
+    this.undo = new UndoOffer(store, root, hooks, 'output');
   }
+
+  private readonly undo: UndoOffer;
 
   private pointsWarning: HTMLElement | null = null;
 
@@ -135,6 +139,7 @@ export class OutputForm {
     });
 
     this.root.replaceChildren(
+      ...[this.undo.bar()].filter((x): x is HTMLElement => x !== null),
       h(
         'fieldset',
         { class: 'group' },
@@ -178,13 +183,24 @@ export class OutputForm {
   }
 
   private removeWindow(i: number): void {
+    const row = this.store.thresholds[i];
+    if (!row) return;
     this.store.mutate((doc) => {
       doc.output?.thresholds?.splice(i, 1);
+    });
+    const edges = [row.above !== undefined ? `from ${String(row.above)}` : '', row.below !== undefined ? `to ${String(row.below)}` : ''].filter(Boolean).join(' ');
+    const message = `Removed target window ${i + 1} (${String(row.compartment ?? '?')}${edges ? ` ${edges}` : ''}).`;
+    this.undo.offer({
+      message,
+      focusAfter: `path:output.thresholds[${i}].above`,
+      restore: () => {
+        this.store.thresholdList().splice(Math.min(i, this.store.thresholds.length), 0, row);
+      },
     });
     this.hooks.clearErrors();
     const left = this.store.thresholds.length;
     this.hooks.rerender(left === 0 ? 'key:add-window' : `key:remove-window-${Math.min(i, left - 1)}`);
-    this.hooks.announce(`Removed target window ${i + 1}.`);
+    this.hooks.announce(`${message} Undo puts it back.`);
   }
 }
 

@@ -7,6 +7,7 @@ import { button, compartmentField, numberField, quantityField, selectField, text
 import type { FormHooks } from './model-form.ts';
 import { addTime, quantityLabel, scaleQuantity } from './quantity.ts';
 import type { DoseDoc, ScenarioStore } from './store.ts';
+import { UndoOffer } from './undo.ts';
 
 export type DoseForm = 'bolus' | 'duration' | 'rate';
 export type RepeatMode = 'count' | 'until' | 'end';
@@ -31,7 +32,11 @@ export class RegimenForm {
     private readonly store: ScenarioStore,
     private readonly root: HTMLElement,
     private readonly hooks: FormHooks,
-  ) {}
+  ) {
+    this.undo = new UndoOffer(store, root, hooks, 'regimen');
+  }
+
+  private readonly undo: UndoOffer;
 
   render(): void {
     const doses = this.store.doses;
@@ -39,6 +44,7 @@ export class RegimenForm {
     doses.forEach((d, i) => cards.append(this.doseCard(d, i)));
     if (doses.length === 0) cards.append(h('p', { class: 'empty' }, 'No doses yet. Add a dose line; a repeated regimen is one line with an interval.'));
     this.root.replaceChildren(
+      ...[this.undo.bar()].filter((x): x is HTMLElement => x !== null),
       cards,
       h(
         'div',
@@ -198,12 +204,24 @@ export class RegimenForm {
   }
 
   private removeDose(i: number): void {
+    const row = this.store.doses[i];
+    if (!row) return;
     this.store.mutate((doc) => {
       doc.doses?.splice(i, 1);
+    });
+    const u = this.store.units;
+    const message = `Removed dose line ${i + 1}${typeof row.label === 'string' && row.label ? ` — ${row.label}` : ''} (${quantityLabel(row.amount, 'amount', u)} into ${String(row.into ?? '?')}).`;
+    this.undo.offer({
+      message,
+      focusAfter: `path:doses[${i}].amount`,
+      restore: (doc) => {
+        if (!Array.isArray(doc.doses)) doc.doses = [];
+        doc.doses.splice(Math.min(i, doc.doses.length), 0, row);
+      },
     });
     this.hooks.clearErrors();
     const left = this.store.doses.length;
     this.hooks.rerender(left === 0 ? 'key:add-dose' : `key:remove-dose-${Math.min(i, left - 1)}`);
-    this.hooks.announce(`Removed dose line ${i + 1}.`);
+    this.hooks.announce(`${message} Undo puts it back.`);
   }
 }

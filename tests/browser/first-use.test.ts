@@ -292,17 +292,28 @@ describe('first use of the page', () => {
 
     // Remove central: both of its transfers go, and are named.
     await page.getByRole('button', { name: 'Remove compartment central' }).click();
-    const bar = page.getByTestId('undo-bar');
+    const bar = page.getByTestId('undo-bar-model');
     await expect.poll(() => bar.textContent()).toContain('Removed compartment central and its 2 transfers: gut → central (absorption); central → out (renal and hepatic clearance).');
     expect(((await scenarioOf(page)).transfers as unknown[]).length).toBe(0);
-    await page.getByTestId('undo-removal').click();
+    await page.getByTestId('undo-model').click();
     expect(await scenarioOf(page)).toEqual(before);
-    expect(await page.getByTestId('undo-bar').count()).toBe(0);
+    expect(await page.getByTestId('undo-bar-model').count()).toBe(0);
     // Undo is for the last removal only: any other change withdraws it.
     await page.getByRole('button', { name: 'Remove transfer 1' }).click();
-    expect(await page.getByTestId('undo-bar').textContent()).toContain('Removed transfer 1: gut → central (absorption).');
+    expect(await page.getByTestId('undo-bar-model').textContent()).toContain('Removed transfer 1: gut → central (absorption).');
     await typeInto(page, 'title', 'Changed');
-    expect(await page.getByTestId('undo-bar').count()).toBe(0);
+    expect(await page.getByTestId('undo-bar-model').count()).toBe(0);
+
+    // A dose line and a target window come back the same way.
+    const now = await scenarioOf(page);
+    await page.getByRole('button', { name: 'Remove dose line 1' }).click();
+    expect(await page.getByTestId('undo-bar-regimen').textContent()).toContain('Removed dose line 1 — maintenance (400 mg into gut).');
+    await page.getByTestId('undo-regimen').click();
+    expect(await scenarioOf(page)).toEqual(now);
+    await page.getByRole('button', { name: 'Remove target window 1' }).click();
+    expect(await page.getByTestId('undo-bar-output').textContent()).toContain('Removed target window 1 (central from 4 mg/L to 12 mg/L).');
+    await page.getByTestId('undo-output').click();
+    expect(await scenarioOf(page)).toEqual(now);
     noPageErrors(record);
   }, stepTimeout);
 });
