@@ -1,10 +1,11 @@
 /**
- * What each command computes and says: simulate, report, validate, schema. Returns the exit
+ * What each command computes and says: simulate, report, validate, schema, verify. Returns the exit
  * code, the text for stdout and stderr, and the file to write; writing it, and running the
  * computation under the time limit, is the program's part (cli.ts). Exit 0 on success, 1
  * when the scenario is invalid or the computation fails, 2 on a usage error. Errors are
  * "path: message" lines, never stack traces; user text in them has its control characters
- * shown as escapes.
+ * shown as escapes. Path arguments are read from the user's folder (user-folder.ts), and a
+ * file written is named with its absolute path.
  */
 import { readFileSync } from 'node:fs';
 import { summaryText } from '../models/summary-text.ts';
@@ -13,6 +14,9 @@ import { parseOptions, parseTimeLimit, usage } from './cli-options.ts';
 import { buildReport } from './report/report.ts';
 import { sameFile } from './same-file.ts';
 import { visibleLines, visibleText } from './terminal-text.ts';
+import { fromUserFolder } from './user-folder.ts';
+import type { ReferenceCase } from './verify/cases.ts';
+import { verificationTable, verify } from './verify/run.ts';
 
 export interface CliOutcome {
   code: number;
@@ -62,13 +66,30 @@ function finish(outcome: CliOutcome): CliOutcome {
   return { ...outcome, stdout: visibleLines(outcome.stdout), stderr: visibleLines(outcome.stderr) };
 }
 
-export function runCli(args: string[]): CliOutcome {
-  return finish(run(args));
+export interface CliContext {
+  /** The folder relative paths are read from (default: the current folder). */
+  folder?: string;
+  /** The reference cases of verify (default: all of server/verify/cases.ts); tests pass a broken one. */
+  cases?: ReferenceCase[];
 }
 
-function run(args: string[]): CliOutcome {
+export function runCli(args: string[], context: CliContext = {}): CliOutcome {
+  return finish(run(args, context));
+}
+
+function run(args: string[], context: CliContext): CliOutcome {
+  // --help (or -h) anywhere asks for the summary, not for a command.
+  if (args.includes('--help') || args.includes('-h')) return { code: 0, stdout: usage + '\n', stderr: '' };
   const [command, ...rest] = args;
-  const { positional, options, error } = parseOptions(rest);
+  const parsed = parseOptions(rest);
+  const { options, error } = parsed;
+  // Every path argument, relative to the user's folder: positional (scenario files), --out, --reference.
+  const folder = context.folder ?? process.cwd();
+  const positional = parsed.positional.map((p) => fromUserFolder(folder, p));
+  for (const name of ['out', 'reference']) {
+    const value = options.get(name);
+    if (value !== undefined) options.set(name, fromUserFolder(folder, value));
+  }
   const fail = (message: string): CliOutcome => ({ code: 2, stdout: '', stderr: `${message}\n\n${usage}\n` });
   if (error) return fail(visibleText(error));
   const unknownOption = (allowed: string[]): CliOutcome | null => {
@@ -85,11 +106,11 @@ function run(args: string[]): CliOutcome {
       const input = readScenario(positional[0]);
       if (!input.ok) return fail(input.message);
       const model = normaliseScenario(input.value);
-      if (!model.ok) return problems(model.problems, positional[0]);
+      if (!model.ok) return problems(model.problems, parsed.positional[0]);
       const m = model.value;
       return {
         code: 0,
-        stdout: `${visibleText(positional[0])}: valid — ${m.compartments.length} compartments, ${m.transfers.length} transfers, ${m.administrations.length} administrations, ${m.linear ? 'linear' : 'saturable'} model\n`,
+        stdout: `${visibleText(parsed.positional[0])}: valid — ${m.compartments.length} compartments, ${m.transfers.length} transfers, ${m.administrations.length} administrations, ${m.linear ? 'linear' : 'saturable'} model\n`,
         stderr: '',
       };
     }
@@ -107,7 +128,7 @@ function run(args: string[]): CliOutcome {
       const input = readScenario(positional[0]);
       if (!input.ok) return fail(input.message);
       const result = simulate(input.value);
-      if (!result.ok) return problems(result.problems, positional[0]);
+      if (!result.ok) return problems(result.problems, parsed.positional[0]);
       const r = result.value;
       // The summary is read on a terminal: the title and warnings (user text) on one line each.
       const text =
@@ -118,14 +139,14 @@ function run(args: string[]): CliOutcome {
             : resultToJsonText(r, 2) + '\n';
       const warnings = format === 'text' ? '' : r.diagnostics.warnings.map((w) => `warning: ${visibleText(w)}\n`).join('');
       return out !== undefined
-        ? { code: 0, stdout: '', stderr: warnings + `wrote ${visibleText(out)}\n`, file: { path: out, text } }
+        ? { code: 0, stdout: '', stderr: warnings + `wrote result to ${visibleText(out)}\n`, file: { path: out, text } }
         : { code: 0, stdout: text, stderr: warnings };
     }
     case 'report': {
       const wrong = unknownOption(['out', 'reference', 'time-limit']);
       if (wrong) return wrong;
       if (!limit.ok) return fail(visibleText(limit.message));
-      if (positional.length > 1) return fail(`unexpected argument '${visibleText(positional[1])}'`);
+      if (positional.length > 1) return fail(`unexpected argument '${visibleText(parsed.positional[1])}'`);
       const referenceFile = options.get('reference');
       const inputs: [string, string | undefined][] = [
         ['scenario file', positional[0]],
@@ -145,21 +166,32 @@ function run(args: string[]): CliOutcome {
         reference = read.value;
       }
       const report = buildReport(reference === undefined ? { scenario: input.value } : { scenario: input.value, reference });
-      if (!report.ok) return problems(report.problems, positional[0]);
-      const out = chosen ?? report.fileName;
+      if (!report.ok) return problems(report.problems, parsed.positional[0]);
+      const out = chosen ?? fromUserFolder(folder, report.fileName);
       // The default name comes from the title: it could still be an input's name.
       const clash = chosen === undefined ? overwritesInput(out, inputs) : null;
       if (clash) return fail(clash);
       return {
         code: 0,
         stdout: '',
-        stderr: `wrote ${visibleText(out)} (${report.pages} pages, scenario fingerprint ${report.fingerprint})\n`,
+        stderr: `wrote report to ${visibleText(out)} (${report.pages} pages, scenario fingerprint ${report.fingerprint})\n`,
         binaryFile: { path: out, bytes: report.bytes },
       };
     }
+    case 'verify': {
+      const wrong = unknownOption(['out']);
+      if (wrong) return wrong;
+      if (parsed.positional.length > 0) return fail(`unexpected argument '${visibleText(parsed.positional[0])}'`);
+      const record = verify(context.cases);
+      const out = options.get('out');
+      const code = record.passed ? 0 : 1;
+      const table = verificationTable(record);
+      return out === undefined
+        ? { code, stdout: table, stderr: '' }
+        : { code, stdout: table, stderr: `wrote verification record to ${visibleText(out)}\n`, file: { path: out, text: JSON.stringify(record, null, 2) + '\n' } };
+    }
     case undefined:
     case 'help':
-    case '--help':
       return { code: command === undefined ? 2 : 0, stdout: command === undefined ? '' : usage + '\n', stderr: command === undefined ? usage + '\n' : '' };
     default:
       return fail(`unknown command '${visibleText(command)}'`);

@@ -8,19 +8,29 @@ export const defaultTimeLimitSeconds = 600;
 
 export const usage = `Tidemark — pharmacokinetic compartment-model simulator
 
-usage:
-  tidemark simulate FILE [--format json|csv|text] [--out FILE] [--time-limit SECONDS]
-                                 simulate a scenario (JSON result on stdout by default;
-                                 text = a readable summary of the figures)
-  tidemark report FILE [--out report.pdf] [--reference FILE] [--time-limit SECONDS]
-                                 write the printable concentration report (PDF; by default
-                                 tidemark-<title>-<fingerprint>.pdf here); a reference
-                                 scenario is drawn dashed over the curves
-  tidemark validate FILE                                     check a scenario and list every problem
-  tidemark schema                                            print the JSON Schema of the scenario format
+usage: tidemark COMMAND [FILE] [options]        (from the repository: npm run -s cli -- COMMAND …)
 
-  --time-limit SECONDS           stop a computation that runs longer (default ${defaultTimeLimitSeconds}; 0 for none)
-  --out FILE                     written whole or not at all, never over an input file
+commands:
+  simulate FILE    simulate a scenario: the JSON result on stdout, or
+                   --format csv (one row per time) or --format text (a readable summary)
+                   options: [--format json|csv|text] [--out FILE] [--time-limit SECONDS]
+  report FILE      write the printable concentration report (PDF), by default as
+                   tidemark-<title>-<fingerprint>.pdf in the current folder
+                   options: [--out report.pdf] [--reference FILE] [--time-limit SECONDS]
+                   (--reference: a second scenario drawn dashed over the curves)
+  validate FILE    check a scenario and list every problem with its place in the file
+  schema           print the JSON Schema of the scenario format
+  verify           check this installation: run published reference cases and print
+                   case, source, expected, got, error, tolerance and verdict; exit 1 if any fails
+                   options: [--out record.json] (the record as JSON, for a validation file)
+  help             this summary
+
+options:
+  --out FILE                 written whole or not at all, never over an input file
+  --time-limit SECONDS       stop a computation that runs longer (default ${defaultTimeLimitSeconds}; 0 for none)
+
+Relative paths are read from the current folder. Exit status: 0 success, 1 invalid scenario,
+failed computation, failed verification or unwritable output, 2 usage error.
 
 Results are model simulations for review, not dosing advice.`;
 

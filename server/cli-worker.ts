@@ -23,10 +23,10 @@ function toMessage(o: CliOutcome): { message: WorkerOutcome; transfer: ArrayBuff
   return { message: { code: o.code, stdout, stderr: o.stderr, ...(file ? { file } : {}) }, transfer };
 }
 
-parentPort?.on('message', (args: string[]) => {
+parentPort?.on('message', ({ args, folder }: { args: string[]; folder: string }) => {
   let outcome: CliOutcome;
   try {
-    outcome = runCli(args);
+    outcome = runCli(args, { folder });
   } catch (e) {
     // A defect, not a user error: say so plainly, without a stack trace.
     outcome = { code: 1, stdout: '', stderr: `internal error: ${e instanceof Error ? e.message : String(e)}\nPlease report this with the scenario file.\n` };

@@ -1,22 +1,29 @@
 /**
- * Command line: simulate, report, validate, schema (the commands are in cli-commands.ts).
+ * Command line: simulate, report, validate, schema, verify (the commands are in cli-commands.ts).
  * Exit 0 on success, 1 when the scenario is invalid, the computation fails or exceeds its
  * time limit, or the output cannot be written; 2 on a usage error. Errors go to stderr as
  * "path: message" lines, never as stack traces.
  *
  * As a program, simulate and report run in a worker thread stopped at --time-limit, and
- * their output file is written whole or not at all (write-file-atomic.ts).
+ * their output file is written whole or not at all (write-file-atomic.ts). Relative paths are
+ * read from the folder the user typed the command in (user-folder.ts), also under `npm run`.
+ *
+ * Output piped into a program that stops reading (`… | head`) ends quietly: the rest of the
+ * output is dropped and the command keeps its own exit status (0 when it succeeded), rather
+ * than dying of SIGPIPE (status 141 in a shell) — so that `set -o pipefail` scripts do not fail
+ * because the reader had seen enough, while a failing verify still exits 1.
  */
 import { realpathSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 import { isMainThread, Worker } from 'node:worker_threads';
-import type { CliOutcome } from './cli-commands.ts';
+import type { CliContext, CliOutcome } from './cli-commands.ts';
 import { parseOptions, parseTimeLimit, timeLimitMessage } from './cli-options.ts';
 import type { WorkerOutcome } from './cli-worker.ts';
 import { visibleText } from './terminal-text.ts';
+import { userFolder } from './user-folder.ts';
 import { writeFileAtomic } from './write-file-atomic.ts';
 
-export type { CliOutcome } from './cli-commands.ts';
+export type { CliContext, CliOutcome } from './cli-commands.ts';
 
 // Run only as the program itself (not when imported by tests, nor in its own worker, whose
 // argv[1] is the program's too); paths compared as files, since the module URL is
@@ -28,9 +35,9 @@ const asProgram = isMainThread && !!process.argv[1] && fileURLToPath(import.meta
 const commands = asProgram ? null : await import('./cli-commands.ts');
 
 /** The outcome of one command line, computed in this thread without a time limit; nothing is written. */
-export function runCli(args: string[]): CliOutcome {
+export function runCli(args: string[], context: CliContext = {}): CliOutcome {
   if (!commands) throw new Error('runCli is for importers; the program runs main()');
-  return commands.runCli(args);
+  return commands.runCli(args, context);
 }
 
 type Finished = { code: number; stdout: Uint8Array | string; stderr: string; file?: { path: string; data: Uint8Array | string } };
@@ -42,7 +49,7 @@ const workerModule = new URL('./cli-worker.ts', import.meta.url).href;
  * Runs the command in a worker thread; the limit counts from when the engine is loaded and
  * the job is handed over, so a slow start-up on a busy machine does not eat into it.
  */
-function runInWorker(args: string[], seconds: number): Promise<Finished> {
+function runInWorker(args: string[], folder: string, seconds: number): Promise<Finished> {
   return new Promise((resolve) => {
     const worker = new Worker(workerEntry, { workerData: { module: workerModule } });
     let timer: NodeJS.Timeout | null = null;
@@ -58,7 +65,7 @@ function runInWorker(args: string[], seconds: number): Promise<Finished> {
     worker.on('message', (m: WorkerOutcome | { ready: true }) => {
       if ('ready' in m) {
         timer = setTimeout(() => settle({ code: 1, stdout: '', stderr: timeLimitMessage(seconds) + '\n' }), seconds * 1000);
-        worker.postMessage(args);
+        worker.postMessage({ args, folder });
         return;
       }
       settle({ code: m.code, stdout: m.stdout, stderr: m.stderr, ...(m.file ? { file: { path: m.file.path, data: m.file.bytes } } : {}) });
@@ -72,9 +79,9 @@ function runInWorker(args: string[], seconds: number): Promise<Finished> {
   });
 }
 
-async function runInThread(args: string[]): Promise<Finished> {
+async function runInThread(args: string[], folder: string): Promise<Finished> {
   const { runCli: run } = await import('./cli-commands.ts');
-  const o = run(args);
+  const o = run(args, { folder });
   const file = o.file ? { path: o.file.path, data: o.file.text } : o.binaryFile ? { path: o.binaryFile.path, data: o.binaryFile.bytes } : undefined;
   return { code: o.code, stdout: o.stdout, stderr: o.stderr, ...(file ? { file } : {}) };
 }
@@ -89,12 +96,28 @@ function timeLimitOf(args: string[]): number | null {
   return limit.ok && limit.seconds > 0 ? limit.seconds : null;
 }
 
+/**
+ * A closed pipe on stdout or stderr (EPIPE) ends the output quietly: the reader has gone, and
+ * what it did not read cannot be delivered. Any other write error is said on stderr, if it can be.
+ */
+function quietOnClosedPipe(): void {
+  for (const stream of [process.stdout, process.stderr]) {
+    stream.on('error', (e: NodeJS.ErrnoException) => {
+      if (e.code === 'EPIPE') return;
+      if (stream !== process.stderr) process.stderr.write(`cannot write the output: ${visibleText(e.message)}\n`);
+      process.exitCode = 1;
+    });
+  }
+}
+
 async function main(): Promise<void> {
+  quietOnClosedPipe();
   const args = process.argv.slice(2);
+  const folder = userFolder(process.env, process.cwd());
   let finished: Finished;
   try {
     const seconds = timeLimitOf(args);
-    finished = seconds === null ? await runInThread(args) : await runInWorker(args, seconds);
+    finished = seconds === null ? await runInThread(args, folder) : await runInWorker(args, folder, seconds);
   } catch (e) {
     // A defect, not a user error: say so plainly, without a stack trace.
     process.stderr.write(`internal error: ${visibleText(e instanceof Error ? e.message : String(e))}\nPlease report this with the scenario file.\n`);

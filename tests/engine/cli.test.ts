@@ -115,7 +115,7 @@ describe('simulate', () => {
     const out = runCli(['simulate', velarin, '--out', target]);
     expect(out.code).toBe(0);
     expect(out.stdout).toBe('');
-    expect(out.stderr).toContain(`wrote ${target}`);
+    expect(out.stderr).toContain(`wrote result to ${target}`);
     expect(out.file?.path).toBe(target);
     expect(JSON.parse(out.file?.text ?? '').times).toEqual(JSON.parse(runCli(['simulate', velarin]).stdout).times);
   });
@@ -374,7 +374,7 @@ describe('as a real process', () => {
     expect(run.error).toBeUndefined();
     expect(run.status).toBe(0);
     expect(run.stdout).toBe('');
-    expect(run.stderr).toContain(`wrote ${target}`);
+    expect(run.stderr).toContain(`wrote result to ${target}`);
     expect(existsSync(target)).toBe(true);
     expect(readFileSync(target, 'utf8')).toBe(runCli(['simulate', velarin, '--format', 'csv']).stdout);
   });
