@@ -29,14 +29,15 @@ describe('report command', () => {
     expect(out.binaryFile?.path).toBe(target);
     const bytes = out.binaryFile?.bytes ?? new Uint8Array();
     expect(Buffer.from(bytes.subarray(0, 5)).toString('latin1')).toBe('%PDF-');
-    expect(out.stderr).toContain(`wrote ${target}`);
+    expect(out.stderr).toContain(`wrote report to ${target}`);
     expect(out.stderr).toContain(scenarioFingerprint(readSample('velarin-oral-bid')));
   });
 
   it('names the file after the title and fingerprint when --out is not given', () => {
-    const out = runCli(['report', velarin]);
+    const out = runCli(['report', velarin], { folder: dir });
     expect(out.code).toBe(0);
-    expect(out.binaryFile?.path).toBe(`tidemark-velarin-400-mg-by-mouth-twice-daily-${scenarioFingerprint(readSample('velarin-oral-bid'))}.pdf`);
+    // Named in, and written to, the folder the user is in.
+    expect(out.binaryFile?.path).toBe(join(dir, `tidemark-velarin-400-mg-by-mouth-twice-daily-${scenarioFingerprint(readSample('velarin-oral-bid'))}.pdf`));
   });
 
   it('draws a reference given with --reference', () => {
