@@ -71,7 +71,8 @@ const typedScenario = {
     { from: 'central', cl: '3 L/h' },
   ],
   doses: [{ into: 'central', amount: '500 mg', at: 0, duration: '30 min', every: '12 h', count: 4 }],
-  output: { end: '60 h', step: '15 min', thresholds: [] },
+  // The new model's output step, in hours like every other time of the form (issue 10).
+  output: { end: '60 h', step: '0.25 h', thresholds: [] },
 };
 
 describe('the web page in Chromium', () => {
@@ -126,8 +127,9 @@ describe('the web page in Chromium', () => {
     await choose(page, 'doses[0].into', 'central');
     await typeInto(page, 'doses[0].amount', '500');
     await choose(page, 'doses[0]', 'duration');
-    await typeInto(page, 'doses[0].duration', '30');
+    // The unit first: the picker converts a number already typed (30 h would become 1800 min).
     await unitOf(page, 'doses[0].duration').selectOption('min');
+    await typeInto(page, 'doses[0].duration', '30');
     await typeInto(page, 'doses[0].every', '12');
     await typeInto(page, 'doses[0].count', '4');
     await typeInto(page, 'output.end', '60');
