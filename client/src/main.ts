@@ -6,6 +6,7 @@
 import '../styles.css';
 import type { SimulationResultJson } from '../../models/result-format.ts';
 import { fmt } from '../../models/summary-text.ts';
+import { scenarioFingerprint } from '../../models/fingerprint.ts';
 import { doseLabelsOf } from '../../server/report/dose-words.ts';
 import { fetchSample, fetchSamples, simulate } from './api.ts';
 import { Compare } from './compare.ts';
@@ -193,6 +194,8 @@ async function run(): Promise<void> {
       const ms = Math.round(performance.now() - started);
       const warn = d.warnings.length ? ` ${d.warnings.length} warning${d.warnings.length > 1 ? 's' : ''} — see the figures.` : '';
       runStatus.textContent = `Done in ${fmt(ms)} ms: ${lastResult.times.length} reported times, ${d.path === 'exact' ? 'exact solution' : d.path === 'adaptive' ? 'adaptive integration' : 'fixed-step integration'}.${warn}`;
+      // The report of this run carries the same fingerprint, so a reader can match the two.
+      runStatus.append(' Scenario fingerprint ', h('code', { 'data-testid': 'run-fingerprint' }, scenarioFingerprint(sent)), '.');
       break;
     }
     case 'invalid':

@@ -4,6 +4,7 @@
  * typed them, with the run's own count of reported times. Hidden on screen (styles.css).
  */
 import type { SimulationResultJson } from '../../models/result-format.ts';
+import { scenarioFingerprint } from '../../models/fingerprint.ts';
 import { doseLineName } from '../../server/report/dose-words.ts';
 import { h } from './dom.ts';
 
@@ -59,7 +60,7 @@ export function renderPrintSummary(host: HTMLElement, scenario: unknown, result:
     h(
       'p',
       {},
-      `Span ${times[0] ?? 0}–${times[times.length - 1] ?? 0} ${result.units.time}${out.step !== undefined ? `, output step ${text(out.step)}` : ''}, ${times.length} reported times. Figures below are of this run.`,
+      `Span ${times[0] ?? 0}–${times[times.length - 1] ?? 0} ${result.units.time}${out.step !== undefined ? `, output step ${text(out.step)}` : ''}, ${times.length} reported times. Scenario fingerprint ${scenarioFingerprint(scenario)}. Figures below are of this run.`,
     ),
   ];
   host.replaceChildren(...parts.filter((x) => x !== null));

@@ -99,6 +99,10 @@ describe('first use of the page', () => {
     expect(text).toContain('400 mg into gut');
     expect(text).toContain(fmt(cmaxShown));
     expect(text).not.toContain(fmt(cmax250));
+    // The fingerprint shown with the run is the one the report prints.
+    const fingerprint = await page.getByTestId('run-fingerprint').textContent();
+    expect(fingerprint).toMatch(/^[0-9a-f]{12}$/);
+    expect(text).toContain(`fingerprint ${fingerprint}`);
     // The page says that it ran the form first.
     await expect.poll(() => page.locator('#notice').textContent()).toMatch(/form had changed since the last run, so it was run first/);
     expect(await page.locator('#run-status').textContent()).toMatch(/form had changed since the previous run/);

@@ -39,6 +39,7 @@ export function ensureClientBuilt(): void {
     join(repoRoot, 'client'),
     join(repoRoot, 'vite.config.ts'),
     join(repoRoot, 'models/summary-text.ts'),
+    join(repoRoot, 'models/fingerprint.ts'),
     join(repoRoot, 'server/report/ticks.ts'),
     join(repoRoot, 'server/report/dose-words.ts'),
   ];
