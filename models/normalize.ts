@@ -90,6 +90,10 @@ function zodProblems(error: z.ZodError): Problem[] {
   return error.issues.map((issue) => {
     const path = formatPath(issue.path);
     if (issue.code === 'unrecognized_keys') {
+      // A field renamed in this version is named with its new spelling.
+      if (issue.keys.length === 1 && issue.keys[0] === 'until' && /^doses\[\d+\]$/.test(path)) {
+        return { path: `${path}.until`, message: '`until` is now called `through`: repeat while the dose time is at or before it' };
+      }
       const keys = issue.keys.map((k) => `'${k}'`).join(', ');
       return { path, message: `unknown field${issue.keys.length > 1 ? 's' : ''} ${keys}` };
     }
@@ -353,16 +357,16 @@ function readDoses(
       duration = fromRate;
     }
     const every = r.read(d.every, 'time', `${path}.every`);
-    const until = r.read(d.until, 'time', `${path}.until`, 'any');
+    const through = r.read(d.through, 'time', `${path}.through`, 'any');
     if (d.every === undefined && d.count !== undefined && d.count > 1) r.fail(`${path}.count`, 'needs `every` (the dosing interval)');
-    if (d.every === undefined && d.until !== undefined) r.fail(`${path}.until`, 'needs `every` (the dosing interval)');
-    if (d.count !== undefined && d.until !== undefined) r.fail(`${path}.until`, 'give `count` or `until`, not both');
-    if (until !== null && at !== null && until < at) r.fail(`${path}.until`, `is before the first dose at ${at} ${r.units.time}`);
+    if (d.every === undefined && d.through !== undefined) r.fail(`${path}.through`, 'needs `every` (the dosing interval)');
+    if (d.count !== undefined && d.through !== undefined) r.fail(`${path}.through`, 'give `count` or `through`, not both');
+    if (through !== null && at !== null && through < at) r.fail(`${path}.through`, `is before the first dose at ${at} ${r.units.time}`);
     if (into === undefined || amount === null || at === null || (d.every !== undefined && every === null)) return;
 
     const bioavailability = d.bioavailability === undefined ? 1 : readFraction(d.bioavailability, `${path}.bioavailability`, r);
     if (bioavailability === null) return;
-    const last = every === null ? at : d.count !== undefined ? at + (d.count - 1) * every : (until ?? span.end);
+    const last = every === null ? at : d.count !== undefined ? at + (d.count - 1) * every : (through ?? span.end);
     let count = 0;
     let beyondEnd = 0;
     let nextGiven: number | null = null;
@@ -371,7 +375,7 @@ function readDoses(
       if (j > 0 && (every === null || given > last + 1e-9 * every)) break;
       if (given + lag >= span.end) {
         // Doses the user asked for by number, or a single dose, are worth a warning when cut;
-        // a repeat that runs `until` past the end is clipped quietly unless a lag pushes a
+        // a repeat that runs `through` past the end is clipped quietly unless a lag pushes a
         // dose given within the span past its end.
         if (d.count !== undefined) beyondEnd = d.count - j;
         else if (every === null || given < span.end) beyondEnd = 1;

@@ -110,7 +110,7 @@ export const doseSchema = z
     lag: modelQuantity.optional().describe('Delay between administration and arrival.'),
     every: quantity.optional().describe('Dosing interval for repeated doses.'),
     count: z.number().int().min(1).max(100000).optional().describe('Number of doses in the series (with every).'),
-    until: quantity.optional().describe('Repeat while the administration time is at or before this time (with every).'),
+    through: quantity.optional().describe('Repeat while the administration time is at or before this time (with every): the last dose is given at or before it.'),
     label: z.string().max(80).optional().describe('Name for this dose line, e.g. "loading".'),
   })
   .describe('One dose or a repeated series of doses.');

@@ -239,7 +239,7 @@ export function steadyStateFigures(model: Model, system: CompartmentSystem, stat
       tmax: f.overall.tmax,
       cmin: f.overall.cmin,
       tmin: f.overall.tmin,
-      trough: f.overall.clast,
+      trough: f.overall.cEnd,
       auc,
       cavg,
       fluctuation: cavg > 0 ? (f.overall.cmax - f.overall.cmin) / cavg : null,

@@ -51,7 +51,7 @@ export function summaryText(result: SimulationResult, maxIntervals = 6): string 
   for (const c of result.metrics.compartments) {
     const o = c.overall;
     out.push(`Compartment ${c.compartment} — concentration in ${u.concentration}, time in ${u.time}`);
-    out.push(`  Overall: Cmax ${fmt(o.cmax)} at ${fmt(o.tmax)}; AUC 0–end ${fmt(o.auc)} ${u.auc}; last ${fmt(o.clast)}`);
+    out.push(`  Overall: Cmax ${fmt(o.cmax)} at ${fmt(o.tmax)}; AUC 0–end ${fmt(o.auc)} ${u.auc}; at the end ${fmt(o.cEnd)}`);
     for (const w of o.windows) {
       const edges = w.above !== null && w.below !== null ? `${fmt(w.above)}–${fmt(w.below)}` : w.above !== null ? `above ${fmt(w.above)}` : `below ${fmt(w.below)}`;
       out.push(`  Window ${edges} ${u.concentration}: ${fmt(100 * w.fractionInWindow, 3)}% of the span inside (time in ${fmt(w.timeInWindow ?? w.timeAbove ?? w.timeBelow)}, under ${fmt(w.timeUnderWindow)}, over ${fmt(w.timeOverWindow)})`);

@@ -26,7 +26,7 @@ const fieldNames: Record<string, string> = {
   lag: 'lag time',
   every: 'dosing interval τ',
   count: 'number of doses',
-  until: 'last dose time',
+  through: 'last dose time',
   end: 'end time',
   start: 'start time',
   step: 'step',

@@ -99,7 +99,7 @@ function overallRows(id: string, cur: Result, ref: Result | null): Row[] {
     { name: 'Cmax', cur: [o.cmax, u.concentration], ref: ro && ru ? [ro.cmax, ru.concentration] : undefined, testid: `cmax-${id}` },
     { name: 'Tmax', cur: [o.tmax, u.time], ref: ro && ru ? [ro.tmax, ru.time] : undefined, testid: `tmax-${id}` },
     { name: 'AUC over the span', cur: [o.auc, u.auc], ref: ro && ru ? [ro.auc, ru.auc] : undefined, testid: `auc-${id}` },
-    { name: 'Concentration at the end', cur: [o.clast, u.concentration], ref: ro && ru ? [ro.clast, ru.concentration] : undefined },
+    { name: 'Concentration at the end', cur: [o.cEnd, u.concentration], ref: ro && ru ? [ro.cEnd, ru.concentration] : undefined },
   ];
   o.windows.forEach((w, k) => {
     const rw = ro?.windows[k];

@@ -30,7 +30,7 @@ function doseLine(d: Row, i: number, labels: (string | null)[]): string {
   if (d.rate !== undefined) parts.push(`at ${text(d.rate)}`);
   if (d.every !== undefined) parts.push(`every ${text(d.every)}`);
   if (d.count !== undefined) parts.push(`${text(d.count)} doses`);
-  if (d.until !== undefined) parts.push(`last at or before ${text(d.until)}`);
+  if (d.through !== undefined) parts.push(`last at or before ${text(d.through)}`);
   if (d.bioavailability !== undefined) parts.push(`F ${text(d.bioavailability)}`);
   if (d.lag !== undefined) parts.push(`lag ${text(d.lag)}`);
   const name = doseLineName(i, labels);

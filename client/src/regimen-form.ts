@@ -10,7 +10,7 @@ import type { DoseDoc, ScenarioStore } from './store.ts';
 import { UndoOffer } from './undo.ts';
 
 export type DoseForm = 'bolus' | 'duration' | 'rate';
-export type RepeatMode = 'count' | 'until' | 'end';
+export type RepeatMode = 'count' | 'through' | 'end';
 
 const pendingForm = new WeakMap<object, DoseForm>();
 const pendingRepeat = new WeakMap<object, RepeatMode>();
@@ -23,7 +23,7 @@ export function doseForm(d: DoseDoc): DoseForm {
 
 function repeatMode(d: DoseDoc): RepeatMode {
   if (d.count !== undefined) return 'count';
-  if (d.until !== undefined) return 'until';
+  if (d.through !== undefined) return 'through';
   return pendingRepeat.get(d) ?? 'count';
 }
 
@@ -69,8 +69,8 @@ export class RegimenForm {
     const repeatField =
       mode === 'count'
         ? numberField(this.store, { path: `${p}.count`, label: 'Number of doses n', placeholder: 'e.g. 14' })
-        : mode === 'until'
-          ? quantityField(this.store, { path: `${p}.until`, label: 'Last dose at or before', dim: 'time' })
+        : mode === 'through'
+          ? quantityField(this.store, { path: `${p}.through`, label: 'Last dose at or before', dim: 'time' })
           : null;
     return h(
       'fieldset',
@@ -110,7 +110,7 @@ export class RegimenForm {
           value: mode,
           options: [
             ['count', 'for n doses'],
-            ['until', 'until a time'],
+            ['through', 'through a time'],
             ['end', 'to the end of the span'],
           ],
           onChange: (v) => this.setRepeat(i, v as RepeatMode),
@@ -138,7 +138,7 @@ export class RegimenForm {
     if (!d || repeatMode(d) === mode) return;
     const p = `doses[${i}]`;
     if (d.count !== undefined) this.store.set(`${p}.count`, undefined);
-    if (d.until !== undefined) this.store.set(`${p}.until`, undefined);
+    if (d.through !== undefined) this.store.set(`${p}.through`, undefined);
     pendingRepeat.set(d, mode);
     this.hooks.rerender(`key:repeat-mode-${i}`);
   }

@@ -34,10 +34,10 @@ export function expandLine(d: DoseDoc, start: number, end: number, u: UnitSet): 
   }
   let last = end;
   if (typeof d.count === 'number') last = Math.min(end, at + (d.count - 1) * every);
-  else if (d.until !== undefined) {
-    const until = timeValue(d.until, u);
-    if (until === null) return { marks: [], truncated: false, readable: false };
-    last = Math.min(end, until);
+  else if (d.through !== undefined) {
+    const through = timeValue(d.through, u);
+    if (through === null) return { marks: [], truncated: false, readable: false };
+    last = Math.min(end, through);
   }
   for (let k = 0; ; k++) {
     const t = at + k * every;

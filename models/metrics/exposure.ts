@@ -61,7 +61,7 @@ export interface OverallFigures {
   /** AUC from the start to the end of the span. */
   auc: number;
   /** Concentration at the end of the span. */
-  clast: number;
+  cEnd: number;
   windows: WindowFigures[];
   crossings: Crossing[];
   /** True when more crossings happened than are listed. */
@@ -423,7 +423,7 @@ export function exposureFigures(model: Model, layout: StateLayout, probe: CurveP
         cmin: pc.overall.cmin,
         tmin: pc.overall.tmin,
         auc: aucNow[layout.auc[pc.index]],
-        clast: pc.lastC,
+        cEnd: pc.lastC,
         windows: windowFigures(pc.thresholds, pc.levels, pc.overall.over, model.end - model.start),
         crossings: pc.crossings,
         crossingsTruncated: pc.crossingCount > pc.crossings.length,

@@ -279,7 +279,7 @@ function exposureSection(doc: PDFKit.PDFDocument, model: Model, result: Simulati
       { header: 'C at the end', width: 1, align: 'right' },
       { header: 'Dosing intervals', width: 1, align: 'right' },
     ],
-    rows: withVolume.map((c) => [{ text: c.compartment, bold: model.compartments.findIndex((m) => m.id === c.compartment) === params.central }, fmt(c.overall.cmax), fmt(c.overall.tmax), fmt(c.overall.auc), fmt(c.overall.clast), String(c.intervals.length)]),
+    rows: withVolume.map((c) => [{ text: c.compartment, bold: model.compartments.findIndex((m) => m.id === c.compartment) === params.central }, fmt(c.overall.cmax), fmt(c.overall.tmax), fmt(c.overall.auc), fmt(c.overall.cEnd), String(c.intervals.length)]),
   });
 
   // Time in and out of the target windows.

@@ -101,7 +101,7 @@ const brenolide = {
   ],
   doses: [
     { into: 'central', amount: '250 mg', at: 0, duration: '45 min', label: 'loading' },
-    { into: 'gut', amount: '100 mg', at: '1 day', every: '24 h', until: '6 day', bioavailability: 0.7, lag: '30 min', label: 'maintenance' },
+    { into: 'gut', amount: '100 mg', at: '1 day', every: '24 h', through: '6 day', bioavailability: 0.7, lag: '30 min', label: 'maintenance' },
   ],
   output: { start: 0, end: 7, step: '30 min', times: ['100 min', '36 h', 2.51], thresholds: [{ compartment: 'central', above: '1 mg/L', below: '6 mg/L' }] },
   solver: { method: 'auto', rtol: 1e-9, atol: 1e-12, maxSteps: 200_000 },

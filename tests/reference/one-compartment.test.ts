@@ -193,7 +193,7 @@ describe('constant-rate infusion', () => {
     // gap e^{−48} ≈ 1e-21 is below rounding.
     const c = concentration(result, 'central');
     expectWithin(rel(c[c.length - 1], R / CL), EXACT, 'infusion Css (last row)');
-    expectWithin(rel(figures(result, 'central').overall.clast, R / CL), EXACT, 'infusion Css (clast)');
+    expectWithin(rel(figures(result, 'central').overall.cEnd, R / CL), EXACT, 'infusion Css (cEnd)');
   });
 });
 

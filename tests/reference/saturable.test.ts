@@ -115,7 +115,7 @@ describe('steady state under saturable elimination', () => {
     const c = concentration(result, 'central');
     const last = c[c.length - 1];
     expectWithin(Math.abs(last - Css) / Css, GLOBAL * rtol, 'MM infusion Css = Km·R/(Vmax − R)');
-    expectWithin(Math.abs(figures(result, 'central').overall.clast - Css) / Css, GLOBAL * rtol, 'MM infusion clast');
+    expectWithin(Math.abs(figures(result, 'central').overall.cEnd - Css) / Css, GLOBAL * rtol, 'MM infusion cEnd');
   });
 
   it('frequent small boluses at the same average rate give a steady state bracketing Css, with Cavg ≥ Css', () => {

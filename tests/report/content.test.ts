@@ -97,7 +97,7 @@ describe("numbers equal the engine's", () => {
   it('exposure over the span, in the target window and at steady state', () => {
     const text = flat(all);
     const o = central.overall;
-    expect(text).toMatch(new RegExp(`central ${escapeRegExp(fmt(o.cmax))} ${escapeRegExp(fmt(o.tmax))} ${escapeRegExp(fmt(o.auc))} ${escapeRegExp(fmt(o.clast))} 14`));
+    expect(text).toMatch(new RegExp(`central ${escapeRegExp(fmt(o.cmax))} ${escapeRegExp(fmt(o.tmax))} ${escapeRegExp(fmt(o.auc))} ${escapeRegExp(fmt(o.cEnd))} 14`));
     const w = o.windows[0];
     expect(text).toContain(`whole span ${fmt(w.timeInWindow)} ${fmt(w.timeUnderWindow)} ${fmt(w.timeOverWindow)} ${pct(w.fractionInWindow)}`);
     for (const [name, value] of [
