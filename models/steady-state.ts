@@ -10,6 +10,7 @@
  * - The cycle itself: which lines repeat, their period, their doses folded into one cycle
  *   (steady-state/cycle.ts); what can be ruled out before any cycle is run (steady-state/capacity.ts).
  */
+import { doseLineName } from './dose-words.ts';
 import { buildSchedule } from './events.ts';
 import { propagateExact } from './linear-path.ts';
 import { CurveProbe } from './metrics/curve-probe.ts';
@@ -251,7 +252,9 @@ export function steadyStateFigures(model: Model, system: CompartmentSystem, stat
       windows: f.overall.windows,
     };
   });
-  const regimen = lines.map((l) => doseLineName(l.line, l.label)).join(' and ');
+  const labels: (string | null)[] = [];
+  for (const l of model.doseLines) labels[l.line] = l.label;
+  const regimen = lines.map((l) => doseLineName(l.line, labels)).join(' and ');
   return {
     period,
     lines: lineIndices,
@@ -267,10 +270,6 @@ export function steadyStateFigures(model: Model, system: CompartmentSystem, stat
   };
 }
 
-/** A dose line as people number it: "dose line 2 — maintenance" for doses[1] labelled maintenance. */
-export function doseLineName(line: number, label: string | null): string {
-  return `dose line ${line + 1}${label ? ` — ${label}` : ''}`;
-}
 
 /** The cycle (1-based) in which time t falls; a time on a cycle's end belongs to that cycle. */
 function cycleOf(t: number | null, period: number): number | null {

@@ -5,7 +5,7 @@
  */
 import type { SimulationResultJson } from '../../models/result-format.ts';
 import { fmt } from '../../models/summary-text.ts';
-import { plainDoseWords } from '../../server/report/dose-words.ts';
+import { plainDoseWords } from '../../models/dose-words.ts';
 import { h } from './dom.ts';
 
 type Result = SimulationResultJson;

@@ -7,7 +7,7 @@ import '../styles.css';
 import type { SimulationResultJson } from '../../models/result-format.ts';
 import { fmt } from '../../models/summary-text.ts';
 import { scenarioFingerprint } from '../../models/fingerprint.ts';
-import { doseLabelsOf } from '../../server/report/dose-words.ts';
+import { doseLabelsOf } from '../../models/dose-words.ts';
 import { fetchSample, fetchSamples, simulate } from './api.ts';
 import { Compare } from './compare.ts';
 import { renderDiagram } from './diagram.ts';

@@ -21,7 +21,7 @@ import {
 } from 'chart.js';
 import type { SimulationResultJson } from '../../models/result-format.ts';
 import { fmt } from '../../models/summary-text.ts';
-import { logAxis, lowAfterRise, type Axis } from '../../server/report/ticks.ts';
+import { logAxis, lowAfterRise, type Axis } from '../../models/axis-ticks.ts';
 import { curvePoints, type CurvePoint, type CurveView } from './curve.ts';
 import { concentrationFactor, timeFactor } from './quantity.ts';
 import { doseMarksPlugin, windowBandPlugin, type Band } from './plot-plugins.ts';

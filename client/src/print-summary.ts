@@ -5,7 +5,7 @@
  */
 import type { SimulationResultJson } from '../../models/result-format.ts';
 import { scenarioFingerprint } from '../../models/fingerprint.ts';
-import { doseLineName } from '../../server/report/dose-words.ts';
+import { doseLineName } from '../../models/dose-words.ts';
 import { h } from './dom.ts';
 
 type Row = Record<string, unknown>;

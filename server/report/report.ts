@@ -15,7 +15,7 @@ import type { SteadyStateFigures } from '../../models/steady-state.ts';
 import type { WindowFigures } from '../../models/metrics/exposure.ts';
 import { independentCheck, verdict, type CheckOutcome } from './check.ts';
 import { drawDiagram } from './diagram.ts';
-import { plainDoseWords } from './dose-words.ts';
+import { plainDoseWords } from '../../models/dose-words.ts';
 import { createReportDocument, documentBytes, font, gap, heading, keyValues, palette, paragraph, type } from './document.ts';
 import { clock, duration, fmt, percent, reportFileName, unitText, withUnit } from './format.ts';
 import { drawCautionBox, drawTitleBlock, stampPages } from './furniture.ts';

@@ -34,15 +34,8 @@ function newestMtime(path: string): number {
  */
 export function ensureClientBuilt(): void {
   const index = join(clientDir, 'index.html');
-  // The page also imports the report's pure helpers (log-axis ticks, dose-line words).
-  const sources = [
-    join(repoRoot, 'client'),
-    join(repoRoot, 'vite.config.ts'),
-    join(repoRoot, 'models/summary-text.ts'),
-    join(repoRoot, 'models/fingerprint.ts'),
-    join(repoRoot, 'server/report/ticks.ts'),
-    join(repoRoot, 'server/report/dose-words.ts'),
-  ];
+  // The page also imports pure modules of the core (summary text, fingerprint, axis ticks, dose-line words).
+  const sources = [join(repoRoot, 'client'), join(repoRoot, 'vite.config.ts'), join(repoRoot, 'models')];
   const fresh = () => existsSync(index) && statSync(index).mtimeMs >= Math.max(...sources.map(newestMtime));
   if (fresh()) return;
   // Browser test files run in parallel processes, and the build empties dist/client first:

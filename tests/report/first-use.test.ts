@@ -6,7 +6,7 @@ import { normaliseScenario } from '../../models/normalize.ts';
 import { simulateModel } from '../../models/simulate.ts';
 import { fmt } from '../../models/summary-text.ts';
 import { createReportDocument, contentBottom, documentBytes } from '../../server/report/document.ts';
-import { doseLabelsOf, doseLineName, plainDoseWords } from '../../server/report/dose-words.ts';
+import { doseLabelsOf, doseLineName, plainDoseWords } from '../../models/dose-words.ts';
 import { buildReport } from '../../server/report/report.ts';
 import { drawTable } from '../../server/report/table.ts';
 import { pdfPages, readSample, removeTempFiles, squeeze } from './helpers.ts';

@@ -9,7 +9,7 @@ import { duration, reportFileName, unitText } from '../../server/report/format.t
 import { modelParameters } from '../../server/report/parameters.ts';
 import { readReportRequest } from '../../server/report/request.ts';
 import { describeDoseLine } from '../../server/report/regimen.ts';
-import { linearAxis, logAxis, niceNumber, timeAxis } from '../../server/report/ticks.ts';
+import { linearAxis, logAxis, niceNumber, timeAxis } from '../../models/axis-ticks.ts';
 import { readSample } from './helpers.ts';
 
 function run(scenario: unknown) {
