@@ -173,8 +173,25 @@ export async function buildServer({ outdir, quiet }) {
       dynamic: o.imports.filter((i) => i.kind === 'dynamic-import').map((i) => name(i.path)),
     };
   }
-  const info = { startedAt, builtAt: Date.now(), outputs, previousOutputs: previous?.outputs ?? [], inputs, bytes, imports };
-  writeFileSync(join(outdir, infoFile), JSON.stringify(info, null, 2) + '\n');
+  // The packages' files that made it into the outputs, and their bytes there (how much of
+  // mathjs the factory functions keep, say).
+  const packages = {};
+  for (const o of Object.values(result.metafile.outputs)) {
+    for (const [input, { bytesInOutput }] of Object.entries(o.inputs)) {
+      const at = input.lastIndexOf('node_modules/');
+      if (at < 0 || bytesInOutput === 0) continue;
+      const rest = input.slice(at + 'node_modules/'.length).split('/');
+      const name = rest[0].startsWith('@') ? `${rest[0]}/${rest[1]}` : rest[0];
+      const entry = (packages[name] ??= { bytes: 0, files: [] });
+      entry.bytes += bytesInOutput;
+      entry.files.push(rest.slice(name.split('/').length).join('/'));
+    }
+  }
+  const info = { startedAt, builtAt: Date.now(), outputs, previousOutputs: previous?.outputs ?? [], inputs, bytes, imports, packages };
+  // Written last and whole: a build-info names only outputs already in place.
+  const infoTemporary = join(outdir, `${infoFile}.${process.pid}.tmp`);
+  writeFileSync(infoTemporary, JSON.stringify(info, null, 2) + '\n');
+  renameSync(infoTemporary, join(outdir, infoFile));
   return info;
 }
 

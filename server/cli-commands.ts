@@ -11,12 +11,33 @@ import { readFileSync } from 'node:fs';
 import { summaryText } from '../models/summary-text.ts';
 import { describeProblems, normaliseScenario, resultToCsv, resultToJsonText, scenarioJsonSchema, simulate, type Problem } from '../models/index.ts';
 import { parseOptions, parseTimeLimit, usage } from './cli-options.ts';
-import { buildReport } from './report/report.ts';
 import { sameFile } from './same-file.ts';
 import { visibleLines, visibleText } from './terminal-text.ts';
 import { fromUserFolder } from './user-folder.ts';
 import type { ReferenceCase } from './verify/cases.ts';
-import { verificationTable, verify } from './verify/run.ts';
+
+type ReportModule = typeof import('./report/report.ts');
+type VerifyModule = typeof import('./verify/run.ts');
+
+/**
+ * What only one command needs, loaded for it alone: the report writer (pdfkit and its fonts)
+ * and the reference cases (mathjs's matrix functions). A simulate never pays for either.
+ * loadCommandModules loads them before runCli, which stays synchronous.
+ */
+const onDemand: { report: ReportModule | null; verify: VerifyModule | null } = { report: null, verify: null };
+
+/** Loads what the command in `args` needs beyond the engine (all of it when `args` is null, for importers). */
+export async function loadCommandModules(args: string[] | null): Promise<void> {
+  const command = args === null ? null : args[0];
+  if (command === null || command === 'report') onDemand.report ??= await import('./report/report.ts');
+  if (command === null || command === 'verify') onDemand.verify ??= await import('./verify/run.ts');
+}
+
+function loaded<T>(module: T | null, command: string): T {
+  // A defect of the program, not of the user's input: cli.ts and cli-worker.ts load it first.
+  if (module === null) throw new Error(`the ${command} command's module was not loaded (loadCommandModules)`);
+  return module;
+}
 
 export interface CliOutcome {
   code: number;
@@ -165,7 +186,7 @@ function run(args: string[], context: CliContext): CliOutcome {
         if (!read.ok) return fail(read.message);
         reference = read.value;
       }
-      const report = buildReport(reference === undefined ? { scenario: input.value } : { scenario: input.value, reference });
+      const report = loaded(onDemand.report, 'report').buildReport(reference === undefined ? { scenario: input.value } : { scenario: input.value, reference });
       if (!report.ok) return problems(report.problems, parsed.positional[0]);
       const out = chosen ?? fromUserFolder(folder, report.fileName);
       // The default name comes from the title: it could still be an input's name.
@@ -182,6 +203,7 @@ function run(args: string[], context: CliContext): CliOutcome {
       const wrong = unknownOption(['out']);
       if (wrong) return wrong;
       if (parsed.positional.length > 0) return fail(`unexpected argument '${visibleText(parsed.positional[0])}'`);
+      const { verify, verificationTable } = loaded(onDemand.verify, 'verify');
       const record = verify(context.cases);
       const out = options.get('out');
       const code = record.passed ? 0 : 1;

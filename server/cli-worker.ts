@@ -1,10 +1,11 @@
 /**
  * The command line's computation in a worker thread, so that the program can stop it at the
  * time limit (a worker can be terminated in the middle of a loop; the main thread cannot
- * interrupt itself). Answers `ready` once the engine is loaded, then one outcome per job.
+ * interrupt itself). Answers `ready` once the engine, and what the command named in
+ * workerData needs beyond it (the report writer for report), is loaded, then one outcome per job.
  */
-import { parentPort } from 'node:worker_threads';
-import { runCli, type CliOutcome } from './cli-commands.ts';
+import { parentPort, workerData } from 'node:worker_threads';
+import { loadCommandModules, runCli, type CliOutcome } from './cli-commands.ts';
 
 /** An outcome as it crosses threads: the text already as bytes, moved rather than copied. */
 export interface WorkerOutcome {
@@ -35,4 +36,11 @@ parentPort?.on('message', ({ args, folder }: { args: string[]; folder: string })
   parentPort?.postMessage(message, transfer);
 });
 
+/** What cli.ts tells the worker at its start: the command it will run. */
+export interface CliWorkerData {
+  command: string;
+}
+
+// Loaded before `ready`, so that the time limit, which starts then, counts the computation alone.
+await loadCommandModules([(workerData as CliWorkerData | null)?.command ?? '']);
 parentPort?.postMessage({ ready: true });

@@ -15,12 +15,13 @@
  */
 import { realpathSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
-import { isMainThread, Worker } from 'node:worker_threads';
+import { isMainThread } from 'node:worker_threads';
 import type { CliContext, CliOutcome } from './cli-commands.ts';
 import { parseOptions, parseTimeLimit, timeLimitMessage } from './cli-options.ts';
-import type { WorkerOutcome } from './cli-worker.ts';
+import type { CliWorkerData, WorkerOutcome } from './cli-worker.ts';
 import { visibleText } from './terminal-text.ts';
 import { userFolder } from './user-folder.ts';
+import { startWorker, type WorkerModule } from './worker-pool.ts';
 import { writeFileAtomic } from './write-file-atomic.ts';
 
 export type { CliContext, CliOutcome } from './cli-commands.ts';
@@ -33,6 +34,7 @@ const asProgram = isMainThread && !!process.argv[1] && fileURLToPath(import.meta
 // The engine takes seconds to load. The program loads it once, in the worker that computes;
 // an importer (the tests) gets it here, so that runCli stays a plain synchronous function.
 const commands = asProgram ? null : await import('./cli-commands.ts');
+await commands?.loadCommandModules(null);
 
 /** The outcome of one command line, computed in this thread without a time limit; nothing is written. */
 export function runCli(args: string[], context: CliContext = {}): CliOutcome {
@@ -42,8 +44,12 @@ export function runCli(args: string[], context: CliContext = {}): CliOutcome {
 
 type Finished = { code: number; stdout: Uint8Array | string; stderr: string; file?: { path: string; data: Uint8Array | string } };
 
-const workerEntry = new URL('./worker-entry.mjs', import.meta.url);
-const workerModule = new URL('./cli-worker.ts', import.meta.url).href;
+// `npm run cli` runs the build of this file (dist/server/cli.js, scripts/build-server.mjs),
+// which keeps its own URL: it starts the built worker beside it with plain node. From the
+// sources (tsx server/cli.ts), the worker's source runs through tsx.
+const cliWorker: WorkerModule = import.meta.url.endsWith('.js')
+  ? { kind: 'built', url: new URL('./cli-worker.js', import.meta.url) }
+  : { kind: 'source', url: new URL('./cli-worker.ts', import.meta.url) };
 
 /**
  * Runs the command in a worker thread; the limit counts from when the engine is loaded and
@@ -51,7 +57,7 @@ const workerModule = new URL('./cli-worker.ts', import.meta.url).href;
  */
 function runInWorker(args: string[], folder: string, seconds: number): Promise<Finished> {
   return new Promise((resolve) => {
-    const worker = new Worker(workerEntry, { workerData: { module: workerModule } });
+    const worker = startWorker(cliWorker, { workerData: { command: args[0] ?? '' } satisfies CliWorkerData });
     let timer: NodeJS.Timeout | null = null;
     let settled = false;
     const settle = (f: Finished) => {
@@ -80,7 +86,8 @@ function runInWorker(args: string[], folder: string, seconds: number): Promise<F
 }
 
 async function runInThread(args: string[], folder: string): Promise<Finished> {
-  const { runCli: run } = await import('./cli-commands.ts');
+  const { loadCommandModules, runCli: run } = await import('./cli-commands.ts');
+  await loadCommandModules(args);
   const o = run(args, { folder });
   const file = o.file ? { path: o.file.path, data: o.file.text } : o.binaryFile ? { path: o.binaryFile.path, data: o.binaryFile.bytes } : undefined;
   return { code: o.code, stdout: o.stdout, stderr: o.stderr, ...(file ? { file } : {}) };

@@ -3,13 +3,15 @@
 // decide the outcome: each built program answers as the sources do, and its import graph
 // loads the report writer (pdfkit) only for a report.
 import { spawn, spawnSync } from 'node:child_process';
-import { readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { createServer } from 'node:net';
+import { tmpdir } from 'node:os';
 import { join, relative } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { resultToJsonText } from '../../models/result-format.ts';
 import { simulate } from '../../models/simulate.ts';
+import { runCli } from '../../server/cli.ts';
 import { SimulationPool } from '../../server/worker-pool.ts';
 import { ensureClientBuilt } from '../browser/harness.ts';
 
@@ -25,6 +27,7 @@ interface Info {
   outputs: string[];
   inputs: string[];
   imports: Record<string, { static: string[]; dynamic: string[] }>;
+  packages: Record<string, { bytes: number; files: string[] }>;
 }
 let info: Info;
 
@@ -57,10 +60,21 @@ describe('the build', () => {
     expect(readFileSync(out('cli.js'), 'utf8').startsWith('#!/usr/bin/env node\n')).toBe(true);
   });
 
-  it('loads pdfkit for a report only: not at the start of the server nor of its workers', () => {
-    for (const entry of ['simulation-worker.js', 'main.js']) expect([...loadedAtOnce(entry)]).not.toContain('pdfkit');
+  it("bundles mathjs's unit part only, and leaves pdfkit to node", () => {
+    const mathjs = info.packages.mathjs;
+    expect(mathjs.files.length).toBeGreaterThan(0);
+    // The full entry bundles about 1,000 of its files (1.3 MB); units.ts's factory functions about 120.
+    expect(mathjs.files.some((f) => f.includes('/expression/'))).toBe(false);
+    expect(mathjs.files.length).toBeLessThan(300);
+    // pdfkit reads its standard fonts through its own package's imports map, which a bundle lacks.
+    expect(info.packages.pdfkit).toBeUndefined();
+  });
+
+  it('loads pdfkit for a report only: not at the start of the server, the command line or their workers', () => {
+    for (const entry of ['simulation-worker.js', 'cli.js', 'cli-worker.js', 'main.js']) expect([...loadedAtOnce(entry)]).not.toContain('pdfkit');
     // …while the report path still reaches it, through import().
     expect([...loadedEver('simulation-worker.js')]).toContain('pdfkit');
+    expect([...loadedEver('cli-worker.js')]).toContain('pdfkit');
   });
 
   it("keeps the command line's own thread free of the engine: the worker loads it", () => {
@@ -153,6 +167,40 @@ describe('the built server', () => {
       }
     } finally {
       await Promise.all([built.close(), fromSources.close()]);
+    }
+  });
+});
+
+describe('the built command line', () => {
+  const cli = (args: string[], cwd = root) => spawnSync(process.execPath, [out('cli.js'), ...args], { cwd, encoding: 'utf8', timeout: 120_000 });
+
+  it('prints the demo summary as the sources compute it, through its built worker', () => {
+    const run = cli(['simulate', velarinPath, '--format', 'text']);
+    expect(run.stderr).toBe('');
+    expect(run.status).toBe(0);
+    expect(run.stdout).toBe(runCli(['simulate', velarinPath, '--format', 'text']).stdout);
+  });
+
+  it('runs verify in its own thread, its reference cases loaded on demand', () => {
+    const run = cli(['verify']);
+    expect(run.stderr).toBe('');
+    expect(run.status).toBe(0);
+    expect(run.stdout).toMatch(/all \d+ cases passed/);
+  });
+
+  it('writes a report (the report writer loaded on demand) and answers usage errors with code 2', () => {
+    const dir = mkdtempSync(join(tmpdir(), 'tidemark-built-'));
+    try {
+      const target = join(dir, 'r.pdf');
+      const run = cli(['report', join(root, velarinPath), '--out', target]);
+      expect(run.status).toBe(0);
+      expect(readFileSync(target).subarray(0, 5).toString('latin1')).toBe('%PDF-');
+      const bad = cli(['simulate', velarinPath, '--format', 'xml']);
+      expect(bad.status).toBe(2);
+      expect(bad.stderr).toMatch(/--format must be json, csv or text/);
+      expect(bad.stderr).not.toMatch(/\n\s+at /);
+    } finally {
+      rmSync(dir, { recursive: true, force: true });
     }
   });
 });
