@@ -310,8 +310,13 @@ function shortInfusionWarnings(model: Model): string[] {
  * would be against the target window, so nobody reads the steady-state figures as the course's.
  */
 export function courseEndWarnings(model: Model, steady: SteadyStateFigures): string[] {
-  // A regimen that stopped within the span was never going to reach steady state; say it only of one still running.
-  const running = steady.lines.some((line) => model.doseLines.find((l) => l.line === line)?.nextGiven != null);
+  // A regimen that stopped within the span was never going to reach steady state; say it only of
+  // one still running: a dose left out by the end, or a last dosing interval that reaches the end.
+  const running = steady.lines.some((line) => {
+    const l = model.doseLines.find((d) => d.line === line);
+    if (!l || l.every === null) return false;
+    return l.nextGiven !== null || l.firstGiven + l.count * l.every >= model.end - 1e-9 * l.every;
+  });
   if (!running) return [];
   const firstDose = Math.min(...steady.lines.map((line) => model.doseLines.find((l) => l.line === line)?.firstGiven ?? model.start));
   const elapsed = model.end - firstDose;

@@ -134,7 +134,7 @@ const controls = new PlotControls(() => showResult());
 
 function showResult(): void {
   const reference = compare.reference;
-  plot.update({ current: lastResult, reference: reference?.result ?? null, selected: [...controls.selected], log: controls.log, range: controls.range() });
+  plot.update({ current: lastResult, reference: reference?.result ?? null, selected: [...controls.selected], log: controls.log, range: controls.range(), steadyFrom: controls.steadyFrom() });
   renderFigures(figuresHost, lastResult, reference?.result ?? null, [...controls.selected], reference?.title ?? null, {
     current: doseLabelsOf(lastScenario),
     reference: doseLabelsOf(reference?.scenario),

@@ -1,6 +1,6 @@
 /**
  * Controls around the plot: which compartments to draw (and report), linear or log y,
- * and zoom to the whole span, one dosing interval, or the last interval (steady state).
+ * and zoom to the whole span, one dosing interval, or the last interval with the steady-state cycle drawn over it.
  */
 import type { SimulationResultJson } from '../../models/result-format.ts';
 import { fmt } from '../../models/summary-text.ts';
@@ -92,6 +92,13 @@ export class PlotControls {
     return { min: ivs[i].start, max: ivs[i].end };
   }
 
+  /** Where the steady-state cycle is drawn: the start of the last dosing interval, in the steady-state zoom only. */
+  steadyFrom(): number | null {
+    const r = this.result;
+    if (!r || this.zoom.mode !== 'steady' || !r.metrics.steadyState?.profile) return null;
+    return this.range()?.min ?? null;
+  }
+
   private setZoom(z: Zoom): void {
     const ivs = this.result ? intervalsOf(this.result) : [];
     if (z.mode === 'interval') {
@@ -156,6 +163,8 @@ export class PlotControls {
         ? r
           ? `Whole span, ${fmt(r.times[0])}–${fmt(r.times[r.times.length - 1])} ${unit}.`
           : ''
-        : `${z.mode === 'steady' ? 'Last dosing interval' : `Dosing interval ${(active ?? 0) + 1}`}: ${fmt(range.min)}–${fmt(range.max)} ${unit}.`;
+        : z.mode === 'steady'
+          ? `Last dosing interval, ${fmt(range.min)}–${fmt(range.max)} ${unit}${r?.metrics.steadyState?.profile ? ', with the steady-state cycle (dashed): the regimen continued, computed, not simulated up to' : ''}.`
+          : `Dosing interval ${(active ?? 0) + 1}: ${fmt(range.min)}–${fmt(range.max)} ${unit}.`;
   }
 }

@@ -85,6 +85,8 @@ export interface PlotState {
   log: boolean;
   /** Visible x range; null for the whole span. */
   range: { min: number; max: number } | null;
+  /** Draw the steady-state cycle itself (dashed) from this time on: the start of the last dosing interval. */
+  steadyFrom: number | null;
 }
 
 /** Colour of a compartment: by its place in the current result, so it stays put when others are hidden. */
@@ -109,7 +111,7 @@ function logTicks(axis: Axis): { ticks: { value: number; major: boolean }[]; lab
 
 export class PlotView {
   readonly chart: Chart<'line', XY[]>;
-  private state: PlotState = { current: null, reference: null, selected: [], log: false, range: null };
+  private state: PlotState = { current: null, reference: null, selected: [], log: false, range: null, steadyFrom: null };
   /** Set when the reference was in other units that could not be converted. */
   referenceNote = '';
 
@@ -186,6 +188,27 @@ export class PlotView {
               order: 2,
             });
           }
+        }
+      }
+      // The steady state is the regimen continued, which the simulated course may be far from:
+      // its own cycle (computed from the periodic state) is drawn over the last interval.
+      const profile = current.metrics.steadyState?.profile;
+      if (profile && this.state.steadyFrom !== null) {
+        const from = this.state.steadyFrom;
+        const times = profile.times.map((t) => t + from);
+        for (const id of selected) {
+          const p = profile.compartments.find((c) => c.compartment === id);
+          if (!p) continue;
+          const colour = colourOf(current, id);
+          datasets.push({
+            label: `${id} — steady-state cycle (the regimen continued)`,
+            data: curvePoints(times, p.concentration, log, view),
+            borderColor: colour,
+            backgroundColor: colour,
+            borderDash: [3, 3],
+            borderWidth: 2,
+            order: 0,
+          });
         }
       }
       for (const id of selected) {

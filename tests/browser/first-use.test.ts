@@ -204,6 +204,38 @@ describe('first use of the page', () => {
     noPageErrors(record);
   }, stepTimeout);
 
+  it('items 3 and 4: the steady-state zoom draws the steady-state cycle itself, and a course that ends before it says so', async () => {
+    const { page, record } = await freshPage();
+    // Clearance 0.42 L/h in 42 L: k = 0.01 /h, 90% of steady state after about 230 h; the week ends first.
+    await typeInto(page, 'transfers[1].cl', '0.42');
+    expect(await runAndWait(page)).toBe(200);
+    await expect.poll(() => page.locator('#figures').innerText()).toMatch(/is not at steady state by the end of the span/);
+    await page.locator('#zoom-steady').click();
+    const shown = await page.evaluate(() => {
+      const c = window.__tidemark.chart;
+      const r = window.__tidemark.lastResult!;
+      const lo = c.scales.x.min;
+      const hi = c.scales.x.max;
+      const peakIn = (label: RegExp) =>
+        Math.max(...c.data.datasets.filter((d) => label.test(String(d.label))).flatMap((d) => (d.data as { x: number; y: number }[]).filter((p) => p.x >= lo && p.x <= hi).map((p) => p.y)));
+      return {
+        simulated: peakIn(/^central \(/),
+        steady: peakIn(/steady-state cycle/),
+        cmaxSs: r.metrics.steadyState!.compartments.find((x) => x.compartment === 'central')!.cmax,
+        yMax: c.scales.y.max,
+      };
+    });
+    // The dashed curve is the steady state's own cycle: its peak is the steady-state Cmax of the
+    // figures (to the plot's interpolation), well above the last simulated interval's.
+    expect(Math.abs(shown.steady / shown.cmaxSs - 1)).toBeLessThan(1e-3);
+    // After 168 h at k = 0.01 /h the course is at 1 − e^{−1.68} ≈ 81% of steady state.
+    expect(shown.steady).toBeGreaterThan(1.15 * shown.simulated);
+    expect(shown.yMax).toBeGreaterThanOrEqual(shown.steady);
+    await expect.poll(() => page.locator('#zoom-note').innerText()).toMatch(/with the steady-state cycle \(dashed\): the regimen continued, computed, not simulated up to/);
+    await page.locator('.plot-panel').screenshot({ path: artifactPath('first-use-steady-state.png') });
+    noPageErrors(record);
+  }, stepTimeout);
+
   it('item 13: printing gives the caution, a summary of the scenario, the plot and the figures — no form, no buttons', async () => {
     const { page, record } = await freshPage();
     await page.emulateMedia({ media: 'print' });
