@@ -131,7 +131,9 @@ export function quantityField(store: ScenarioStore, opts: QuantityOptions): HTML
       store.set(opts.path, opts.required ? '' : undefined);
       return;
     }
-    if (select.value === asTyped) store.set(opts.path, isNumberText(t) ? Number(t) : t);
+    // Text that is not a plain number (a unit typed in the box, "12 LL", or a typo) is stored as
+    // typed, so the server's message quotes what the user wrote, not it with the picker's unit.
+    if (select.value === asTyped || !isNumberText(t)) store.set(opts.path, isNumberText(t) ? Number(t) : t);
     else store.set(opts.path, `${t} ${select.value}`);
   };
   input.addEventListener('input', () => {

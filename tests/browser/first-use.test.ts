@@ -236,6 +236,23 @@ describe('first use of the page', () => {
     noPageErrors(record);
   }, stepTimeout);
 
+  it('items 1 and 6: a unit typo is quoted as typed, once, at the volume alone', async () => {
+    const { page, record } = await freshPage();
+    await typeInto(page, 'compartments[1].volume', '12 LL');
+    expect(await runAndWait(page)).toBe(400);
+    const volume = field(page, 'compartments[1].volume');
+    await expect.poll(() => volume.getAttribute('aria-invalid')).toBe('true');
+    const ids = ((await volume.getAttribute('aria-describedby')) ?? '').split(/\s+/).filter(Boolean);
+    const messages = (await Promise.all(ids.map((id) => page.locator(`[id="${id}"]`).textContent()))).join(' ');
+    // Before: "could not read '12 LL L'…", and the target window blamed as well.
+    expect(messages).toContain("could not read the unit 'LL' in '12 LL'");
+    expect(messages).not.toContain('LL L');
+    expect(await field(page, 'output.thresholds[0].compartment').getAttribute('aria-invalid')).not.toBe('true');
+    expect(record.pageErrors).toEqual([]);
+    // The browser logs the 400 answer itself as a failed resource; nothing else may be logged.
+    expect(record.consoleErrors.map((e) => e.text).filter((t) => !/status of 400/.test(t))).toEqual([]);
+  }, stepTimeout);
+
   it('item 13: printing gives the caution, a summary of the scenario, the plot and the figures — no form, no buttons', async () => {
     const { page, record } = await freshPage();
     await page.emulateMedia({ media: 'print' });
