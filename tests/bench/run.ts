@@ -10,6 +10,11 @@
  * The script runs as one JavaScript bundle (esbuild, packages left external) under plain
  * node: run through tsx's module loader, every path measured 20–40% slower, the faster
  * ones more, which is the loader's cost and not the engine's.
+ *
+ * Last, the start-up of the built command line (the demo's own process against a bare
+ * `node -e 0` in the same run, as a ratio; target ≤ 4×) and of a fresh built server
+ * (first answer, idle memory), each beside the sources run through tsx (startup.ts; alone:
+ * `npm run bench:startup`).
  */
 import { spawnSync } from 'node:child_process';
 import { mkdirSync, writeFileSync } from 'node:fs';
@@ -20,6 +25,7 @@ import { simulate, simulateModel } from '../../models/simulate.ts';
 import { singleDose, singleDoseVsExpm, superposed } from './closed-form.ts';
 import { GridSeries, prepare, readModel, runEngine, runOdex, type EngineRun, type OdexRun } from './paths.ts';
 import { phaseNames, simulatePhases, type PhaseName } from './phases.ts';
+import { measureStartup, startupReport } from './startup.ts';
 import { AMOUNT_SCALE, halvexin, linearScenario, saturableScenario, type SolverBlock } from './scenario.ts';
 import { summarise, timeBlocks, type Job, type Timing } from './timing.ts';
 
@@ -453,6 +459,11 @@ const memoryPrimary = memory[0];
 const memoryIncrease = increase(memoryPrimary);
 const memoryPass = memoryIncrease < TARGET_MEMORY_MB;
 
+// ---------- start-up ----------
+section('Start-up: the built command line and server against a bare node start (startup.ts)');
+const startup = await measureStartup();
+console.log(startupReport(startup));
+
 // ---------- summary ----------
 section('Summary (markdown)');
 const best = (method: string) => pairings.filter((p) => p.method === method);
@@ -485,6 +496,19 @@ const summaryRows: string[][] = [
     `+${memoryIncrease.toFixed(0)} MB (process peak ${memoryPrimary.simulatePeakMB.toFixed(0)} MB, of which ${memoryPrimary.baselineRssMB.toFixed(0)} MB before the call)`,
     `< ${TARGET_MEMORY_MB} MB`,
     passFail(memoryPass),
+  ],
+  [
+    'Demo process (`node dist/server/cli.js simulate … --format text`) vs `node -e 0`',
+    `${ratio(startup.cli.ratio)} (${ms(startup.cli.built.median)} vs ${ms(startup.cli.bare.median)} ms)${startup.cli.sourcesRatio === null ? '' : `; from the sources through tsx ${ratio(startup.cli.sourcesRatio)}`}`,
+    `≤ ${startup.target}×`,
+    passFail(startup.pass),
+  ],
+  [
+    'Fresh built server: spawn to first 200 of /api/simulate; idle RSS with its workers',
+    `${ms(startup.server.built.firstOk.median)} ms; ${startup.server.built.idleRss ? `${startup.server.built.idleRss.median.toFixed(0)} MB` : 'n/a'}` +
+      (startup.server.sources ? ` (sources through tsx: ${ms(startup.server.sources.firstOk.median)} ms; ${startup.server.sources.idleRss ? `${startup.server.sources.idleRss.median.toFixed(0)} MB` : 'n/a'})` : ''),
+    '(context)',
+    '',
   ],
   [
     'Memory, 1e6 output times, + resultToJsonText()',
@@ -521,12 +545,14 @@ const artifact = {
     pass: satPass,
   },
   memory: { runs: memory, primaryIncreaseMB: memoryIncrease, pass: memoryPass },
+  startup,
   targets: {
     odexRatio: TARGET_ODEX_RATIO,
     odexRatioAim: AIM_ODEX_RATIO,
     exactRatio: TARGET_EXACT_RATIO,
     saturableMs: TARGET_SATURABLE_MS,
     memoryMB: TARGET_MEMORY_MB,
+    startupRatio: startup.target,
   },
   summaryMarkdown,
   wallSeconds: (performance.now() - wallStart) / 1000,
