@@ -201,8 +201,12 @@ function steadyBlock(id: string, cur: Result, ref: Result | null, labels: DoseLa
     { name: 'Time to 90% of steady state', ...pair((x) => x.timeTo90, (x) => x.time, `ss-t90-${id}`, (x) => cycles(x.cyclesTo90)) },
     { name: 'Time to 95% of steady state', ...pair((x) => x.timeTo95, (x) => x.time, `ss-t95-${id}`, (x) => cycles(x.cyclesTo95)) },
   ];
-  box.append(figureTable(`Steady state, dosing cycle τ = ${fmt(ss.period)} ${u.time}`, rows, ref !== null, 'steady-table'));
-  box.append(h('p', { class: 'note', 'data-testid': 'steady-message' }, `Found as: ${plainDoseWords(ss.message, labels.current)}.`));
+  box.append(figureTable(`Steady state of the regimen continued, dosing cycle τ = ${fmt(ss.period)} ${u.time}`, rows, ref !== null, 'steady-table'));
+  const notThere = cur.diagnostics.warnings.filter((w) => w.includes('is not at steady state'));
+  for (const w of notThere) box.append(h('p', { class: 'note warning-note', 'data-testid': 'steady-not-there' }, plainDoseWords(w, labels.current)));
+  box.append(
+    h('p', { class: 'note', 'data-testid': 'steady-message' }, `Found as: ${plainDoseWords(ss.message, labels.current)}. Time to 90% (95%): ${ss.approachDefinition}.`),
+  );
   return box;
 }
 

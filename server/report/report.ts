@@ -322,12 +322,14 @@ function exposureSection(doc: PDFKit.PDFDocument, model: Model, result: Simulati
 
 function steadyStateTable(doc: PDFKit.PDFDocument, model: Model, result: SimulationResult, ss: SteadyStateFigures | null): void {
   const u = result.units;
-  heading(doc, 'Steady state', 2, 50);
+  heading(doc, 'Steady state of the regimen continued', 2, 50);
   if (!ss) {
     paragraph(doc, 'No dose line repeats, so there is no steady state to report.');
     return;
   }
-  paragraph(doc, `${ss.reached ? 'Reached' : 'Not reached'}: ${plainDoseWords(ss.message, doseLabels(model))}.`, { size: type.small });
+  paragraph(doc, `${ss.reached ? 'Computed' : 'Not computed'}: ${plainDoseWords(ss.message, doseLabels(model))}. These figures describe the maintenance regimen continued without end, whether or not the simulated span gets there.`, { size: type.small });
+  // Said here, beside the figures, and not only among the warnings: the course ends first.
+  for (const w of result.diagnostics.warnings.filter((x) => x.includes('is not at steady state'))) paragraph(doc, w, { size: type.small });
   if (!ss.reached) return;
   const withVolume = ss.compartments.filter((c) => result.compartments.find((s) => s.id === c.compartment)?.concentration);
   const reached = (time: number | null, cycles: number | null) => (time === null ? '—' : `${fmt(time)} (${cycles} cycle${cycles === 1 ? '' : 's'})`);
@@ -342,7 +344,7 @@ function steadyStateTable(doc: PDFKit.PDFDocument, model: Model, result: Simulat
     [`90% of AUCτ reached after (${u.time})`, (c) => reached(c.timeTo90, c.cyclesTo90)],
     [`95% of AUCτ reached after (${u.time})`, (c) => reached(c.timeTo95, c.cyclesTo95)],
   ];
-  const footnote = `One dosing cycle τ = ${duration(ss.period, model.units.time)} at steady state; Tmax is counted from the start of the cycle. Fluctuation in percent of Cavg. The time to 90% (95%) runs from the first maintenance dose until a cycle's AUC reaches 90% (95%) of AUCτ. Method: ${ss.method === 'closed-form' ? 'closed form from the cycle propagator' : 'dosing cycles iterated'}, ${ss.cycles} cycles, residual ${fmt(ss.residual, 2)}.`;
+  const footnote = `One dosing cycle τ = ${duration(ss.period, model.units.time)} at steady state; Tmax is counted from the start of the cycle. Fluctuation in percent of Cavg. Time to 90% (95%): ${ss.approachDefinition}. Method: ${ss.method === 'closed-form' ? 'closed form from the cycle propagator' : 'dosing cycles iterated'}, ${ss.cycles} cycles, residual ${fmt(ss.residual, 2)}.`;
   // One column per compartment, four at most per table; the note goes with the last table.
   for (let first = 0; first < withVolume.length; first += 4) {
     const group = withVolume.slice(first, first + 4);

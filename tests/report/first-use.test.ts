@@ -115,3 +115,19 @@ describe('a table keeps its note', () => {
     }
   });
 });
+
+describe('the steady state as the regimen continued (item 4)', () => {
+  it('says plainly when the course ends before steady state, beside the steady-state figures', () => {
+    // Clearance 0.42 L/h in 42 L: k = 0.01 /h, 90% of steady state at about 230 h (ln 10/k for
+    // the AUC-based definition, bolus-like oral absorption); the sample's week ends at 168 h.
+    const scenario = readSample('velarin-oral-bid');
+    (scenario.transfers as { cl?: string }[])[1].cl = '0.42 L/h';
+    // Lines of a paragraph joined: a phrase may wrap anywhere.
+    const text = reportText(scenario).join('\n').replace(/\n/g, ' ');
+    expect(text).toContain('Steady state of the regimen continued');
+    expect(text).toMatch(/Computed: steady state of dose line 1 — maintenance/);
+    expect(text).toMatch(/whether or not the simulated span gets there/);
+    expect(text).toMatch(/'central' is not at steady state by the end of the span \(168 h\): 90% of steady state takes [\d.]+ h/);
+    expect(text).not.toMatch(/\bReached\b/);
+  });
+});
