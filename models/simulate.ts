@@ -243,8 +243,10 @@ function numericalProblem(e: unknown, model: Model, layout: StateLayout): Proble
     }[e.reason];
     // With a fixed step, the step is what sets the count of steps and the memory they take.
     const stepBound = model.solver.step !== null && (e.reason === 'too-many-steps' || e.reason === 'too-much-memory');
+    // A fixed step's budget is refused before the first step: no failure happened at a time in a state.
+    if (stepBound) return { path: 'solver.step', message: e.message };
     return {
-      path: stepBound ? 'solver.step' : 'solver',
+      path: 'solver',
       message: `numerical failure at t = ${formatNumber(e.time)} ${model.units.time} in ${stateName(e.component, model, layout)}: ${what}`,
     };
   }

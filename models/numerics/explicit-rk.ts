@@ -429,7 +429,7 @@ export function tooManyFixedSteps(h: number, steps: number, t0: number, t1: numb
     'too-many-steps',
     t,
     null,
-    `a fixed step of ${fmt6(h)} needs ${count} steps from t = ${fmt6(t0)} to t = ${fmt6(t1)}, more than the ${budget} allowed (maxSteps): the budget runs out at t = ${fmt6(t)}; use a larger step`,
+    `a fixed step of ${fmt6(h)} needs ${count} steps from t = ${fmt6(t0)} to t = ${fmt6(t1)}, more than solver.maxSteps (${budget}) allows: the budget runs out at t = ${fmt6(t)}; use a larger step`,
   );
 }
 
