@@ -29,13 +29,13 @@ const concurrency = Math.round(option('concurrency', 32));
 const heavyLanes = process.argv.includes('--no-heavy') ? 0 : 2;
 
 const readSample = (id: string) => JSON.parse(readFileSync(`${root}samples/${id}.json`, 'utf8')) as Record<string, unknown>;
-const light = JSON.stringify(readSample('velarin-oral-bid'));
-const kestrazole = readSample('kestrazole-saturable-dose-increase');
+const light = JSON.stringify(readSample('brennock-oral-bid'));
+const skorvel = readSample('skorvel-saturable-dose-increase');
 const heavy = JSON.stringify({
-  ...kestrazole,
+  ...skorvel,
   title: 'load check: long fine grid',
-  doses: [{ ...(kestrazole.doses as object[])[0], count: 1000 }],
-  output: { ...(kestrazole.output as object), end: '1000 day', step: '15 min' },
+  doses: [{ ...(skorvel.doses as object[])[0], count: 1000 }],
+  output: { ...(skorvel.output as object), end: '1000 day', step: '15 min' },
   solver: { method: 'dopri5', rtol: 1e-12, atol: 1e-14 },
 });
 
@@ -176,7 +176,7 @@ async function main(): Promise<number> {
     const p50 = percentile(times, 50);
     const p99 = percentile(times, 99);
     const mb = (x: number | undefined) => (x === undefined || !Number.isFinite(x) ? 'unavailable' : `${Math.round(x)} MB`);
-    console.log(`load check: ${concurrency} light lanes (velarin demo) + ${heavyLanes} heavy lanes for ${seconds} s against ${base}`);
+    console.log(`load check: ${concurrency} light lanes (brennock demo) + ${heavyLanes} heavy lanes for ${seconds} s against ${base}`);
     console.log(`light: ${lights.length} requests in ${elapsed.toFixed(1)} s = ${(lights.length / elapsed).toFixed(1)} per s; p50 ${p50.toFixed(0)} ms, p99 ${p99.toFixed(0)} ms, max ${times[times.length - 1].toFixed(0)} ms; ${failed.length} not 200`);
     for (const f of failed.slice(0, 3)) console.log(`  failed light request: status ${f.status} ${f.problem ?? ''}`);
     heavies.forEach((h, i) => {

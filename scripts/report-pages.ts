@@ -1,6 +1,6 @@
 /**
  * `npm run report:pages [-- SCENARIO.json [--reference OTHER.json]]`: renders every page of
- * the report of a scenario (default samples/velarin-oral-bid.json) to PNG for a look by eye,
+ * the report of a scenario (default samples/brennock-oral-bid.json) to PNG for a look by eye,
  * with pdftoppm (poppler-utils) at 80 dpi into tests/artifacts/report/, and page 1 at 60 dpi
  * into docs/report-page-1.png for the README. Not a test: it only writes files.
  */
@@ -15,7 +15,7 @@ const args = process.argv.slice(2);
 const refAt = args.indexOf('--reference');
 const referenceFile = refAt >= 0 ? args[refAt + 1] : undefined;
 const positional = refAt >= 0 ? args.filter((_, i) => i !== refAt && i !== refAt + 1) : args;
-const scenarioFile = positional[0] ?? join(root, 'samples/velarin-oral-bid.json');
+const scenarioFile = positional[0] ?? join(root, 'samples/brennock-oral-bid.json');
 const writeDocsPage = positional[0] === undefined;
 
 function readJson(path: string): unknown {

@@ -71,7 +71,7 @@ export function download(filename: string, text: string, type: string): void {
   setTimeout(() => URL.revokeObjectURL(url), 1000);
 }
 
-/** A file name from a title: "Velarin 400 mg…" → "velarin-400-mg". */
+/** A file name from a title: "Brennock 400 mg…" → "brennock-400-mg". */
 export function slug(text: string | undefined, fallback: string): string {
   const s = (text ?? '')
     .toLowerCase()

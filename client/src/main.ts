@@ -26,7 +26,7 @@ import { emptyScenario, formProblem, ScenarioStore, type ScenarioDoc } from './s
 import { renderPrintSummary } from './print-summary.ts';
 import { renderTimeline } from './timeline.ts';
 
-const defaultSample = 'velarin-oral-bid';
+const defaultSample = 'brennock-oral-bid';
 
 const store = new ScenarioStore();
 const formRoot = byId<HTMLFormElement>('scenario-form');

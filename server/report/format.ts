@@ -45,7 +45,7 @@ export function timePoint(value: number, timeUnit: string): string {
   return base;
 }
 
-/** A file-name-safe slug of a title: "Velarin 400 mg…" → "velarin-400-mg". */
+/** A file-name-safe slug of a title: "Brennock 400 mg…" → "brennock-400-mg". */
 export function slug(text: string, fallback = 'scenario'): string {
   const s = text
     .toLowerCase()

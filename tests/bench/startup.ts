@@ -4,7 +4,7 @@
  * not move with it as much).
  *
  * - CLI: wall time of the demo process alone, `node dist/server/cli.js simulate
- *   samples/velarin-oral-bid.json --format text` (no npm start-up), from spawn to exit, in
+ *   samples/brennock-oral-bid.json --format text` (no npm start-up), from spawn to exit, in
  *   rounds that alternate it with `node -e 0`; the same demo from the TypeScript sources
  *   through tsx (`node --import tsx server/cli.ts …`, what `npm run demo` ran before the
  *   build) for context, in fewer rounds (seconds each).
@@ -30,7 +30,7 @@ function projectRoot(): string {
 }
 
 export const root = projectRoot();
-export const demoArgs = ['simulate', 'samples/velarin-oral-bid.json', '--format', 'text'];
+export const demoArgs = ['simulate', 'samples/brennock-oral-bid.json', '--format', 'text'];
 /** The issue's bound: the demo's own process within 4× a bare node start. */
 export const TARGET_STARTUP_RATIO = 4;
 
@@ -68,7 +68,7 @@ export function ensureBuilt(): void {
   }
 }
 
-const demoOutput = (stdout: string) => stdout.includes('Velarin') && stdout.length > 200;
+const demoOutput = (stdout: string) => stdout.includes('Brennock') && stdout.length > 200;
 
 export interface CliStartup {
   bare: Samples;
@@ -146,7 +146,7 @@ export interface ServerRun {
  */
 async function serverRun(args: string[]): Promise<ServerRun> {
   const port = await freePort();
-  const body = readFileSync(join(root, 'samples', 'velarin-oral-bid.json'), 'utf8');
+  const body = readFileSync(join(root, 'samples', 'brennock-oral-bid.json'), 'utf8');
   const t0 = performance.now();
   const child = spawn(process.execPath, args, { cwd: root, env: { ...process.env, PORT: String(port), HOST: '127.0.0.1' }, stdio: ['ignore', 'ignore', 'pipe'] });
   let stderr = '';

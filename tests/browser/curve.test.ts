@@ -5,7 +5,7 @@ import { describe, expect, it } from 'vitest';
 import { curvePoints, m4, type CurvePoint } from '../../client/src/curve.ts';
 
 // One-compartment oral absorption with a lag (the Bateman function, e.g. Gibaldi & Perrier,
-// Pharmacokinetics, 2nd ed., eq. 1.80), the shape of the velarin sample's first interval.
+// Pharmacokinetics, 2nd ed., eq. 1.80), the shape of the brennock sample's first interval.
 const ka = 0.9;
 const k = 0.1;
 const lag = 1 / 3;

@@ -4,7 +4,7 @@
 // unit, "doses[1]" in the steady-state words, printing, compare mode at 1440 px, the output
 // step's unit and point count, kinetics switches and removals that lost what was typed, and
 // the names of new compartments. Each test opens its own page, which loads and runs the
-// default sample (the fictional velarin, samples/velarin-oral-bid.json) by itself.
+// default sample (the fictional brennock, samples/brennock-oral-bid.json) by itself.
 import { execFileSync } from 'node:child_process';
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -30,7 +30,7 @@ beforeAll(async () => {
   server = await startServer();
   tempDir = mkdtempSync(join(tmpdir(), 'tidemark-first-use-'));
   // The pool's workers load the engine when they start; one run here waits for that.
-  const sample = await fetch(new URL('api/samples/velarin-oral-bid', server.baseUrl)).then((r) => r.json());
+  const sample = await fetch(new URL('api/samples/brennock-oral-bid', server.baseUrl)).then((r) => r.json());
   const warm = await fetch(new URL('api/simulate', server.baseUrl), { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(sample) });
   if (warm.status !== 200) throw new Error(`the server did not simulate the sample (${warm.status})`);
   context = await browser.newContext({ viewport: { width: 1366, height: 900 }, deviceScaleFactor: 1, acceptDownloads: true });
@@ -273,7 +273,7 @@ describe('first use of the page', () => {
     writeFileSync(path, pdf);
     const text = execFileSync('pdftotext', ['-enc', 'UTF-8', path, '-'], { encoding: 'utf8' }).replace(/\s+/g, ' ');
     expect(text).toContain('not dosing advice');
-    expect(text).toContain('Velarin 400 mg by mouth twice daily');
+    expect(text).toContain('Brennock 400 mg by mouth twice daily');
     expect(text).toContain('Dose line 1 — maintenance: 400 mg into gut');
     expect(text).toContain('Concentration over time');
     expect(text).toContain('Compartment central');

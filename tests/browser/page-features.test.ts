@@ -3,7 +3,7 @@
 // export, compare with a kept reference, plot controls (log axis, zoom), the PDF report,
 // keyboard-only use, and the layout at a narrow and a wide window. One server and one
 // browser for the file; each test opens its own page, which loads and runs the default
-// sample (the fictional velarin, samples/velarin-oral-bid.json) by itself.
+// sample (the fictional brennock, samples/brennock-oral-bid.json) by itself.
 // Screenshots go to tests/artifacts/browser/features-*.png (git-ignored).
 import { execFileSync } from 'node:child_process';
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
@@ -18,7 +18,7 @@ import { afterNewResult, captureDownload, field, openApp, runAndWait, typeInto, 
 
 // A browser, a server and a build: generous, and the same for every step (no speed is tested).
 const stepTimeout = 120_000;
-const sampleId = 'velarin-oral-bid';
+const sampleId = 'brennock-oral-bid';
 
 let server: RunningServer | null = null;
 let browser: Browser | null = null;
@@ -265,7 +265,7 @@ describe('page features in Chromium', () => {
     const { page, record } = await freshPage();
     const refTitle = String(sample.title);
     await page.getByTestId('keep-reference').click();
-    const newTitle = 'Velarin 600 mg by mouth twice daily, higher dose';
+    const newTitle = 'Brennock 600 mg by mouth twice daily, higher dose';
     await typeInto(page, 'title', newTitle);
     await typeInto(page, 'doses[0].amount', '600');
     const pdf = await captureDownload(page, () => page.getByTestId('download-report').click());

@@ -27,7 +27,7 @@ beforeAll(async () => {
   server = await startServer();
   // The pool's workers load the engine when they start; one run here waits for that, so
   // the first page step does not carry it.
-  const warm = await fetch(new URL('api/samples/velarin-oral-bid', server.baseUrl)).then((r) => r.text());
+  const warm = await fetch(new URL('api/samples/brennock-oral-bid', server.baseUrl)).then((r) => r.text());
   const warmRun = await fetch(new URL('api/simulate', server.baseUrl), { method: 'POST', headers: { 'content-type': 'application/json' }, body: warm });
   if (warmRun.status !== 200) throw new Error(`the server did not simulate a sample (status ${warmRun.status}): ${await warmRun.text()}`);
   context = await browser.newContext({ viewport: { width: 1366, height: 900 }, deviceScaleFactor: 1, acceptDownloads: false });

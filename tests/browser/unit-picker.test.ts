@@ -93,7 +93,7 @@ describe('the unit picker on the page', () => {
       const { page, record } = await freshPage();
       const before = await resultOf(page);
 
-      // The velarin sample: k 0.9 1/h, CL 4.2 L/h, V 42 L, lag 20 min.
+      // The brennock sample: k 0.9 1/h, CL 4.2 L/h, V 42 L, lag 20 min.
       const changes: [path: string, to: string, number: string, note: string][] = [
         ['transfers[0].k', '1/min', '0.015', 'converted 0.9 1/h → 0.015 1/min'],
         ['transfers[1].cl', 'mL/min', '70', 'converted 4.2 L/h → 70 mL/min'],
@@ -140,7 +140,7 @@ describe('the unit picker on the page', () => {
     'a unit from a file that the page cannot convert keeps the number and says so',
     async () => {
       const { page, record } = await freshPage();
-      const sample = JSON.parse(readFileSync(join(repoRoot, 'samples/velarin-oral-bid.json'), 'utf8'));
+      const sample = JSON.parse(readFileSync(join(repoRoot, 'samples/brennock-oral-bid.json'), 'utf8'));
       sample.compartments[1].volume = '4200 cL'; // centilitres: mathjs reads them, the page's tables do not
       const file = join(tempDir, 'centilitres.json');
       writeFileSync(file, JSON.stringify(sample));

@@ -12,8 +12,8 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { runCli } from '../../server/cli.ts';
 
 const root = fileURLToPath(new URL('../../', import.meta.url));
-const velarin = join(root, 'samples/velarin-oral-bid.json');
-const tessamide = join(root, 'samples/tessamide-three-compartment-bolus.json');
+const brennock = join(root, 'samples/brennock-oral-bid.json');
+const merridune = join(root, 'samples/merridune-three-compartment-bolus.json');
 
 let dir: string;
 let invalidFile: string;
@@ -63,7 +63,7 @@ const noStack = (text: string) => {
 
 describe('simulate', () => {
   it('prints the result as JSON: times, amounts, concentrations (null for the depot), metrics, diagnostics, units', () => {
-    const out = runCli(['simulate', velarin]);
+    const out = runCli(['simulate', brennock]);
     expect(out.code).toBe(0);
     expect(out.stderr).toBe(''); // the sample gives no warnings
     const r = JSON.parse(out.stdout);
@@ -91,8 +91,8 @@ describe('simulate', () => {
   });
 
   it('prints CSV with one header and one row per reported time', () => {
-    const json = JSON.parse(runCli(['simulate', velarin]).stdout);
-    const out = runCli(['simulate', velarin, '--format', 'csv']);
+    const json = JSON.parse(runCli(['simulate', brennock]).stdout);
+    const out = runCli(['simulate', brennock, '--format', 'csv']);
     expect(out.code).toBe(0);
     const lines = out.stdout.trimEnd().split('\n');
     expect(lines).toHaveLength(json.times.length + 1);
@@ -107,17 +107,17 @@ describe('simulate', () => {
   });
 
   it('--format=csv (inline value) works the same', () => {
-    expect(runCli(['simulate', tessamide, '--format=csv']).stdout).toBe(runCli(['simulate', tessamide, '--format', 'csv']).stdout);
+    expect(runCli(['simulate', merridune, '--format=csv']).stdout).toBe(runCli(['simulate', merridune, '--format', 'csv']).stdout);
   });
 
   it('--out returns the text to write instead of printing it', () => {
     const target = join(dir, 'in-process.json');
-    const out = runCli(['simulate', velarin, '--out', target]);
+    const out = runCli(['simulate', brennock, '--out', target]);
     expect(out.code).toBe(0);
     expect(out.stdout).toBe('');
     expect(out.stderr).toContain(`wrote result to ${target}`);
     expect(out.file?.path).toBe(target);
-    expect(JSON.parse(out.file?.text ?? '').times).toEqual(JSON.parse(runCli(['simulate', velarin]).stdout).times);
+    expect(JSON.parse(out.file?.text ?? '').times).toEqual(JSON.parse(runCli(['simulate', brennock]).stdout).times);
   });
 
   it('an invalid scenario exits 1 with one "path: message" line per problem', () => {
@@ -136,9 +136,9 @@ describe('simulate', () => {
 
 describe('validate', () => {
   it('a valid scenario exits 0 with a one-line summary', () => {
-    const out = runCli(['validate', velarin]);
+    const out = runCli(['validate', brennock]);
     expect(out.code).toBe(0);
-    expect(out.stdout).toBe(`${velarin}: valid — 2 compartments, 2 transfers, 14 administrations, linear model\n`);
+    expect(out.stdout).toBe(`${brennock}: valid — 2 compartments, 2 transfers, 14 administrations, linear model\n`);
     expect(out.stderr).toBe('');
   });
 
@@ -168,7 +168,7 @@ describe('schema', () => {
     expect(schema.properties.doses.items.properties).toHaveProperty('bioavailability');
     expect(schema.properties.solver.properties.method.enum).toEqual(expect.arrayContaining(['auto', 'exact', 'dop853', 'rk4']));
     // Every key the samples use is described by the schema (unknown keys are rejected).
-    const sample = JSON.parse(readFileSync(velarin, 'utf8'));
+    const sample = JSON.parse(readFileSync(brennock, 'utf8'));
     for (const key of Object.keys(sample)) expect(schema.properties).toHaveProperty(key);
     expect(schema.additionalProperties).toBe(false);
   });
@@ -176,27 +176,27 @@ describe('schema', () => {
 
 describe('usage errors exit 2', () => {
   it('unknown command', () => {
-    const out = runCli(['simulat', velarin]);
+    const out = runCli(['simulat', brennock]);
     expect(out.code).toBe(2);
     expect(out.stderr).toMatch(/^unknown command 'simulat'/);
     expect(out.stderr).toContain('usage:');
   });
 
   it('bad --format', () => {
-    const out = runCli(['simulate', velarin, '--format', 'xml']);
+    const out = runCli(['simulate', brennock, '--format', 'xml']);
     expect(out.code).toBe(2);
     expect(out.stderr).toMatch(/--format must be .*not 'xml'/);
     expect(out.stdout).toBe('');
   });
 
   it('unknown option', () => {
-    const out = runCli(['simulate', velarin, '--fromat', 'csv']);
+    const out = runCli(['simulate', brennock, '--fromat', 'csv']);
     expect(out.code).toBe(2);
     expect(out.stderr).toMatch(/unknown option --fromat/);
   });
 
   it('option without a value', () => {
-    const out = runCli(['simulate', velarin, '--format']);
+    const out = runCli(['simulate', brennock, '--format']);
     expect(out.code).toBe(2);
     expect(out.stderr).toMatch(/--format needs a value/);
   });
@@ -238,7 +238,7 @@ describe('the output never replaces an input', () => {
   beforeAll(() => {
     mkdirSync(join(dir, 'inputs'), { recursive: true });
     victim = join(dir, 'inputs', 'victim.json');
-    writeFileSync(victim, readFileSync(velarin));
+    writeFileSync(victim, readFileSync(brennock));
     original = readFileSync(victim);
   });
 
@@ -273,7 +273,7 @@ describe('the output never replaces an input', () => {
   });
 
   it('report --out naming the --reference file is refused', () => {
-    refused(runCli(['report', velarin, '--reference', victim, '--out', victim]), victim, victim, 'reference file');
+    refused(runCli(['report', brennock, '--reference', victim, '--out', victim]), victim, victim, 'reference file');
   });
 
   it('an output beside the input, not the same file, is written as before', () => {
@@ -291,7 +291,7 @@ describe('control characters in user text reach the terminal as visible escapes'
   let unitFile: string;
   beforeAll(() => {
     titled = join(dir, 'hostile-title.json');
-    writeFileSync(titled, JSON.stringify({ ...JSON.parse(readFileSync(velarin, 'utf8')), title: hostileTitle }));
+    writeFileSync(titled, JSON.stringify({ ...JSON.parse(readFileSync(brennock, 'utf8')), title: hostileTitle }));
     belled = join(dir, 'hostile-id.json');
     writeFileSync(
       belled,
@@ -353,13 +353,13 @@ describe('control characters in user text reach the terminal as visible escapes'
 describe('--time-limit', () => {
   it('accepts seconds, 0 for none; anything else is a usage error', () => {
     for (const bad of ['-1', 'abc', '1e999', '', '5s']) {
-      const out = runCli(['simulate', velarin, '--time-limit', bad]);
+      const out = runCli(['simulate', brennock, '--time-limit', bad]);
       expect(out.code, bad).toBe(2);
       expect(out.stderr).toMatch(/^--time-limit must be a number of seconds \(0 for none\)/);
     }
-    expect(runCli(['simulate', velarin, '--time-limit', '0', '--format', 'csv']).code).toBe(0);
-    expect(runCli(['report', velarin, '--time-limit=2.5', '--out', join(dir, 'limit.pdf')]).code).toBe(0);
-    expect(runCli(['validate', velarin, '--time-limit', '3']).code).toBe(2); // validate has no computation to bound
+    expect(runCli(['simulate', brennock, '--time-limit', '0', '--format', 'csv']).code).toBe(0);
+    expect(runCli(['report', brennock, '--time-limit=2.5', '--out', join(dir, 'limit.pdf')]).code).toBe(0);
+    expect(runCli(['validate', brennock, '--time-limit', '3']).code).toBe(2); // validate has no computation to bound
   });
 });
 
@@ -369,14 +369,14 @@ describe('as a real process', () => {
     spawnSync('npx', ['tsx', 'server/cli.ts', ...args], { cwd: root, encoding: 'utf8', timeout: 120_000 });
 
   it('simulate --format csv --out FILE exits 0 and writes the file', () => {
-    const target = join(dir, 'velarin.csv');
-    const run = cli('simulate', 'samples/velarin-oral-bid.json', '--format', 'csv', '--out', target);
+    const target = join(dir, 'brennock.csv');
+    const run = cli('simulate', 'samples/brennock-oral-bid.json', '--format', 'csv', '--out', target);
     expect(run.error).toBeUndefined();
     expect(run.status).toBe(0);
     expect(run.stdout).toBe('');
     expect(run.stderr).toContain(`wrote result to ${target}`);
     expect(existsSync(target)).toBe(true);
-    expect(readFileSync(target, 'utf8')).toBe(runCli(['simulate', velarin, '--format', 'csv']).stdout);
+    expect(readFileSync(target, 'utf8')).toBe(runCli(['simulate', brennock, '--format', 'csv']).stdout);
   });
 
   it('validate of an invalid scenario exits 1 with path lines on stderr', () => {
@@ -388,7 +388,7 @@ describe('as a real process', () => {
 
   it('--out naming the scenario file exits 2 and leaves the scenario byte-identical', () => {
     const victim = join(dir, 'process-victim.json');
-    writeFileSync(victim, readFileSync(velarin));
+    writeFileSync(victim, readFileSync(brennock));
     const before = readFileSync(victim);
     const run = cli('simulate', victim, '--format', 'csv', '--out', victim);
     expect(run.status).toBe(2);
@@ -405,7 +405,7 @@ describe('as a real process', () => {
     const prev = join(folder, 'prev.pdf');
     writeFileSync(prev, '%PDF-1.3 the previous report, kept whole\n'.repeat(10));
     const before = readFileSync(prev);
-    const run = spawnSync('bash', ['-c', 'ulimit -f 16 && exec node --import tsx server/cli.ts report "$1" --out "$2"', 'bash', velarin, prev], {
+    const run = spawnSync('bash', ['-c', 'ulimit -f 16 && exec node --import tsx server/cli.ts report "$1" --out "$2"', 'bash', brennock, prev], {
       cwd: root,
       encoding: 'utf8',
       timeout: 120_000,

@@ -8,10 +8,10 @@ import { describe, expect, it } from 'vitest';
 import { simulate } from '../../models/simulate.ts';
 
 type Scenario = Record<string, any>;
-const velarin: Scenario = JSON.parse(readFileSync('samples/velarin-oral-bid.json', 'utf8'));
+const brennock: Scenario = JSON.parse(readFileSync('samples/brennock-oral-bid.json', 'utf8'));
 
 function variant(change: (s: Scenario) => void): Scenario {
-  const s = structuredClone(velarin);
+  const s = structuredClone(brennock);
   change(s);
   return s;
 }

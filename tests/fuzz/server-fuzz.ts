@@ -32,7 +32,7 @@ export interface FuzzSummary {
   ordinarySlowestMs: number;
 }
 
-const ordinary = JSON.parse(readFileSync('samples/velarin-oral-bid.json', 'utf8')) as object;
+const ordinary = JSON.parse(readFileSync('samples/brennock-oral-bid.json', 'utf8')) as object;
 const routes = ['/api/simulate', '/api/validate', '/api/report'] as const;
 
 export async function fuzzServer(options: FuzzOptions): Promise<FuzzSummary> {

@@ -19,7 +19,7 @@ import { simulate } from '../../models/simulate.ts';
 import { CompartmentSystem } from '../../models/system.ts';
 import { decay, oscillator, twoState } from './test-problems.ts';
 
-const velarin = JSON.parse(readFileSync(new URL('../../samples/velarin-oral-bid.json', import.meta.url), 'utf8'));
+const brennock = JSON.parse(readFileSync(new URL('../../samples/brennock-oral-bid.json', import.meta.url), 'utf8'));
 
 function failureOf(action: () => void): IntegrationFailure {
   try {
@@ -31,9 +31,9 @@ function failureOf(action: () => void): IntegrationFailure {
   throw new Error('expected an IntegrationFailure');
 }
 
-/** The velarin sample's schedule through the numerical path with the given solver settings. */
-function velarinRun(solver: Record<string, unknown>, stats: SolverStats) {
-  const model = normaliseScenario({ ...velarin, solver });
+/** The brennock sample's schedule through the numerical path with the given solver settings. */
+function brennockRun(solver: Record<string, unknown>, stats: SolverStats) {
+  const model = normaliseScenario({ ...brennock, solver });
   if (!model.ok) throw new Error(JSON.stringify(model.problems));
   const system = new CompartmentSystem(model.value);
   return () => integrateSchedule(system, scheduleOf(model.value), new Float64Array(system.dimension), model.value.solver, stats);
@@ -71,10 +71,10 @@ describe.each(METHODS)('%s: step budget', (_name, run) => {
   });
 });
 
-describe('velarin sample, euler with step 1e-5 and maxSteps 100 (hardening issue, point 2)', () => {
+describe('brennock sample, euler with step 1e-5 and maxSteps 100 (hardening issue, point 2)', () => {
   it('fails with too-many-steps before the first step instead of taking 16.8 million', () => {
     const stats = emptyStats();
-    const f = failureOf(velarinRun({ method: 'euler', step: 1e-5, maxSteps: 100 }, stats));
+    const f = failureOf(brennockRun({ method: 'euler', step: 1e-5, maxSteps: 100 }, stats));
     expect(f.reason).toBe('too-many-steps');
     // Refused from the step count alone: nothing integrated, nothing stored.
     expect(stats.acceptedSteps).toBe(0);
@@ -86,7 +86,7 @@ describe('velarin sample, euler with step 1e-5 and maxSteps 100 (hardening issue
   });
 
   it('through simulate(): a problem under path solver naming maxSteps', () => {
-    const result = simulate({ ...velarin, solver: { method: 'euler', step: 1e-5, maxSteps: 100 } });
+    const result = simulate({ ...brennock, solver: { method: 'euler', step: 1e-5, maxSteps: 100 } });
     expect(result.ok).toBe(false);
     if (result.ok) return;
     // 'solver', or 'solver.step' where simulate() names the fixed step as the setting to change.
@@ -96,7 +96,7 @@ describe('velarin sample, euler with step 1e-5 and maxSteps 100 (hardening issue
 
   it.each(['heun', 'rk4', 'abm2'])('%s: the same refusal', (method) => {
     const stats = emptyStats();
-    const f = failureOf(velarinRun({ method, step: 1e-5, maxSteps: 100 }, stats));
+    const f = failureOf(brennockRun({ method, step: 1e-5, maxSteps: 100 }, stats));
     expect(f.reason).toBe('too-many-steps');
     expect(stats.derivativeEvaluations).toBe(0);
   });
@@ -105,7 +105,7 @@ describe('velarin sample, euler with step 1e-5 and maxSteps 100 (hardening issue
     // Step 0.01 h: the first segment (to the 20 min lag) takes 34 steps, each 12 h interval 1200, the
     // last 11⅔ h 1167: 16801 in all. Each segment restarts its grid at its breakpoint.
     const stats = emptyStats();
-    const f = failureOf(velarinRun({ method: 'rk4', step: 0.01, maxSteps: 5000 }, stats));
+    const f = failureOf(brennockRun({ method: 'rk4', step: 0.01, maxSteps: 5000 }, stats));
     expect(f.reason).toBe('too-many-steps');
     expect(stats.derivativeEvaluations).toBe(0);
     expect(f.message).toMatch(/\b16801 steps/);
@@ -115,15 +115,15 @@ describe('velarin sample, euler with step 1e-5 and maxSteps 100 (hardening issue
 
   it('a budget that suffices is used as before', () => {
     const stats = emptyStats();
-    velarinRun({ method: 'euler', step: 0.01, maxSteps: 16_801 }, stats)();
+    brennockRun({ method: 'euler', step: 0.01, maxSteps: 16_801 }, stats)();
     expect(stats.acceptedSteps).toBe(16_801);
   });
 });
 
 describe('memory ceiling of the dense store', () => {
-  it('velarin, euler with step 5e-6: 33.6 million steps fit maxSteps (50 million) but not the store, refused before the first step', () => {
+  it('brennock, euler with step 5e-6: 33.6 million steps fit maxSteps (50 million) but not the store, refused before the first step', () => {
     const stats = emptyStats();
-    const f = failureOf(velarinRun({ method: 'euler', step: 5e-6, maxSteps: 50_000_000 }, stats));
+    const f = failureOf(brennockRun({ method: 'euler', step: 5e-6, maxSteps: 50_000_000 }, stats));
     expect(f.reason).toBe('too-much-memory');
     expect(stats.derivativeEvaluations).toBe(0);
     expect(f.message).toMatch(/1 GiB/);

@@ -19,20 +19,20 @@ import { concentration, expectWithin, figures, maxOf, rel, rowsOf, run, worstErr
 const EXACT = 1e-12;
 
 /**
- * Fictional "orvenol" by mouth, 300 mg (or `dose`) every 12 h with F = 0.7, a 30 min lag,
+ * Fictional "quorrel" by mouth, 300 mg (or `dose`) every 12 h with F = 0.7, a 30 min lag,
  * ka = 0.9 1/h, V = 35 L and CL = 5 L/h: the oral regimen of the superposition and
  * steady-state checks below.
  */
-const orvenol = { F: 0.7, ka: 0.9, V: 35, CL: 5, lag: 0.5, tau: 12 };
-function orvenolScenario(dose: number, count: number, end: number, step: number) {
+const quorrel = { F: 0.7, ka: 0.9, V: 35, CL: 5, lag: 0.5, tau: 12 };
+function quorrelScenario(dose: number, count: number, end: number, step: number) {
   return {
-    title: 'Orvenol 300 mg every 12 h',
-    compartments: [{ id: 'gut' }, { id: 'central', volume: orvenol.V }],
+    title: 'Quorrel 300 mg every 12 h',
+    compartments: [{ id: 'gut' }, { id: 'central', volume: quorrel.V }],
     transfers: [
-      { from: 'gut', to: 'central', k: orvenol.ka },
-      { from: 'central', cl: orvenol.CL },
+      { from: 'gut', to: 'central', k: quorrel.ka },
+      { from: 'central', cl: quorrel.CL },
     ],
-    doses: [{ into: 'gut', amount: dose, bioavailability: orvenol.F, lag: '30 min', every: orvenol.tau, count }],
+    doses: [{ into: 'gut', amount: dose, bioavailability: quorrel.F, lag: '30 min', every: quorrel.tau, count }],
     output: { end, step },
   };
 }
@@ -101,7 +101,7 @@ describe('one-compartment IV bolus: C(t) = (D/V)·e^{−kt}, k = CL/V', () => {
 });
 
 describe('first-order absorption: Bateman function', () => {
-  // Fictional "orvenol" by mouth: 300 mg, F = 0.7, ka = 0.9 1/h, V = 35 L, CL = 5 L/h.
+  // Fictional "quorrel" by mouth: 300 mg, F = 0.7, ka = 0.9 1/h, V = 35 L, CL = 5 L/h.
   const D = 300;
   const F = 0.7;
   const ka = 0.9;
@@ -117,7 +117,7 @@ describe('first-order absorption: Bateman function', () => {
   const tmaxOf = (lag: number) => lag + Math.log(ka / k) / (ka - k);
 
   const scenario = (lag: number, step: string) => ({
-    title: 'Orvenol 300 mg by mouth',
+    title: 'Quorrel 300 mg by mouth',
     compartments: [{ id: 'gut', label: 'Gut depot' }, { id: 'central', volume: `${V} L` }],
     transfers: [
       { from: 'gut', to: 'central', k: `${ka} 1/h` },
@@ -240,10 +240,10 @@ describe('superposition of repeated doses', () => {
   });
 
   it('an oral regimen with lag and bioavailability equals the sum of shifted Bateman curves', () => {
-    // Orvenol 300 mg every 12 h × 4.
-    const { F, ka, V: Vo, CL: CLo, lag } = orvenol;
+    // Quorrel 300 mg every 12 h × 4.
+    const { F, ka, V: Vo, CL: CLo, lag } = quorrel;
     const ko = CLo / Vo;
-    const result = run(orvenolScenario(300, 4, 60, 0.25));
+    const result = run(quorrelScenario(300, 4, 60, 0.25));
     const arrivals = [0, 12, 24, 36].map((g) => g + lag);
     const single = (s: number) => (s <= 0 ? 0 : ((F * 300 * ka) / (Vo * (ka - ko))) * (Math.expm1(-ko * s) - Math.expm1(-ka * s)));
     // Superposition (G&P ch. 3) of the Bateman function (ch. 1); the plasma curve is
@@ -316,11 +316,11 @@ describe('accumulation and steady state of repeated dosing', () => {
   });
 
   it('oral with lag: steady-state Bateman figures, AUC-based accumulation and Css,avg = F·Dose/(CL·τ)', () => {
-    // Orvenol 300 mg every 12 h, 20 doses.
+    // Quorrel 300 mg every 12 h, 20 doses.
     const D = 300;
-    const { F, ka, V, CL, tau, lag } = orvenol;
+    const { F, ka, V, CL, tau, lag } = quorrel;
     const k = CL / V;
-    const result = run(orvenolScenario(D, 20, 240, 1));
+    const result = run(quorrelScenario(D, 20, 240, 1));
     const ss = result.metrics.steadyState;
     expect(ss?.reached).toBe(true);
     if (!ss) return;

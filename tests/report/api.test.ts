@@ -8,7 +8,7 @@ import { loadSamples } from '../../server/samples.ts';
 import { SimulationPool } from '../../server/worker-pool.ts';
 import { failing, pdfPages, readSample, removeTempFiles } from './helpers.ts';
 
-const velarin = readSample('velarin-oral-bid');
+const brennock = readSample('brennock-oral-bid');
 let pool: SimulationPool;
 let app: ReturnType<typeof createApp>;
 
@@ -31,28 +31,28 @@ function binary(res: unknown, done: (err: Error | null, body: unknown) => void):
 
 describe('POST /api/report', () => {
   it('answers a PDF named after the title and the fingerprint', async () => {
-    const res = await request(app).post('/api/report').send(velarin).buffer(true).parse(binary).expect(200);
+    const res = await request(app).post('/api/report').send(brennock).buffer(true).parse(binary).expect(200);
     expect(res.headers['content-type']).toMatch(/^application\/pdf/);
-    expect(res.headers['content-disposition']).toBe(`attachment; filename="tidemark-velarin-400-mg-by-mouth-twice-daily-${scenarioFingerprint(velarin)}.pdf"`);
+    expect(res.headers['content-disposition']).toBe(`attachment; filename="tidemark-brennock-400-mg-by-mouth-twice-daily-${scenarioFingerprint(brennock)}.pdf"`);
     const body = res.body as Buffer;
     expect(body.subarray(0, 5).toString('latin1')).toBe('%PDF-');
     const pages = pdfPages(new Uint8Array(body));
     expect(pages.length).toBeGreaterThanOrEqual(2);
-    expect(pages[0]).toContain(scenarioFingerprint(velarin));
+    expect(pages[0]).toContain(scenarioFingerprint(brennock));
   });
 
   it('accepts { scenario, reference } and draws the reference', async () => {
-    const reference = { ...structuredClone(velarin), title: 'Velarin 600 mg by mouth twice daily', doses: [{ ...(velarin.doses as object[])[0], amount: '600 mg' }] };
-    const res = await request(app).post('/api/report').send({ scenario: velarin, reference }).buffer(true).parse(binary).expect(200);
+    const reference = { ...structuredClone(brennock), title: 'Brennock 600 mg by mouth twice daily', doses: [{ ...(brennock.doses as object[])[0], amount: '600 mg' }] };
+    const res = await request(app).post('/api/report').send({ scenario: brennock, reference }).buffer(true).parse(binary).expect(200);
     // The file is named after the scenario, not the reference.
-    expect(res.headers['content-disposition']).toContain(scenarioFingerprint(velarin));
+    expect(res.headers['content-disposition']).toContain(scenarioFingerprint(brennock));
     const text = pdfPages(new Uint8Array(res.body as Buffer)).join('\n');
     expect(text).toContain('reference (dashed)');
     expect(text).toContain(scenarioFingerprint(reference));
   });
 
   it('answers 400 JSON exactly as /api/simulate does for an invalid scenario', async () => {
-    const bad = { ...velarin, doses: [{ into: 'tisue', amount: '100 mg' }] };
+    const bad = { ...brennock, doses: [{ into: 'tisue', amount: '100 mg' }] };
     const report = await request(app).post('/api/report').send(bad).expect(400);
     const simulate = await request(app).post('/api/simulate').send(bad).expect(400);
     expect(report.headers['content-type']).toMatch(/^application\/json/);
@@ -73,7 +73,7 @@ describe('POST /api/report', () => {
   });
 
   it('applies the server limit on reported times, naming output.step', async () => {
-    const many = { ...velarin, output: { end: '7 day', step: '1 s' } };
+    const many = { ...brennock, output: { end: '7 day', step: '1 s' } };
     const res = await request(app).post('/api/report').send(many).expect(400);
     expect(res.body.problems[0].path).toBe('output.step');
   });

@@ -9,7 +9,7 @@ import { buildReport } from '../../server/report/report.ts';
 import { escapeRegExp, failing, pdfInfo, pdfPages, readSample, removeTempFiles } from './helpers.ts';
 
 const now = new Date(Date.UTC(2031, 4, 17, 9, 30));
-const velarin = readSample('velarin-oral-bid');
+const brennock = readSample('brennock-oral-bid');
 
 function report(scenario: unknown, reference?: unknown): { bytes: Uint8Array; pages: string[]; fingerprint: string } {
   const outcome = buildReport(reference === undefined ? { scenario } : { scenario, reference }, { now });
@@ -31,7 +31,7 @@ let main: ReturnType<typeof report>;
 let all: string;
 
 beforeAll(() => {
-  main = report(velarin);
+  main = report(brennock);
   all = main.pages.join('\n');
 }, 120_000);
 afterAll(removeTempFiles);
@@ -67,10 +67,10 @@ describe('the caution', () => {
 describe('the header', () => {
   it('names the scenario, the run time, the version and the fingerprint', () => {
     const first = flat(main.pages[0]);
-    expect(first).toContain('Velarin 400 mg by mouth twice daily');
+    expect(first).toContain('Brennock 400 mg by mouth twice daily');
     expect(first).toContain('Run 2031-05-17 09:30 UTC');
     expect(first).toContain('Tidemark version Tidemark 0.1.0');
-    expect(main.fingerprint).toBe(scenarioFingerprint(velarin));
+    expect(main.fingerprint).toBe(scenarioFingerprint(brennock));
     expect(first).toContain(`Scenario fingerprint ${main.fingerprint}`);
     // Later pages carry the fingerprint in the running header.
     for (const page of main.pages.slice(1)) expect(page).toContain(`fingerprint ${main.fingerprint}`);
@@ -78,10 +78,10 @@ describe('the header', () => {
 });
 
 describe("numbers equal the engine's", () => {
-  const r = engine(velarin);
+  const r = engine(brennock);
   const central = r.metrics.compartments.find((c) => c.compartment === 'central');
   const ss = r.metrics.steadyState?.compartments.find((c) => c.compartment === 'central');
-  if (!central || !ss) throw new Error('velarin must have central figures and a steady state');
+  if (!central || !ss) throw new Error('brennock must have central figures and a steady state');
 
   it('parameters and derived quantities', () => {
     const text = flat(all);
@@ -141,7 +141,7 @@ describe("numbers equal the engine's", () => {
 
 describe('symbols', () => {
   it('prints µ (micro sign), τ and ½ as text that extracts back', () => {
-    const micro = { ...structuredClone(velarin), title: 'Velarin in micrograms', units: { amount: 'ug', volume: 'L', time: 'h' } };
+    const micro = { ...structuredClone(brennock), title: 'Brennock in micrograms', units: { amount: 'ug', volume: 'L', time: 'h' } };
     const { pages } = report(micro);
     const text = flat(pages.join('\n'));
     expect(text).toContain('\u00b5g/L');
@@ -156,13 +156,13 @@ describe('symbols', () => {
 
 describe('a reference scenario', () => {
   it('is overlaid dashed with a legend, identified in the header and compared', () => {
-    const higher = { ...structuredClone(velarin), title: 'Velarin 600 mg by mouth twice daily', doses: [{ ...(velarin.doses as object[])[0], amount: '600 mg' }] };
-    const { pages } = report(velarin, higher);
+    const higher = { ...structuredClone(brennock), title: 'Brennock 600 mg by mouth twice daily', doses: [{ ...(brennock.doses as object[])[0], amount: '600 mg' }] };
+    const { pages } = report(brennock, higher);
     const text = flat(pages.join('\n'));
     expect(text).toContain('central — this scenario');
     expect(text).toContain('central — reference (dashed)');
-    expect(text).toContain(`Reference scenario Velarin 600 mg by mouth twice daily — fingerprint ${scenarioFingerprint(higher)}`);
-    const a = engine(velarin).metrics.compartments.find((c) => c.compartment === 'central');
+    expect(text).toContain(`Reference scenario Brennock 600 mg by mouth twice daily — fingerprint ${scenarioFingerprint(higher)}`);
+    const a = engine(brennock).metrics.compartments.find((c) => c.compartment === 'central');
     const b = engine(higher).metrics.compartments.find((c) => c.compartment === 'central');
     if (!a || !b) throw new Error('central figures expected');
     expect(text).toContain(`central Cmax ${fmt(a.overall.cmax)} ${fmt(b.overall.cmax)} ${fmt(a.overall.cmax / b.overall.cmax, 3)}`);
@@ -171,7 +171,7 @@ describe('a reference scenario', () => {
 
 describe('no PDF for a scenario that cannot be simulated', () => {
   it('answers the same 400 problems as the engine for an invalid scenario', () => {
-    const bad = { ...velarin, doses: [{ into: 'tisue', amount: '100 mg' }] };
+    const bad = { ...brennock, doses: [{ into: 'tisue', amount: '100 mg' }] };
     const outcome = buildReport({ scenario: bad });
     const direct = simulate(bad);
     if (direct.ok) throw new Error('must be invalid');
@@ -179,7 +179,7 @@ describe('no PDF for a scenario that cannot be simulated', () => {
   });
 
   it('names a problem of the reference under "reference."', () => {
-    const outcome = buildReport({ scenario: velarin, reference: { ...velarin, output: {} } });
+    const outcome = buildReport({ scenario: brennock, reference: { ...brennock, output: {} } });
     expect(outcome.ok).toBe(false);
     if (outcome.ok) return;
     expect(outcome.status).toBe(400);

@@ -39,23 +39,23 @@ describe('canonicalJson and scenarioFingerprint', () => {
   });
 
   it('does not depend on the order keys were written in', () => {
-    const velarin = readSample('velarin-oral-bid');
-    const reordered = Object.fromEntries(Object.entries(velarin).reverse());
-    expect(JSON.stringify(reordered)).not.toBe(JSON.stringify(velarin));
-    expect(scenarioFingerprint(reordered)).toBe(scenarioFingerprint(velarin));
+    const brennock = readSample('brennock-oral-bid');
+    const reordered = Object.fromEntries(Object.entries(brennock).reverse());
+    expect(JSON.stringify(reordered)).not.toBe(JSON.stringify(brennock));
+    expect(scenarioFingerprint(reordered)).toBe(scenarioFingerprint(brennock));
   });
 
   it('is the first 12 hex digits of SHA-256 over the canonical JSON', () => {
-    const velarin = readSample('velarin-oral-bid');
-    const expected = createHash('sha256').update(canonicalJson(velarin), 'utf8').digest('hex').slice(0, 12);
-    expect(scenarioFingerprint(velarin)).toBe(expected);
-    expect(scenarioFingerprint(velarin)).toMatch(/^[0-9a-f]{12}$/);
+    const brennock = readSample('brennock-oral-bid');
+    const expected = createHash('sha256').update(canonicalJson(brennock), 'utf8').digest('hex').slice(0, 12);
+    expect(scenarioFingerprint(brennock)).toBe(expected);
+    expect(scenarioFingerprint(brennock)).toMatch(/^[0-9a-f]{12}$/);
   });
 
   it('changes when any value changes', () => {
-    const velarin = readSample('velarin-oral-bid');
-    const changed = structuredClone(velarin) as { doses: { amount: string }[] };
+    const brennock = readSample('brennock-oral-bid');
+    const changed = structuredClone(brennock) as { doses: { amount: string }[] };
     changed.doses[0].amount = '401 mg';
-    expect(scenarioFingerprint(changed)).not.toBe(scenarioFingerprint(velarin));
+    expect(scenarioFingerprint(changed)).not.toBe(scenarioFingerprint(brennock));
   });
 });

@@ -31,7 +31,7 @@ function simulate(scenario: unknown) {
 
 describe('fluctuation in percent, as on the page', () => {
   it('prints the steady-state and per-interval fluctuation as 100 × (Cmax − Cmin)/Cavg, labelled %', () => {
-    const scenario = readSample('velarin-oral-bid');
+    const scenario = readSample('brennock-oral-bid');
     const result = simulate(scenario);
     const central = result.metrics.steadyState?.compartments.find((c) => c.compartment === 'central');
     const fraction = central?.fluctuation;
@@ -59,8 +59,8 @@ describe('dose lines in words', () => {
     expect(plainDoseWords('see doses[0].amount', labels)).toBe('see doses[0].amount');
   });
 
-  it('writes the steady state of the corvastine maintenance line as "dose line 2 — maintenance"', () => {
-    const scenario = readSample('corvastine-infusion-loading');
+  it('writes the steady state of the tallowen maintenance line as "dose line 2 — maintenance"', () => {
+    const scenario = readSample('tallowen-infusion-loading');
     // Whether the engine's message names the line by path (doses[1]) or already in words, the
     // report shows the words.
     const text = reportText(scenario).join('\n');
@@ -104,7 +104,7 @@ describe('a table keeps its note', () => {
   });
 
   it('ends every sample report with more than a note on its last page', () => {
-    for (const name of ['velarin-oral-bid', 'corvastine-infusion-loading', 'kestrazole-saturable-dose-increase', 'ostrafen-parallel-elimination', 'tessamide-three-compartment-bolus']) {
+    for (const name of ['brennock-oral-bid', 'tallowen-infusion-loading', 'skorvel-saturable-dose-increase', 'lindquay-parallel-elimination', 'merridune-three-compartment-bolus']) {
       const pages = reportText(readSample(name));
       const body = pages[pages.length - 1]
         .split('\n')
@@ -120,7 +120,7 @@ describe('the steady state as the regimen continued (item 4)', () => {
   it('says plainly when the course ends before steady state, beside the steady-state figures', () => {
     // Clearance 0.42 L/h in 42 L: k = 0.01 /h, 90% of steady state at about 230 h (ln 10/k for
     // the AUC-based definition, bolus-like oral absorption); the sample's week ends at 168 h.
-    const scenario = readSample('velarin-oral-bid');
+    const scenario = readSample('brennock-oral-bid');
     (scenario.transfers as { cl?: string }[])[1].cl = '0.42 L/h';
     // Lines of a paragraph joined: a phrase may wrap anywhere.
     const text = reportText(scenario).join('\n').replace(/\n/g, ' ');

@@ -44,10 +44,10 @@ describe('every bundled sample', () => {
 
 describe('document information', () => {
   it('has the title, subject, author, creator and keywords', () => {
-    const velarin = readSample('velarin-oral-bid');
-    const outcome = build(velarin);
+    const brennock = readSample('brennock-oral-bid');
+    const outcome = build(brennock);
     const info = pdfInfo(outcome.bytes);
-    expect(info.Title).toBe('Velarin 400 mg by mouth twice daily — concentration report');
+    expect(info.Title).toBe('Brennock 400 mg by mouth twice daily — concentration report');
     expect(info.Subject).toContain('not dosing advice');
     expect(info.Author).toBe(`Tidemark ${version}`);
     expect(info.Creator).toBe(`Tidemark ${version}`);
@@ -57,7 +57,7 @@ describe('document information', () => {
   });
 
   it('embeds its fonts, so text is real and searchable', () => {
-    const outcome = build(readSample('velarin-oral-bid'));
+    const outcome = build(readSample('brennock-oral-bid'));
     const raw = Buffer.from(outcome.bytes).toString('latin1');
     expect(raw).toMatch(/\/FontFile2/);
     expect(raw).toMatch(/DejaVuSans/);
@@ -67,8 +67,8 @@ describe('document information', () => {
 
 describe('long regimens', () => {
   function daily(doses: number) {
-    const s = structuredClone(readSample('velarin-oral-bid')) as Record<string, unknown> & { doses: Record<string, unknown>[]; output: Record<string, unknown> };
-    s.title = `Velarin once daily, ${doses} doses`;
+    const s = structuredClone(readSample('brennock-oral-bid')) as Record<string, unknown> & { doses: Record<string, unknown>[]; output: Record<string, unknown> };
+    s.title = `Brennock once daily, ${doses} doses`;
     s.doses[0] = { ...s.doses[0], every: '24 h', count: doses };
     s.output = { ...s.output, end: `${doses} day`, step: '2 h' };
     return s;

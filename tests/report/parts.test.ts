@@ -53,12 +53,12 @@ describe('axis ticks', () => {
 
 describe('regimen and units in words', () => {
   it('writes a repeated oral line as one sentence', () => {
-    const { model } = run(readSample('velarin-oral-bid'));
+    const { model } = run(readSample('brennock-oral-bid'));
     expect(describeDoseLine(model.doseLines[0], model)).toBe('400 mg into gut every 12 h × 14 from 0 h, F 0.85, lag 20 min');
   });
 
   it('writes infusions with their duration and rate', () => {
-    const { model } = run(readSample('corvastine-infusion-loading'));
+    const { model } = run(readSample('tallowen-infusion-loading'));
     expect(describeDoseLine(model.doseLines[0], model)).toBe('1500 mg into central at 0 h, infused over 2 h (750 mg/h)');
     expect(describeDoseLine(model.doseLines[1], model)).toBe('750 mg into central every 8 h × 14 from 8 h, infused over 1 h (750 mg/h)');
   });
@@ -72,20 +72,20 @@ describe('regimen and units in words', () => {
   });
 
   it('names the file after the title and the fingerprint', () => {
-    expect(reportFileName('Velarin 400 mg by mouth twice daily', '0123456789ab')).toBe('tidemark-velarin-400-mg-by-mouth-twice-daily-0123456789ab.pdf');
+    expect(reportFileName('Brennock 400 mg by mouth twice daily', '0123456789ab')).toBe('tidemark-brennock-400-mg-by-mouth-twice-daily-0123456789ab.pdf');
   });
 
   it('reads a plain scenario or a { scenario, reference } body', () => {
-    const velarin = readSample('velarin-oral-bid');
-    expect(readReportRequest(velarin)).toEqual({ scenario: velarin });
-    expect(readReportRequest({ scenario: velarin, reference: velarin })).toEqual({ scenario: velarin, reference: velarin });
-    expect(readReportRequest({ scenario: velarin, reference: null })).toEqual({ scenario: velarin });
+    const brennock = readSample('brennock-oral-bid');
+    expect(readReportRequest(brennock)).toEqual({ scenario: brennock });
+    expect(readReportRequest({ scenario: brennock, reference: brennock })).toEqual({ scenario: brennock, reference: brennock });
+    expect(readReportRequest({ scenario: brennock, reference: null })).toEqual({ scenario: brennock });
   });
 });
 
 describe('derived parameters', () => {
   it('gives k = CL/V and the one-compartment Vss = V', () => {
-    const { model, result } = run(readSample('velarin-oral-bid'));
+    const { model, result } = run(readSample('brennock-oral-bid'));
     const p = modelParameters(model, result);
     expect(p.compartments.map((c) => c.role)).toEqual(['depot', 'central']);
     // 4.2 L/h / 42 L = 0.1 1/h, printed with fmt.
@@ -93,10 +93,10 @@ describe('derived parameters', () => {
     expect(p.steadyVolume).toMatchObject({ applies: true, value: 42 });
   });
 
-  it('gives Vss = V1 + V2 for equal distribution clearances (corvastine, 6 L/h both ways)', () => {
+  it('gives Vss = V1 + V2 for equal distribution clearances (tallowen, 6 L/h both ways)', () => {
     // Vss = V1·(1 + k12/k21) (Gibaldi & Perrier, Pharmacokinetics, 2nd ed., ch. 2 — from memory);
     // with CL12 = CL21 = 6 L/h, k12 = 6/18 and k21 = 6/35, so Vss = 18 + 35 = 53 L.
-    const { model, result } = run(readSample('corvastine-infusion-loading'));
+    const { model, result } = run(readSample('tallowen-infusion-loading'));
     const sv = modelParameters(model, result).steadyVolume;
     if (!sv.applies) throw new Error('Vss must apply to a two-compartment mammillary model');
     // Three floating-point operations: agreement to 1e-12 relative.
@@ -104,9 +104,9 @@ describe('derived parameters', () => {
     expect(sv.sumOfVolumes).toBeCloseTo(53, 12);
   });
 
-  it('gives Vss = V1·(1 + Σ k1j/kj1) when the entered volumes do not balance (tessamide)', () => {
+  it('gives Vss = V1·(1 + Σ k1j/kj1) when the entered volumes do not balance (merridune)', () => {
     // 6 L × (1 + 0.30/0.10 + 0.05/0.004) = 6 × 16.5 = 99 L, while the entered volumes sum to 140 L.
-    const { model, result } = run(readSample('tessamide-three-compartment-bolus'));
+    const { model, result } = run(readSample('merridune-three-compartment-bolus'));
     const sv = modelParameters(model, result).steadyVolume;
     if (!sv.applies) throw new Error('Vss must apply to a three-compartment mammillary model');
     expect(sv.value).toBeCloseTo(99, 10);
@@ -133,7 +133,7 @@ describe('derived parameters', () => {
   });
 
   it('gives the low-concentration clearance Vmax/Km of a saturable route', () => {
-    const { model, result } = run(readSample('kestrazole-saturable-dose-increase'));
+    const { model, result } = run(readSample('skorvel-saturable-dose-increase'));
     const p = modelParameters(model, result);
     // 20 mg/h / 4 mg/L = 5 L/h; 5 L/h / 50 L = 0.1 1/h.
     expect(p.transfers[1].clearance).toBe('5 L/h');
@@ -143,7 +143,7 @@ describe('derived parameters', () => {
 
 describe('independent check', () => {
   it('checks the exact path with DOP853 and finds agreement far below the printed digits', () => {
-    const scenario = readSample('velarin-oral-bid');
+    const scenario = readSample('brennock-oral-bid');
     const { model, result } = run(scenario);
     const check = independentCheck(scenario, result, model.linear);
     expect(check.settings.method).toBe('dop853');
@@ -155,7 +155,7 @@ describe('independent check', () => {
   });
 
   it('checks a saturable model at a 100× tighter tolerance', () => {
-    const scenario = readSample('kestrazole-saturable-dose-increase');
+    const scenario = readSample('skorvel-saturable-dose-increase');
     const { model, result } = run(scenario);
     const settings = checkSettings(result, scenario, model.linear);
     expect(settings.rtol).toBeCloseTo(1e-10, 20);
@@ -163,7 +163,7 @@ describe('independent check', () => {
   });
 
   it('checks a numerically solved linear model with the exact path and sees a coarse fixed step', () => {
-    const scenario = { ...readSample('velarin-oral-bid'), solver: { method: 'rk4', step: '30 min' } };
+    const scenario = { ...readSample('brennock-oral-bid'), solver: { method: 'rk4', step: '30 min' } };
     const { model, result } = run(scenario);
     const check = independentCheck(scenario, result, model.linear);
     expect(check.settings.method).toBe('exact');

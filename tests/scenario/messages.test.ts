@@ -7,10 +7,10 @@ import { describe, expect, it } from 'vitest';
 import { normaliseScenario } from '../../models/normalize.ts';
 
 type Scenario = Record<string, any>;
-const velarin: Scenario = JSON.parse(readFileSync('samples/velarin-oral-bid.json', 'utf8'));
+const brennock: Scenario = JSON.parse(readFileSync('samples/brennock-oral-bid.json', 'utf8'));
 
 function problems(change: (s: Scenario) => void): { path: string; message: string }[] {
-  const s = structuredClone(velarin);
+  const s = structuredClone(brennock);
   change(s);
   const r = normaliseScenario(s);
   return r.ok ? [] : r.problems;
@@ -42,7 +42,7 @@ describe('bioavailability as a fraction or a percentage', () => {
     ['100%', 1],
     [0, 0],
   ])('%s is read as %s', (written, fraction) => {
-    const s = structuredClone(velarin);
+    const s = structuredClone(brennock);
     s.doses[0].bioavailability = written;
     const r = normaliseScenario(s);
     expect(r.ok).toBe(true);

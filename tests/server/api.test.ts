@@ -9,7 +9,7 @@ import { createApp, defaultServerLimits } from '../../server/app.ts';
 import { loadSamples } from '../../server/samples.ts';
 import { SimulationPool } from '../../server/worker-pool.ts';
 
-const velarin = JSON.parse(readFileSync('samples/velarin-oral-bid.json', 'utf8')) as Record<string, unknown>;
+const brennock = JSON.parse(readFileSync('samples/brennock-oral-bid.json', 'utf8')) as Record<string, unknown>;
 let pool: SimulationPool;
 let app: ReturnType<typeof createApp>;
 
@@ -27,9 +27,9 @@ function noStack(body: unknown): void {
 
 describe('POST /api/simulate', () => {
   it('answers the engine result, equal to calling the engine directly', async () => {
-    const res = await request(app).post('/api/simulate').send(velarin).expect(200);
+    const res = await request(app).post('/api/simulate').send(brennock).expect(200);
     expect(res.headers['content-type']).toMatch(/application\/json/);
-    const direct = simulate(velarin);
+    const direct = simulate(brennock);
     if (!direct.ok) throw new Error('sample must simulate');
     // Same code, same input: the numbers must be identical, not merely close.
     const expected = JSON.parse(JSON.stringify(resultToJson(direct.value)));
@@ -41,7 +41,7 @@ describe('POST /api/simulate', () => {
   });
 
   it('answers 400 with {path, message} problems for an invalid scenario', async () => {
-    const bad = { ...velarin, doses: [{ into: 'tisue', amount: '100 mg' }] };
+    const bad = { ...brennock, doses: [{ into: 'tisue', amount: '100 mg' }] };
     const res = await request(app).post('/api/simulate').send(bad).expect(400);
     expect(res.body.problems).toEqual([
       { path: 'doses[0].into', message: "no compartment named 'tisue' (compartments are 'gut', 'central')" },
@@ -65,14 +65,14 @@ describe('POST /api/simulate', () => {
   });
 
   it('answers 400 naming output.step when more points are asked than the server serves', async () => {
-    const many = { ...velarin, output: { end: '7 day', step: '1 s' } };
+    const many = { ...brennock, output: { end: '7 day', step: '1 s' } };
     const res = await request(app).post('/api/simulate').send(many).expect(400);
     expect(res.body.problems[0].path).toBe('output.step');
     expect(res.body.problems[0].message).toMatch(/at most 50000/);
   });
 
   it('answers 413 for a body over the limit', async () => {
-    const huge = { ...velarin, description: 'x'.repeat(200_000) };
+    const huge = { ...brennock, description: 'x'.repeat(200_000) };
     const res = await request(app).post('/api/simulate').send(huge).expect(413);
     expect(res.body.problems[0].message).toMatch(/larger than this server accepts/);
   });
@@ -103,26 +103,26 @@ describe('POST /api/simulate', () => {
       ],
       output: { end: '1000 h', step: '10 h' },
     };
-    const light = request(app).post('/api/simulate').send(velarin);
+    const light = request(app).post('/api/simulate').send(brennock);
     const [heavyRes, lightRes] = await Promise.all([request(app).post('/api/simulate').send(heavy), light]);
     expect(lightRes.status).toBe(200);
     expect(heavyRes.status).toBe(422);
     expect(heavyRes.body.problems[0].message).toMatch(/budget of 4 s/);
-    await request(app).post('/api/simulate').send(velarin).expect(200);
+    await request(app).post('/api/simulate').send(brennock).expect(200);
   }, 30_000);
 });
 
 describe('other routes', () => {
   it('POST /api/validate: 200 for a valid scenario, 400 with paths otherwise', async () => {
-    const ok = await request(app).post('/api/validate').send(velarin).expect(200);
+    const ok = await request(app).post('/api/validate').send(brennock).expect(200);
     expect(ok.body).toMatchObject({ valid: true, compartments: 2, transfers: 2, administrations: 14, linear: true });
     const bad = await request(app)
       .post('/api/validate')
-      .send({ ...velarin, compartments: [{ id: 'gut' }, { id: 'central', volume: '-42 L' }] })
+      .send({ ...brennock, compartments: [{ id: 'gut' }, { id: 'central', volume: '-42 L' }] })
       .expect(400);
     expect(bad.body.problems).toContainEqual({ path: 'compartments[1].volume', message: 'must be positive' });
     // The same output-point limit as /api/simulate, so "valid" means the server will run it.
-    const many = await request(app).post('/api/validate').send({ ...velarin, output: { end: '7 day', step: '1 s' } }).expect(400);
+    const many = await request(app).post('/api/validate').send({ ...brennock, output: { end: '7 day', step: '1 s' } }).expect(400);
     expect(many.body.problems[0].path).toBe('output.step');
   });
 
@@ -135,10 +135,10 @@ describe('other routes', () => {
   it('GET /api/samples lists the bundled samples and /api/samples/:id returns one', async () => {
     const list = await request(app).get('/api/samples').expect(200);
     const ids = (list.body as { id: string }[]).map((s) => s.id);
-    expect(ids).toContain('velarin-oral-bid');
+    expect(ids).toContain('brennock-oral-bid');
     expect(ids.length).toBeGreaterThanOrEqual(5);
-    const one = await request(app).get('/api/samples/velarin-oral-bid').expect(200);
-    expect(one.body).toEqual(velarin);
+    const one = await request(app).get('/api/samples/brennock-oral-bid').expect(200);
+    expect(one.body).toEqual(brennock);
     const missing = await request(app).get('/api/samples/nothing-here').expect(404);
     expect(missing.body.problems[0].message).toMatch(/no sample named 'nothing-here'/);
   });

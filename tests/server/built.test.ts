@@ -16,9 +16,9 @@ import { SimulationPool } from '../../server/worker-pool.ts';
 import { ensureClientBuilt } from '../browser/harness.ts';
 
 const root = fileURLToPath(new URL('../../', import.meta.url));
-const velarinPath = 'samples/velarin-oral-bid.json';
-const velarinText = readFileSync(join(root, velarinPath), 'utf8');
-const velarin = JSON.parse(velarinText) as unknown;
+const brennockPath = 'samples/brennock-oral-bid.json';
+const brennockText = readFileSync(join(root, brennockPath), 'utf8');
+const brennock = JSON.parse(brennockText) as unknown;
 // Inside the repository (dist/ is ignored): the external packages are found from there.
 const outdir = join(root, 'dist', `test-build-${process.pid}`);
 const out = (file: string) => join(outdir, file);
@@ -125,18 +125,18 @@ describe('the built server', () => {
       const base = `http://127.0.0.1:${port}`;
       let res: Response | null = null;
       for (let i = 0; i < 600 && !res; i++) {
-        res = await fetch(`${base}/api/simulate`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: velarinText }).catch(() => null);
+        res = await fetch(`${base}/api/simulate`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: brennockText }).catch(() => null);
         if (!res) await new Promise((r) => setTimeout(r, 100));
       }
       if (!res) throw new Error(`the built server never answered: ${log}`);
       expect(res.status).toBe(200);
-      const direct = simulate(velarin);
+      const direct = simulate(brennock);
       if (!direct.ok) throw new Error('the sample must simulate');
       // Same code, same input: the same text, byte for byte.
       expect(await res.text()).toBe(resultToJsonText(direct.value));
       const page = await fetch(`${base}/`);
       expect(page.status).toBe(200);
-      const report = await fetch(`${base}/api/report`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ scenario: velarin }) });
+      const report = await fetch(`${base}/api/report`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ scenario: brennock }) });
       expect(report.status).toBe(200);
       expect(report.headers.get('content-type')).toMatch(/application\/pdf/);
       expect(Buffer.from(await report.arrayBuffer()).subarray(0, 5).toString('latin1')).toBe('%PDF-');
@@ -152,7 +152,7 @@ describe('the built server', () => {
     const built = new SimulationPool({ size: 1, timeBudgetMs: 60_000, maxQueue: 4, worker: { kind: 'built', url: pathToFileURL(out('simulation-worker.js')) } });
     const fromSources = new SimulationPool({ size: 1, timeBudgetMs: 60_000, maxQueue: 4 });
     try {
-      const job = { kind: 'simulate' as const, scenario: velarin, maxOutputPoints: 100_000 };
+      const job = { kind: 'simulate' as const, scenario: brennock, maxOutputPoints: 100_000 };
       const [a, b] = await Promise.all([built.run(job), fromSources.run(job)]);
       expect(a.status).toBe(200);
       expect(b.status).toBe(200);
@@ -175,10 +175,10 @@ describe('the built command line', () => {
   const cli = (args: string[], cwd = root) => spawnSync(process.execPath, [out('cli.js'), ...args], { cwd, encoding: 'utf8', timeout: 120_000 });
 
   it('prints the demo summary as the sources compute it, through its built worker', () => {
-    const run = cli(['simulate', velarinPath, '--format', 'text']);
+    const run = cli(['simulate', brennockPath, '--format', 'text']);
     expect(run.stderr).toBe('');
     expect(run.status).toBe(0);
-    expect(run.stdout).toBe(runCli(['simulate', velarinPath, '--format', 'text']).stdout);
+    expect(run.stdout).toBe(runCli(['simulate', brennockPath, '--format', 'text']).stdout);
   });
 
   it('runs verify in its own thread, its reference cases loaded on demand', () => {
@@ -192,10 +192,10 @@ describe('the built command line', () => {
     const dir = mkdtempSync(join(tmpdir(), 'tidemark-built-'));
     try {
       const target = join(dir, 'r.pdf');
-      const run = cli(['report', join(root, velarinPath), '--out', target]);
+      const run = cli(['report', join(root, brennockPath), '--out', target]);
       expect(run.status).toBe(0);
       expect(readFileSync(target).subarray(0, 5).toString('latin1')).toBe('%PDF-');
-      const bad = cli(['simulate', velarinPath, '--format', 'xml']);
+      const bad = cli(['simulate', brennockPath, '--format', 'xml']);
       expect(bad.status).toBe(2);
       expect(bad.stderr).toMatch(/--format must be json, csv or text/);
       expect(bad.stderr).not.toMatch(/\n\s+at /);

@@ -9,7 +9,7 @@ import { allowedHostsFor, createApp, defaultServerLimits, hostNameOf, nestsDeepe
 import { loadSamples } from '../../server/samples.ts';
 import { SimulationPool } from '../../server/worker-pool.ts';
 
-const velarin = JSON.parse(readFileSync('samples/velarin-oral-bid.json', 'utf8')) as Record<string, unknown>;
+const brennock = JSON.parse(readFileSync('samples/brennock-oral-bid.json', 'utf8')) as Record<string, unknown>;
 const nested = (depth: number) => '['.repeat(depth) + ']'.repeat(depth);
 const testLimits: ServerLimits = { ...defaultServerLimits, bodyLimit: '2mb', timeBudgetMs: 30_000 };
 
@@ -50,10 +50,10 @@ describe('a deeply nested body', () => {
       }
     };
     await postNestedEverywhere(); // while the workers start
-    await request(app).post('/api/simulate').send(velarin).expect(200);
+    await request(app).post('/api/simulate').send(brennock).expect(200);
     await postNestedEverywhere(); // and once they are warm
     const started = Date.now();
-    await request(app).post('/api/simulate').send(velarin).expect(200);
+    await request(app).post('/api/simulate').send(brennock).expect(200);
     // A slot left busy would hold this request until the 30 s budget kills its worker.
     expect(Date.now() - started).toBeLessThan(10_000);
   }, 60_000);
@@ -85,7 +85,7 @@ describe('the pool given a job it cannot post', () => {
       const warm = await pool.run({ kind: 'validate', scenario: deep, maxOutputPoints: 1000 });
       expect(warm.status).toBe(400);
       const started = Date.now();
-      const ok = await pool.run({ kind: 'simulate', scenario: velarin, maxOutputPoints: 100_000 });
+      const ok = await pool.run({ kind: 'simulate', scenario: brennock, maxOutputPoints: 100_000 });
       expect(ok.status).toBe(200);
       expect(Date.now() - started).toBeLessThan(10_000);
     } finally {
@@ -107,24 +107,24 @@ describe('cross-site and non-JSON posts, foreign hosts', () => {
 
   it('answers 415 for a body that is not application/json', async () => {
     for (const type of ['text/plain', 'application/x-www-form-urlencoded', 'multipart/form-data; boundary=x']) {
-      const res = await request(app).post('/api/simulate').set('content-type', type).send(JSON.stringify(velarin)).expect(415);
+      const res = await request(app).post('/api/simulate').set('content-type', type).send(JSON.stringify(brennock)).expect(415);
       expect(expectProblems(res.body)[0].message).toMatch(/application\/json/);
     }
-    const none = await request(app).post('/api/validate').send(Buffer.from(JSON.stringify(velarin))).unset('content-type').expect(415);
+    const none = await request(app).post('/api/validate').send(Buffer.from(JSON.stringify(brennock))).unset('content-type').expect(415);
     expectProblems(none.body);
     // With a charset, it is JSON all the same.
-    await request(app).post('/api/validate').set('content-type', 'application/json; charset=utf-8').send(JSON.stringify(velarin)).expect(200);
+    await request(app).post('/api/validate').set('content-type', 'application/json; charset=utf-8').send(JSON.stringify(brennock)).expect(200);
   });
 
   it('answers 403 for a POST from another origin, and serves its own', async () => {
     for (const route of ['/api/simulate', '/api/validate', '/api/report']) {
-      const foreign = await request(app).post(route).set('origin', 'http://evil.example').send(velarin).expect(403);
+      const foreign = await request(app).post(route).set('origin', 'http://evil.example').send(brennock).expect(403);
       expect(expectProblems(foreign.body)[0].message).toMatch(/origin/i);
     }
     // Same name, another port: another origin.
-    await request(app).post('/api/validate').set('host', '127.0.0.1:8750').set('origin', 'http://127.0.0.1:9999').send(velarin).expect(403);
-    await request(app).post('/api/validate').set('host', '127.0.0.1:8750').set('origin', 'null').send(velarin).expect(403);
-    const crossSite = await request(app).post('/api/validate').set('sec-fetch-site', 'cross-site').send(velarin).expect(403);
+    await request(app).post('/api/validate').set('host', '127.0.0.1:8750').set('origin', 'http://127.0.0.1:9999').send(brennock).expect(403);
+    await request(app).post('/api/validate').set('host', '127.0.0.1:8750').set('origin', 'null').send(brennock).expect(403);
+    const crossSite = await request(app).post('/api/validate').set('sec-fetch-site', 'cross-site').send(brennock).expect(403);
     expectProblems(crossSite.body);
     // What the page sends: its own origin, same-origin fetch metadata, application/json.
     await request(app)
@@ -133,16 +133,16 @@ describe('cross-site and non-JSON posts, foreign hosts', () => {
       .set('origin', 'http://127.0.0.1:8750')
       .set('sec-fetch-site', 'same-origin')
       .set('content-type', 'application/json')
-      .send(JSON.stringify(velarin))
+      .send(JSON.stringify(brennock))
       .expect(200);
-    await request(app).post('/api/validate').set('host', 'localhost:8750').set('origin', 'http://LOCALHOST:8750').send(velarin).expect(200);
+    await request(app).post('/api/validate').set('host', 'localhost:8750').set('origin', 'http://LOCALHOST:8750').send(brennock).expect(200);
   });
 
   it('answers only for loopback names by default (DNS rebinding), on every route', async () => {
     for (const host of ['evil.example', 'evil.example:8750', '127.0.0.1.evil.example', 'localhost.evil.example:80', '10.0.0.1:8750']) {
       const res = await request(app).get('/api/samples').set('host', host).expect(421);
       expect(expectProblems(res.body)[0].message).toMatch(/localhost/);
-      await request(app).post('/api/validate').set('host', host).send(velarin).expect(421);
+      await request(app).post('/api/validate').set('host', host).send(brennock).expect(421);
       await request(app).get('/').set('host', host).expect(421);
     }
     for (const host of ['localhost', 'localhost:8750', '127.0.0.1:1', '[::1]:8750', 'LocalHost:3000']) {
@@ -154,7 +154,7 @@ describe('cross-site and non-JSON posts, foreign hosts', () => {
     const named = createApp({ pool, samples: loadSamples(), clientDir: null, limits: testLimits, allowedHosts: ['localhost', 'tidemark.lab'] });
     await request(named).get('/api/samples').set('host', 'tidemark.lab:8750').expect(200);
     await request(named).get('/api/samples').set('host', '127.0.0.1:8750').expect(421);
-    await request(named).post('/api/validate').set('host', 'tidemark.lab:8750').set('origin', 'http://tidemark.lab:8750').send(velarin).expect(200);
+    await request(named).post('/api/validate').set('host', 'tidemark.lab:8750').set('origin', 'http://tidemark.lab:8750').send(brennock).expect(200);
   });
 });
 
@@ -196,7 +196,7 @@ describe('the size of an answer', () => {
 
   // The reported case: a few hundred bytes asking for 100k doses and a 200k-point grid
   // (about 65 MB of JSON and seconds of work before this bound).
-  const manyDoses = { ...velarin, doses: [{ ...(velarin.doses as object[])[0], every: '0.1 h', count: 100_000 }], output: { end: '9990 h', step: '0.05 h' } };
+  const manyDoses = { ...brennock, doses: [{ ...(brennock.doses as object[])[0], every: '0.1 h', count: 100_000 }], output: { end: '9990 h', step: '0.05 h' } };
 
   it('is bounded before the work: 422 naming doses and the limit', async () => {
     const res = await request(app).post('/api/simulate').send(manyDoses).expect(422);
@@ -228,7 +228,7 @@ describe('the size of an answer', () => {
   });
 
   it('still answers the demo in full', async () => {
-    const res = await request(app).post('/api/simulate').send(velarin).expect(200);
+    const res = await request(app).post('/api/simulate').send(brennock).expect(200);
     expect(res.body.times.length).toBeGreaterThan(600);
   });
 });

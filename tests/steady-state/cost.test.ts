@@ -27,16 +27,16 @@ function steady(scenario: ScenarioInput): SteadyStateFigures {
 }
 
 describe('an infusion far longer than the dosing interval', () => {
-  it.each([1e-4, 1e-6, 1e-9])('velarin 400 mg at %s mg/h every 12 h folds into at most three pieces per dose', (rate) => {
+  it.each([1e-4, 1e-6, 1e-9])('brennock 400 mg at %s mg/h every 12 h folds into at most three pieces per dose', (rate) => {
     // Duration 400/rate h: 4e6 to 4e11 h, 3e5 to 3e10 dosing intervals.
-    const model = normaliseScenario(withDose(sample('velarin-oral-bid.json'), 0, { rate }));
-    if (!model.ok) throw new Error('velarin must normalise');
+    const model = normaliseScenario(withDose(sample('brennock-oral-bid.json'), 0, { rate }));
+    if (!model.ok) throw new Error('brennock must normalise');
     const lines = maintenanceLines(model.value);
     expect(cycleAdministrations(lines, 12).length).toBeLessThanOrEqual(3);
   });
 
-  it.each([1e-4, 1e-6])('velarin at %s mg/h: closed form, two cycles and at most four integrations', (rate) => {
-    const ss = steady(withDose(sample('velarin-oral-bid.json'), 0, { rate }));
+  it.each([1e-4, 1e-6])('brennock at %s mg/h: closed form, two cycles and at most four integrations', (rate) => {
+    const ss = steady(withDose(sample('brennock-oral-bid.json'), 0, { rate }));
     expect(ss.reached).toBe(true);
     expect(ss.work?.cycles).toBeLessThanOrEqual(2);
     expect(ss.work?.integrations).toBeLessThanOrEqual(4);
@@ -48,9 +48,9 @@ describe('an infusion far longer than the dosing interval', () => {
   });
 
   it('a saturable model: the search costs the same for a 30-day and a 34,000-year infusion', () => {
-    const kestrazole = sample('kestrazole-saturable-dose-increase.json');
-    const short = steady(withDose(kestrazole, 1, { duration: '30 day' }));
-    const long = steady(withDose(kestrazole, 1, { rate: 1e-6 }));
+    const skorvel = sample('skorvel-saturable-dose-increase.json');
+    const short = steady(withDose(skorvel, 1, { duration: '30 day' }));
+    const long = steady(withDose(skorvel, 1, { rate: 1e-6 }));
     expect(short.reached && long.reached).toBe(true);
     // Only the approach grows with the infusion, and it stops at the cycle limit.
     expect(long.cycles).toBeLessThanOrEqual(short.cycles + 10);
@@ -60,9 +60,9 @@ describe('an infusion far longer than the dosing interval', () => {
 
 describe('a linear model integrated by a numerical method', () => {
   it.each([{ method: 'rosenbrock' }, { method: 'dop853' }, { method: 'abm2', step: 0.0053 }, { method: 'euler', step: 0.01 }])(
-    'velarin with %o: the closed form, one cycle integrated for the figures',
+    'brennock with %o: the closed form, one cycle integrated for the figures',
     (solver) => {
-      const ss = steady({ ...sample('velarin-oral-bid.json'), solver } as ScenarioInput);
+      const ss = steady({ ...sample('brennock-oral-bid.json'), solver } as ScenarioInput);
       expect(ss.reached).toBe(true);
       expect(ss.method).toBe('closed-form');
       expect(ss.work?.cycles).toBeLessThanOrEqual(2);
@@ -72,8 +72,8 @@ describe('a linear model integrated by a numerical method', () => {
 });
 
 describe('a saturable model', () => {
-  it('kestrazole: Newton steps find it in a few dozen cycles, and the work is reported', () => {
-    const ss = steady(sample('kestrazole-saturable-dose-increase.json'));
+  it('skorvel: Newton steps find it in a few dozen cycles, and the work is reported', () => {
+    const ss = steady(sample('skorvel-saturable-dose-increase.json'));
     expect(ss.reached).toBe(true);
     expect(ss.cycles).toBeLessThan(50);
     // Search and figures, plus the approach from empty (chunks of 16 cycles and more, stopping at 95%).
