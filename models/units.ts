@@ -5,8 +5,14 @@
  */
 import { create, unitDependencies } from 'mathjs';
 import type { Quantity } from './schema.ts';
+import { simpleFactor, simpleKind } from './simple-units.ts';
 
-const math = create({ unitDependencies });
+// The general unit parser is set up on first use: everyday units never need it (simple-units.ts).
+let instance: ReturnType<typeof create> | null = null;
+function mathjs(): ReturnType<typeof create> {
+  instance ??= create({ unitDependencies });
+  return instance;
+}
 type MathUnit = import("mathjs").Unit;
 
 export interface UnitSystem {
@@ -83,7 +89,7 @@ export function normaliseUnitText(text: string): string {
 
 function parseUnit(text: string): MathUnit | null {
   try {
-    return math.unit(text) as MathUnit;
+    return mathjs().unit(text) as MathUnit;
   } catch {
     return null;
   }
@@ -138,6 +144,12 @@ export function convertToUnit(q: Quantity, targetText: string, words: string, sh
     return { ok: false, message: `${quoted(q)} has a decimal comma; write a decimal point: '${split[1]}.${decimalComma[1]}${decimalComma[2]}'` };
   }
   const unitText = normaliseUnitText(typedUnit);
+  const simple = simpleFactor(unitText, targetText);
+  if (simple === 'mismatch') return { ok: false, message: `expected ${words}, got ${quoted(typedUnit)}` };
+  if (simple !== 'unknown') {
+    const value = magnitude * simple;
+    return Number.isFinite(value) ? { ok: true, value } : { ok: false, message: `${quoted(q)} is too large once converted to ${shown}` };
+  }
   const parsed = parseUnit(`1 ${unitText}`);
   if (!parsed) return { ok: false, message: `could not read the unit ${quoted(typedUnit)} in ${quoted(q)}` };
   const target = parseUnit(`1 ${targetText}`);
@@ -167,6 +179,9 @@ const baseDimension: Record<keyof UnitSystem, { probe: string; words: string; ex
   time: [{ probe: '1 h', words: 'time', example: "'h', 'min' or 'day'" }],
 };
 
+/** The kinds of everyday unit each field of the unit system accepts without the general parser. */
+const everydayKinds: Record<keyof UnitSystem, string[]> = { amount: ['mass', 'substance'], volume: ['volume'], time: ['time'] };
+
 /** A unit name with its prefix (mg, mL, min, day): letters only. */
 const singleUnitName = /^[A-Za-z]+$/;
 
@@ -179,15 +194,20 @@ export function checkUnitSystem(units: UnitSystem): {
   const normalised: UnitSystem = { ...units };
   for (const field of ['amount', 'volume', 'time'] as const) {
     const text = normaliseUnitText(units[field]);
-    const parsed = parseUnit(`1 ${text}`);
     const kinds = baseDimension[field];
+    const everyday = simpleKind(text);
+    if (everyday !== null && everydayKinds[field].includes(everyday)) {
+      normalised[field] = text;
+      continue;
+    }
+    const parsed = singleUnitName.test(text) ? parseUnit(`1 ${text}`) : null;
     if (!singleUnitName.test(text)) {
       // Compound spellings ("dm*dm*dm", "h*h/h") would reach every derived unit (mg/dm*dm*dm) and
       // break the reading of concentrations and rate constants, so the system takes plain names.
       problems.push({ field, message: `'${units[field]}' is not a single unit name; write one such as ${kinds[0].example}` });
     } else if (!parsed || parsed.value === null) {
       problems.push({ field, message: `'${units[field]}' is not a known unit` });
-    } else if (!kinds.some((k) => parsed.equalBase(math.unit(k.probe) as MathUnit))) {
+    } else if (!kinds.some((k) => parsed.equalBase(mathjs().unit(k.probe) as MathUnit))) {
       problems.push({ field, message: `'${units[field]}' is not a unit of ${kinds.map((k) => k.words).join(' or ')}` });
     } else {
       normalised[field] = text;

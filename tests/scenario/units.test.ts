@@ -147,3 +147,48 @@ describe('the scenario unit system takes single unit names', () => {
     expect(checkUnitSystem({ ...hours, [field]: unit }).problems).toEqual([]);
   });
 });
+
+describe('everyday units without the general parser', () => {
+  // mathjs, an independent unit library, as the reference for every factor of the table.
+  it('agree with mathjs for every pair of everyday units and their quotients, within 2 ulp', async () => {
+    const { create, unitDependencies } = await import('mathjs');
+    const math = create({ unitDependencies });
+    const { simpleFactor } = await import('../../models/simple-units.ts');
+    const groups = [
+      ['ng', 'ug', 'mg', 'g', 'kg'],
+      ['nmol', 'umol', 'mmol', 'mol'],
+      ['uL', 'mL', 'dL', 'L'],
+      ['s', 'min', 'h', 'day', 'week'],
+    ];
+    const [mass, , volume, time] = groups;
+    const spellings: string[][] = [
+      ...groups,
+      mass.flatMap((a) => volume.map((v) => `${a}/${v}`)),
+      volume.flatMap((v) => time.map((t) => `${v}/${t}`)),
+      mass.flatMap((a) => time.map((t) => `${a}/${t}`)),
+      time.map((t) => `${t}^-1`),
+    ];
+    let compared = 0;
+    let beyond = 0;
+    for (const group of spellings) {
+      for (const from of group) {
+        for (const to of group) {
+          const fast = simpleFactor(from, to);
+          // Ratios whose exact fraction passes 2^53 (ng/dL → kg/uL) are left to the general parser.
+          if (fast === 'unknown') {
+            beyond++;
+            continue;
+          }
+          expect(typeof fast, `${from} → ${to}`).toBe('number');
+          const reference = math.unit(`1 ${from}`).toNumber(to);
+          expect(Math.abs((fast as number) - reference), `${from} → ${to}`).toBeLessThanOrEqual(2 * Number.EPSILON * Math.abs(reference));
+          compared++;
+        }
+      }
+    }
+    expect(compared).toBeGreaterThan(500);
+    expect(beyond).toBeLessThan(compared / 10);
+    expect(simpleFactor('mg', 'L')).toBe('mismatch');
+    expect(simpleFactor('furlong', 'L')).toBe('unknown');
+  });
+});
