@@ -3,30 +3,30 @@
  * diagnostics out — or a list of problems, each with its JSON path. Never throws for
  * bad input or numerical failure.
  */
-import { disposition, type Disposition } from './disposition.ts';
-import { doseEvents, scheduleOf, timeResolution, type DoseEventKind, type Schedule } from './events.ts';
-import { CurveProbe } from './metrics/curve-probe.ts';
-import { exposureFigures, type CompartmentFigures } from './metrics/exposure.ts';
-import { massBalance, massBalanceProblem, type MassBalance } from './mass-balance.ts';
-import type { Model } from './model.ts';
-import { normaliseScenario } from './normalize.ts';
-import type { Trajectory } from './numerics/dense-store.ts';
-import { choosePath, solveSchedule, type Solution, type SolutionPath } from './solve.ts';
-import { outputRows } from './output-rows.ts';
-import { formatNumber } from './format-number.ts';
-import { emptyStats, IntegrationFailure, type SolverStats } from './numerics/ode-system.ts';
-import { realStabilityLimit } from './numerics/stability.ts';
-import type { Outcome, Problem } from './problems.ts';
-import type { SolverMethod } from './schema.ts';
-import { APPROACH_DEFINITION, steadyStateFigures, type SteadyStateFigures } from './steady-state.ts';
-import { CompartmentSystem, type StateLayout } from './system.ts';
-import { displayUnit } from './units.ts';
-import { limits } from './limits.ts';
+import { disposition, type Disposition } from './building/disposition.ts';
+import { doseEvents, scheduleOf, timeResolution, type DoseEventKind, type Schedule } from './building/events.ts';
+import { CurveProbe } from './figures/curve-probe.ts';
+import { exposureFigures, type CompartmentFigures } from './figures/exposure.ts';
+import { massBalance, massBalanceProblem, type MassBalance } from './figures/mass-balance.ts';
+import type { Model } from './building/model.ts';
+import { normaliseScenario } from './scenario/normalize.ts';
+import type { Trajectory } from './solving/numerics/dense-store.ts';
+import { choosePath, solveSchedule, type Solution, type SolutionPath } from './solving/solve.ts';
+import { outputRows } from './result/output-rows.ts';
+import { formatNumber } from './result/format-number.ts';
+import { emptyStats, IntegrationFailure, type SolverStats } from './solving/numerics/ode-system.ts';
+import { realStabilityLimit } from './solving/numerics/stability.ts';
+import type { Outcome, Problem } from './scenario/problems.ts';
+import type { SolverMethod } from './scenario/schema.ts';
+import { APPROACH_DEFINITION, steadyStateFigures, type SteadyStateFigures } from './figures/steady-state.ts';
+import { CompartmentSystem, type StateLayout } from './building/system.ts';
+import { displayUnit } from './scenario/units.ts';
+import { limits } from './scenario/limits.ts';
 
 // Re-exported for the server and the tests, which take them from the entry point.
-export { choosePath, solveSchedule, type Solution, type SolutionPath } from './solve.ts';
-export { outputRows } from './output-rows.ts';
-export { formatNumber } from './format-number.ts';
+export { choosePath, solveSchedule, type Solution, type SolutionPath } from './solving/solve.ts';
+export { outputRows } from './result/output-rows.ts';
+export { formatNumber } from './result/format-number.ts';
 
 export interface CompartmentSeries {
   id: string;

@@ -12,7 +12,7 @@
  *
  * What the build does beyond bundling, and why:
  * - mathjs, zod and the other pure-JavaScript packages are bundled: mathjs is imported
- *   through its factory functions (models/units.ts), so only the unit part is kept.
+ *   through its factory functions (models/scenario/units.ts), so only the unit part is kept.
  *   pdfkit stays external: it reads its standard fonts' .afm files from its own folder, which
  *   a bundle does not carry. express and helmet stay external too (CommonJS that requires
  *   node's modules; the server loads them once).

@@ -6,9 +6,9 @@ import express, { type ErrorRequestHandler, type NextFunction, type Request, typ
 import helmet from 'helmet';
 import { existsSync } from 'node:fs';
 import { join } from 'node:path';
-import { limits } from '../models/limits.ts';
-import { scenarioJsonSchema } from '../models/json-schema.ts';
-import type { Problem } from '../models/problems.ts';
+import { limits } from '../models/scenario/limits.ts';
+import { scenarioJsonSchema } from '../models/scenario/json-schema.ts';
+import type { Problem } from '../models/scenario/problems.ts';
 import { readReportRequest, reportFileNameOf } from './report/request.ts';
 import type { Sample } from './samples.ts';
 import type { SimulationPool } from './worker-pool.ts';

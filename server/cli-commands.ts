@@ -8,7 +8,7 @@
  * file written is named with its absolute path.
  */
 import { readFileSync } from 'node:fs';
-import { summaryText } from '../models/summary-text.ts';
+import { summaryText } from '../models/result/summary-text.ts';
 import { describeProblems, normaliseScenario, resultToCsv, resultToJsonText, scenarioJsonSchema, simulate, type Problem } from '../models/index.ts';
 import { parseOptions, parseTimeLimit, usage } from './cli-options.ts';
 import { sameFile } from './same-file.ts';

@@ -5,13 +5,13 @@
  */
 import { readlinkSync } from 'node:fs';
 import { parentPort } from 'node:worker_threads';
-import { scheduleOf } from '../models/events.ts';
-import type { Model } from '../models/model.ts';
-import { normaliseScenario } from '../models/normalize.ts';
-import { resultToJsonText } from '../models/result-format.ts';
-import { outputRows } from '../models/output-rows.ts';
+import { scheduleOf } from '../models/building/events.ts';
+import type { Model } from '../models/building/model.ts';
+import { normaliseScenario } from '../models/scenario/normalize.ts';
+import { resultToJsonText } from '../models/result/result-format.ts';
+import { outputRows } from '../models/result/output-rows.ts';
 import { simulateModel } from '../models/simulate.ts';
-import type { Problem } from '../models/problems.ts';
+import type { Problem } from '../models/scenario/problems.ts';
 import type { JobReply, JobRequest } from './jobs.ts';
 
 type ReportModule = typeof import('./report/report.ts');

@@ -2,7 +2,7 @@
  * The API client. Every answer becomes a plain outcome the page can show in words; no
  * exception object or server text other than the listed problems reaches the user.
  */
-import type { SimulationResultJson } from '../../models/result-format.ts';
+import type { SimulationResultJson } from '../../models/result/result-format.ts';
 
 export interface Problem {
   path: string;

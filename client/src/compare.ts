@@ -2,7 +2,7 @@
  * Compare: "Keep as reference" stores the current result with a copy of the scenario it
  * came from; later runs are drawn over it and the figures put both side by side.
  */
-import type { SimulationResultJson } from '../../models/result-format.ts';
+import type { SimulationResultJson } from '../../models/result/result-format.ts';
 import { byId } from './dom.ts';
 
 export interface Reference {

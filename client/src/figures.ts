@@ -3,9 +3,9 @@
  * and the steady-state figures, with the kept reference beside the current run; then how
  * the run was solved, in plain words (method, steps, half-life, mass balance, warnings).
  */
-import type { SimulationResultJson } from '../../models/result-format.ts';
-import { fmt } from '../../models/summary-text.ts';
-import { plainDoseWords } from '../../models/dose-words.ts';
+import type { SimulationResultJson } from '../../models/result/result-format.ts';
+import { fmt } from '../../models/result/summary-text.ts';
+import { plainDoseWords } from '../../models/result/dose-words.ts';
 import { h } from './dom.ts';
 
 type Result = SimulationResultJson;

@@ -2,7 +2,7 @@
  * Files: save the scenario as JSON, open one back, export the curves as CSV. The saved
  * file is the scenario object itself, so nothing the form does not show is lost.
  */
-import type { SimulationResultJson } from '../../models/result-format.ts';
+import type { SimulationResultJson } from '../../models/result/result-format.ts';
 import { download, slug } from './dom.ts';
 import { formProblem, type ScenarioDoc } from './store.ts';
 

@@ -4,10 +4,10 @@
  * the server.
  */
 import '../styles.css';
-import type { SimulationResultJson } from '../../models/result-format.ts';
-import { fmt } from '../../models/summary-text.ts';
-import { scenarioFingerprint } from '../../models/fingerprint.ts';
-import { doseLabelsOf } from '../../models/dose-words.ts';
+import type { SimulationResultJson } from '../../models/result/result-format.ts';
+import { fmt } from '../../models/result/summary-text.ts';
+import { scenarioFingerprint } from '../../models/scenario/fingerprint.ts';
+import { doseLabelsOf } from '../../models/result/dose-words.ts';
 import { fetchSample, fetchSamples, simulate } from './api.ts';
 import { Compare } from './compare.ts';
 import { renderDiagram } from './diagram.ts';

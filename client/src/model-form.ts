@@ -2,7 +2,7 @@
  * The model form: compartments (id, label, volume or none) and transfers between them or
  * out of the body (rate constant, clearance, or saturable Vmax/Km). Writes into the store.
  */
-import { fmt } from '../../models/summary-text.ts';
+import { fmt } from '../../models/result/summary-text.ts';
 import { h } from './dom.ts';
 import { button, compartmentField, quantityField, refreshCompartmentSelects, selectField, textField } from './fields.ts';
 import { isNumberText, scenarioUnitOf, splitQuantity, unitSize, type Dim, type UnitSet } from './quantity.ts';

@@ -2,8 +2,8 @@
  * Controls around the plot: which compartments to draw (and report), linear or log y,
  * and zoom to the whole span, one dosing interval, or the last interval with the steady-state cycle drawn over it.
  */
-import type { SimulationResultJson } from '../../models/result-format.ts';
-import { fmt } from '../../models/summary-text.ts';
+import type { SimulationResultJson } from '../../models/result/result-format.ts';
+import { fmt } from '../../models/result/summary-text.ts';
 import { byId, h } from './dom.ts';
 import { colourOf } from './plot.ts';
 

@@ -19,9 +19,9 @@ import {
   type InteractionItem,
   type InteractionModeFunction,
 } from 'chart.js';
-import type { SimulationResultJson } from '../../models/result-format.ts';
-import { fmt } from '../../models/summary-text.ts';
-import { logAxis, lowAfterRise, type Axis } from '../../models/axis-ticks.ts';
+import type { SimulationResultJson } from '../../models/result/result-format.ts';
+import { fmt } from '../../models/result/summary-text.ts';
+import { logAxis, lowAfterRise, type Axis } from '../../models/result/axis-ticks.ts';
 import { curvePoints, type CurvePoint, type CurveView } from './curve.ts';
 import { concentrationFactor, timeFactor } from './quantity.ts';
 import { doseMarksPlugin, windowBandPlugin, type Band } from './plot-plugins.ts';

@@ -3,9 +3,9 @@
  * description, compartments, routes, dose lines and span of the run on screen, as the user
  * typed them, with the run's own count of reported times. Hidden on screen (styles.css).
  */
-import type { SimulationResultJson } from '../../models/result-format.ts';
-import { scenarioFingerprint } from '../../models/fingerprint.ts';
-import { doseLineName } from '../../models/dose-words.ts';
+import type { SimulationResultJson } from '../../models/result/result-format.ts';
+import { scenarioFingerprint } from '../../models/scenario/fingerprint.ts';
+import { doseLineName } from '../../models/result/dose-words.ts';
 import { h } from './dom.ts';
 
 type Row = Record<string, unknown>;

@@ -4,7 +4,7 @@
  * output.times, solver.maxSteps, anything else) are never touched, so a file saved
  * after editing holds everything the opened one did.
  */
-import type { ScenarioInput } from '../../models/schema.ts';
+import type { ScenarioInput } from '../../models/scenario/schema.ts';
 import { defaultUnits, type UnitSet } from './quantity.ts';
 
 type Loose<T> = { [K in keyof T]?: T[K] } & { [extra: string]: unknown };

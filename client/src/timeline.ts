@@ -5,7 +5,7 @@
 import { svg } from './dom.ts';
 import { infusionLength, timeValue, type UnitSet } from './quantity.ts';
 import type { DoseDoc, ScenarioStore } from './store.ts';
-import { fmt } from '../../models/summary-text.ts';
+import { fmt } from '../../models/result/summary-text.ts';
 
 const right = 14;
 const laneH = 24;

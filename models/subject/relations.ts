@@ -7,9 +7,9 @@
  *   factors      θ[category]            a multiplier per category (1 for one not listed)
  * (the usual forms of covariate models; Mould & Upton 2012, CPT Pharmacometrics Syst Pharmacol 1:e6).
  */
-import type { Problem } from '../problems.ts';
-import type { CovariateRelation } from '../schema.ts';
-import { convertToUnit } from '../units.ts';
+import type { Problem } from '../scenario/problems.ts';
+import type { CovariateRelation } from '../scenario/schema.ts';
+import { convertToUnit } from '../scenario/units.ts';
 import { missingFor, type Covariates } from './subject.ts';
 
 export interface AppliedRelation {

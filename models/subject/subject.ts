@@ -4,9 +4,9 @@
  * published formulas derive from them (body-mass index, body surface area, creatinine
  * clearance, ideal and lean body weight). Covariate relations and per-size doses read these.
  */
-import type { Problem } from '../problems.ts';
-import type { Sex, Subject } from '../schema.ts';
-import { convertToUnit, unitWritten } from '../units.ts';
+import type { Problem } from '../scenario/problems.ts';
+import type { Sex, Subject } from '../scenario/schema.ts';
+import { convertToUnit, unitWritten } from '../scenario/units.ts';
 import { bodyMassIndex, bodySurfaceArea, idealBodyWeight, leanBodyWeight } from './body-size.ts';
 import { creatinineClearance, CREATININE_MG_DL_PER_UMOL_L } from './renal-function.ts';
 

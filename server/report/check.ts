@@ -12,7 +12,7 @@
  */
 import type { SimulationResult } from '../../models/simulate.ts';
 import { simulate } from '../../models/simulate.ts';
-import type { SolverMethod } from '../../models/schema.ts';
+import type { SolverMethod } from '../../models/scenario/schema.ts';
 
 export interface CheckSettings {
   method: SolverMethod;

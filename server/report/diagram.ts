@@ -4,7 +4,7 @@
  * the body. Depots stand to the left of the central compartment, peripheral compartments
  * (and any others) to the right; a pair of opposite routes is drawn as two parallel arrows.
  */
-import type { Model, ModelTransfer } from '../../models/model.ts';
+import type { Model, ModelTransfer } from '../../models/building/model.ts';
 import { contentLeft, contentTop, contentWidth, contentBottom, ensureSpace, font, palette, type } from './document.ts';
 import { fmt, unitText } from './format.ts';
 import type { Role } from './parameters.ts';

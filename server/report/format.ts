@@ -1,9 +1,9 @@
 /**
  * How the report writes numbers, units, durations and dates. Every figure goes through
- * `fmt` (models/summary-text.ts), the same four-significant-digit formatting as the
+ * `fmt` (models/result/summary-text.ts), the same four-significant-digit formatting as the
  * terminal summary, so the tests can format the engine's value and find it in the text.
  */
-import { fmt } from '../../models/summary-text.ts';
+import { fmt } from '../../models/result/summary-text.ts';
 
 export { fmt };
 

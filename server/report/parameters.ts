@@ -4,7 +4,7 @@
  * the half-lives of the model's modes (from the eigenvalues of the rate matrix), the volume
  * at steady state where it applies, and Km/Vmax figures for saturable transfers.
  */
-import type { Model } from '../../models/model.ts';
+import type { Model } from '../../models/building/model.ts';
 import type { SimulationResult } from '../../models/simulate.ts';
 import { fmt, unitText, withUnit } from './format.ts';
 

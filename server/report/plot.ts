@@ -6,7 +6,7 @@
  * peak and trough that can be seen at print resolution.
  */
 import { contentLeft, contentWidth, ensureSpace, font, palette, type } from './document.ts';
-import { linearAxis, logAxis, lowAfterRise, timeAxis, type Axis } from '../../models/axis-ticks.ts';
+import { linearAxis, logAxis, lowAfterRise, timeAxis, type Axis } from '../../models/result/axis-ticks.ts';
 import { fmt, unitText } from './format.ts';
 
 export interface PlotSeries {

@@ -3,7 +3,7 @@
  * 12 h × 14 from 0 h, F 0.85, lag 20 min" — never dose by dose, so a year of twice-daily
  * dosing is still one line.
  */
-import type { DoseLineSummary, Model } from '../../models/model.ts';
+import type { DoseLineSummary, Model } from '../../models/building/model.ts';
 import { duration, fmt, timePoint, unitText, withUnit } from './format.ts';
 
 export interface RegimenRow {

@@ -6,16 +6,16 @@
  * check, and the per-interval figures (which may run over many pages).
  */
 import { readFileSync } from 'node:fs';
-import { scenarioFingerprint } from '../../models/fingerprint.ts';
-import type { Model } from '../../models/model.ts';
-import { normaliseScenario } from '../../models/normalize.ts';
-import type { Problem } from '../../models/problems.ts';
+import { scenarioFingerprint } from '../../models/scenario/fingerprint.ts';
+import type { Model } from '../../models/building/model.ts';
+import { normaliseScenario } from '../../models/scenario/normalize.ts';
+import type { Problem } from '../../models/scenario/problems.ts';
 import { simulateModel, type SimulationResult } from '../../models/simulate.ts';
-import type { SteadyStateFigures } from '../../models/steady-state.ts';
-import type { WindowFigures } from '../../models/metrics/exposure.ts';
+import type { SteadyStateFigures } from '../../models/figures/steady-state.ts';
+import type { WindowFigures } from '../../models/figures/exposure.ts';
 import { independentCheck, verdict, type CheckOutcome } from './check.ts';
 import { drawDiagram } from './diagram.ts';
-import { plainDoseWords } from '../../models/dose-words.ts';
+import { plainDoseWords } from '../../models/result/dose-words.ts';
 import { createReportDocument, documentBytes, font, gap, heading, keyValues, palette, paragraph, type } from './document.ts';
 import { clock, duration, fmt, percent, reportFileName, unitText, withUnit } from './format.ts';
 import { drawCautionBox, drawTitleBlock, stampPages } from './furniture.ts';

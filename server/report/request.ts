@@ -5,7 +5,7 @@
  * Kept apart from the report itself so the HTTP thread can read a request without loading
  * the PDF writer.
  */
-import { scenarioFingerprint } from '../../models/fingerprint.ts';
+import { scenarioFingerprint } from '../../models/scenario/fingerprint.ts';
 import { reportFileName } from './format.ts';
 
 export interface ReportRequest {

@@ -9,7 +9,7 @@
  *   method: auto | exact | dopri5 | dop853 (the linear model), or saturable (the
  *   saturable variant with 'auto'); adaptive methods run at their default tolerances.
  */
-import { resultToJsonText } from '../../models/result-format.ts';
+import { resultToJsonText } from '../../models/result/result-format.ts';
 import { simulate } from '../../models/simulate.ts';
 import { halvexin, linearScenario, saturableScenario } from './scenario.ts';
 

@@ -4,13 +4,13 @@
  * driven over the same breakpoints with a hand-written right-hand side.
  */
 import { createRequire } from 'node:module';
-import { scheduleOf, type Schedule } from '../../models/events.ts';
-import type { Model } from '../../models/model.ts';
-import { normaliseScenario } from '../../models/normalize.ts';
-import type { Trajectory } from '../../models/numerics/dense-store.ts';
-import { emptyStats, type SolverStats } from '../../models/numerics/ode-system.ts';
+import { scheduleOf, type Schedule } from '../../models/building/events.ts';
+import type { Model } from '../../models/building/model.ts';
+import { normaliseScenario } from '../../models/scenario/normalize.ts';
+import type { Trajectory } from '../../models/solving/numerics/dense-store.ts';
+import { emptyStats, type SolverStats } from '../../models/solving/numerics/ode-system.ts';
 import { outputRows, solveSchedule } from '../../models/simulate.ts';
-import { CompartmentSystem } from '../../models/system.ts';
+import { CompartmentSystem } from '../../models/building/system.ts';
 import { rates, halvexin } from './scenario.ts';
 
 export interface Rows {

@@ -3,15 +3,15 @@
  * simulateModel() replayed one by one with the same exported functions, each timed.
  * (Mass balance, warnings and the result object are left out: they are cheap.)
  */
-import { disposition } from '../../models/disposition.ts';
-import { scheduleOf } from '../../models/events.ts';
-import { CurveProbe } from '../../models/metrics/curve-probe.ts';
-import { exposureFigures } from '../../models/metrics/exposure.ts';
-import { normaliseScenario } from '../../models/normalize.ts';
-import { emptyStats } from '../../models/numerics/ode-system.ts';
+import { disposition } from '../../models/building/disposition.ts';
+import { scheduleOf } from '../../models/building/events.ts';
+import { CurveProbe } from '../../models/figures/curve-probe.ts';
+import { exposureFigures } from '../../models/figures/exposure.ts';
+import { normaliseScenario } from '../../models/scenario/normalize.ts';
+import { emptyStats } from '../../models/solving/numerics/ode-system.ts';
 import { outputRows, solveSchedule } from '../../models/simulate.ts';
-import { steadyStateFigures } from '../../models/steady-state.ts';
-import { CompartmentSystem } from '../../models/system.ts';
+import { steadyStateFigures } from '../../models/figures/steady-state.ts';
+import { CompartmentSystem } from '../../models/building/system.ts';
 
 export const phaseNames = [
   'normalise',

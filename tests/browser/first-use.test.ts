@@ -11,8 +11,8 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { Browser, BrowserContext, Page } from 'playwright-core';
 import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
-import type { SimulationResultJson } from '../../models/result-format.ts';
-import { fmt } from '../../models/summary-text.ts';
+import type { SimulationResultJson } from '../../models/result/result-format.ts';
+import { fmt } from '../../models/result/summary-text.ts';
 import { artifactPath, ensureClientBuilt, launchChromium, startServer, type RunningServer } from './harness.ts';
 import { captureDownload, field, openApp, runAndWait, typeInto, unitOf, type PageRecord } from './page-helpers.ts';
 

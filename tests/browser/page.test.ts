@@ -5,8 +5,8 @@
 // Screenshots of each step go to tests/artifacts/browser/ (git-ignored).
 import type { Browser, BrowserContext, Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import type { SimulationResultJson } from '../../models/result-format.ts';
-import { fmt } from '../../models/summary-text.ts';
+import type { SimulationResultJson } from '../../models/result/result-format.ts';
+import { fmt } from '../../models/result/summary-text.ts';
 import { artifactPath, ensureClientBuilt, launchChromium, startServer, type RunningServer } from './harness.ts';
 import { choose, field, plotPixels, recordPage, runAndWait, typeInto, unitOf, type PageRecord } from './page-helpers.ts';
 

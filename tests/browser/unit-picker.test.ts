@@ -11,7 +11,7 @@ import { unit } from 'mathjs';
 import type { Browser, BrowserContext, Page } from 'playwright-core';
 import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
 import { convertUnit, unitChoices, type Dim } from '../../client/src/quantity.ts';
-import type { SimulationResultJson } from '../../models/result-format.ts';
+import type { SimulationResultJson } from '../../models/result/result-format.ts';
 import { artifactPath, ensureClientBuilt, launchChromium, repoRoot, startServer, type RunningServer } from './harness.ts';
 import { afterNewResult, field, openApp, runAndWait, unitOf, type PageRecord } from './page-helpers.ts';
 

@@ -154,7 +154,7 @@ describe('invalid scenarios name the field and say what is wrong', () => {
     expect(problems.map((p) => p.path).sort()).toEqual(['compartments[2].volume', 'doses[2].into', 'transfers[1].cl']);
   });
 
-  it('too many output points: the limit of models/limits.ts', () => {
+  it('too many output points: the limit of models/scenario/limits.ts', () => {
     const step = 24 / limits.outputPoints; // limit + 1 grid points over [0, 24]
     const problems = problemsOf(mutated((s) => (s.output.step = step)));
     const hit = problems.find((p) => p.path === 'output.step');

@@ -12,7 +12,7 @@
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
 import { simulate, type SimulationResult } from '../../models/index.ts';
-import type { ScenarioInput } from '../../models/schema.ts';
+import type { ScenarioInput } from '../../models/scenario/schema.ts';
 
 type DoseInput = NonNullable<ScenarioInput['doses']>[number];
 type TransferInput = NonNullable<ScenarioInput['transfers']>[number];

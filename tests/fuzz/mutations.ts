@@ -149,7 +149,7 @@ export function answerDefect(status: number, body: unknown): string | null {
     for (const k of ['dosed', 'remaining', 'eliminated', 'relativeError'] as const) {
       if (typeof mb[k] !== 'number' || !Number.isFinite(mb[k])) return `a 200 answer whose massBalance.${k} is ${JSON.stringify(mb[k])}`;
     }
-    // The engine refuses a balance beyond 1e-9 (models/mass-balance.ts).
+    // The engine refuses a balance beyond 1e-9 (models/figures/mass-balance.ts).
     if ((mb.relativeError as number) > 1e-9) return `a 200 answer whose mass balance fails (${mb.relativeError})`;
     return null;
   }

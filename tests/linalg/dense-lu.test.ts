@@ -1,8 +1,8 @@
 import { describe, expect, test } from 'vitest';
 import fc from 'fast-check';
 import { det, multiply, norm } from 'mathjs';
-import { copyMatrix, fromRows, identity, matMul, matVec, norm1, normInf } from '../../models/linalg/dense.ts';
-import { luFactor, luSolve, luSolveMatrix, solveLinear } from '../../models/linalg/lu.ts';
+import { copyMatrix, fromRows, identity, matMul, matVec, norm1, normInf } from '../../models/solving/linalg/dense.ts';
+import { luFactor, luSolve, luSolveMatrix, solveLinear } from '../../models/solving/linalg/lu.ts';
 import { fromMathjs, mathjsMatrix, mixedMatrix, U } from './helpers.ts';
 
 describe('dense helpers', () => {

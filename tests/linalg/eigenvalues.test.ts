@@ -1,9 +1,9 @@
 import { describe, expect, test } from 'vitest';
 import fc from 'fast-check';
 import { eigs } from 'mathjs';
-import { fromRows, matMul } from '../../models/linalg/dense.ts';
-import { createEigenWorkspace, createEigenvalues, eigenvalues } from '../../models/linalg/eigenvalues.ts';
-import type { Eigenvalues } from '../../models/linalg/eigenvalues.ts';
+import { fromRows, matMul } from '../../models/solving/linalg/dense.ts';
+import { createEigenWorkspace, createEigenvalues, eigenvalues } from '../../models/solving/linalg/eigenvalues.ts';
+import type { Eigenvalues } from '../../models/solving/linalg/eigenvalues.ts';
 import { compartmentMatrix, mathjsMatrix, mixedMatrix, norm1Of, U } from './helpers.ts';
 
 interface Cx {

@@ -8,8 +8,8 @@
 import fc from 'fast-check';
 import { expm as mathjsExpm, matrix } from 'mathjs';
 import { describe, expect, test } from 'vitest';
-import { normInf } from '../../models/linalg/dense.ts';
-import { createExpActionWork, expAction } from '../../models/linalg/exp-action.ts';
+import { normInf } from '../../models/solving/linalg/dense.ts';
+import { createExpActionWork, expAction } from '../../models/solving/linalg/exp-action.ts';
 import { compartmentMatrix, logRate, U } from './helpers.ts';
 
 /** x(h) by mathjs: e^{[[Mh, uh], [0, 0]]}·[x0; 1]. */

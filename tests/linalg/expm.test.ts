@@ -1,7 +1,7 @@
 import { describe, expect, test } from 'vitest';
 import fc from 'fast-check';
 import { expm as mathjsExpm } from 'mathjs';
-import { fromRows, identity, matMul, matVec } from '../../models/linalg/dense.ts';
+import { fromRows, identity, matMul, matVec } from '../../models/solving/linalg/dense.ts';
 import {
   PADE_COEFFICIENTS,
   PADE_DEGREES,
@@ -11,8 +11,8 @@ import {
   expmIntegral,
   expmScaled,
   propagator,
-} from '../../models/linalg/expm.ts';
-import { solveLinear } from '../../models/linalg/lu.ts';
+} from '../../models/solving/linalg/expm.ts';
+import { solveLinear } from '../../models/solving/linalg/lu.ts';
 import { compartmentMatrix, fromMathjs, mathjsMatrix, mixedMatrix, norm1Of, relDiff1, squarings, U } from './helpers.ts';
 
 /**

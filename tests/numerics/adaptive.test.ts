@@ -3,13 +3,13 @@
  * proportionality, dense output, landing on t1, FSAL evaluation counts, failures.
  */
 import { describe, expect, it } from 'vitest';
-import { DenseStore } from '../../models/numerics/dense-store';
-import { emptyStats, IntegrationFailure } from '../../models/numerics/ode-system';
-import type { OdeSystem } from '../../models/numerics/ode-system';
-import { integrateAdaptive } from '../../models/numerics/explicit-rk';
-import type { AdaptiveOptions } from '../../models/numerics/explicit-rk';
-import { DOP853, DOPRI5 } from '../../models/numerics/tableaux';
-import type { ExplicitTableau } from '../../models/numerics/tableau';
+import { DenseStore } from '../../models/solving/numerics/dense-store';
+import { emptyStats, IntegrationFailure } from '../../models/solving/numerics/ode-system';
+import type { OdeSystem } from '../../models/solving/numerics/ode-system';
+import { integrateAdaptive } from '../../models/solving/numerics/explicit-rk';
+import type { AdaptiveOptions } from '../../models/solving/numerics/explicit-rk';
+import { DOP853, DOPRI5 } from '../../models/solving/numerics/tableaux';
+import type { ExplicitTableau } from '../../models/solving/numerics/tableau';
 import { blowUp, decay, guarded, maxAbsDiff, oscillator } from './test-problems';
 
 /** Tolerances so loose that every step is accepted: with initialStep = maxStep = h the pair runs at fixed h. */

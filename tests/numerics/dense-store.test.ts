@@ -5,8 +5,8 @@
  * and its byte count is what it allocated.
  */
 import { describe, expect, it } from 'vitest';
-import { DenseStore, STEP_RECORD_BYTES } from '../../models/numerics/dense-store';
-import type { DenseForm } from '../../models/numerics/dense-store';
+import { DenseStore, STEP_RECORD_BYTES } from '../../models/solving/numerics/dense-store';
+import type { DenseForm } from '../../models/solving/numerics/dense-store';
 
 /** A form whose value is the stored scalar: identifies the step that was evaluated. */
 const tagForm: DenseForm = {

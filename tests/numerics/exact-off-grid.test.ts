@@ -5,15 +5,15 @@
  * (an independent library) and from the engine's own Padé propagator evaluated afresh.
  */
 import { expm as mathjsExpm, matrix } from 'mathjs';
-import { norm1 } from '../../models/linalg/dense.ts';
-import { createExpmWorkspace, createPropagator, propagator } from '../../models/linalg/expm.ts';
+import { norm1 } from '../../models/solving/linalg/dense.ts';
+import { createExpmWorkspace, createPropagator, propagator } from '../../models/solving/linalg/expm.ts';
 import { describe, expect, it } from 'vitest';
-import type { LinearTrajectory } from '../../models/linear-path.ts';
-import { normaliseScenario } from '../../models/normalize.ts';
-import { scheduleOf } from '../../models/events.ts';
-import { emptyStats } from '../../models/numerics/ode-system.ts';
+import type { LinearTrajectory } from '../../models/solving/linear-path.ts';
+import { normaliseScenario } from '../../models/scenario/normalize.ts';
+import { scheduleOf } from '../../models/building/events.ts';
+import { emptyStats } from '../../models/solving/numerics/ode-system.ts';
 import { solveSchedule } from '../../models/simulate.ts';
-import { CompartmentSystem } from '../../models/system.ts';
+import { CompartmentSystem } from '../../models/building/system.ts';
 
 // Fictional "rondaxin" by mouth every 24 h for a year: the pieces sit at times up to 8760 h,
 // where absolute times carry rounding of 1e-12 h, and knot steps repeat from piece to piece.

@@ -4,7 +4,7 @@
  * must give the same bits: the generated code adds the same products in the same order.
  */
 import { afterEach, describe, expect, it } from 'vitest';
-import { setCodeGeneration } from '../../models/numerics/generated-code.ts';
+import { setCodeGeneration } from '../../models/solving/numerics/generated-code.ts';
 import { simulate, type SimulationResult } from '../../models/simulate.ts';
 
 afterEach(() => setCodeGeneration(true));

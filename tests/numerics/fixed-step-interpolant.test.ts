@@ -6,16 +6,16 @@
  * around it, and none of them dips below zero where the steps do not.
  */
 import { describe, expect, it } from 'vitest';
-import { scheduleOf } from '../../models/events.ts';
-import { normaliseScenario } from '../../models/normalize.ts';
-import { integrateSchedule } from '../../models/numerical-path.ts';
-import { integrateAbm2 } from '../../models/numerics/adams-bashforth-moulton.ts';
-import { DenseStore } from '../../models/numerics/dense-store.ts';
-import { integrateFixed } from '../../models/numerics/explicit-rk.ts';
-import { emptyStats } from '../../models/numerics/ode-system.ts';
-import { EULER, HEUN, RK4 } from '../../models/numerics/tableaux.ts';
+import { scheduleOf } from '../../models/building/events.ts';
+import { normaliseScenario } from '../../models/scenario/normalize.ts';
+import { integrateSchedule } from '../../models/solving/numerical-path.ts';
+import { integrateAbm2 } from '../../models/solving/numerics/adams-bashforth-moulton.ts';
+import { DenseStore } from '../../models/solving/numerics/dense-store.ts';
+import { integrateFixed } from '../../models/solving/numerics/explicit-rk.ts';
+import { emptyStats } from '../../models/solving/numerics/ode-system.ts';
+import { EULER, HEUN, RK4 } from '../../models/solving/numerics/tableaux.ts';
 import { simulate } from '../../models/simulate.ts';
-import { CompartmentSystem } from '../../models/system.ts';
+import { CompartmentSystem } from '../../models/building/system.ts';
 import { decay } from './test-problems.ts';
 
 // Fictional "sorbanil" (as in tests/reference/fixed-step-order.test.ts): oral doses every 8 h and an IV

@@ -6,17 +6,17 @@
  */
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
-import { scheduleOf } from '../../models/events.ts';
-import { normaliseScenario } from '../../models/normalize.ts';
-import { integrateSchedule } from '../../models/numerical-path.ts';
-import { integrateAbm2 } from '../../models/numerics/adams-bashforth-moulton.ts';
-import { DENSE_STORE_MAX_BYTES, DenseStore } from '../../models/numerics/dense-store.ts';
-import { integrateAdaptive, integrateFixed } from '../../models/numerics/explicit-rk.ts';
-import { emptyStats, IntegrationFailure, type SolverStats } from '../../models/numerics/ode-system.ts';
-import type { ExplicitTableau } from '../../models/numerics/tableau.ts';
-import { DOPRI5, EULER, HEUN, RK4 } from '../../models/numerics/tableaux.ts';
+import { scheduleOf } from '../../models/building/events.ts';
+import { normaliseScenario } from '../../models/scenario/normalize.ts';
+import { integrateSchedule } from '../../models/solving/numerical-path.ts';
+import { integrateAbm2 } from '../../models/solving/numerics/adams-bashforth-moulton.ts';
+import { DENSE_STORE_MAX_BYTES, DenseStore } from '../../models/solving/numerics/dense-store.ts';
+import { integrateAdaptive, integrateFixed } from '../../models/solving/numerics/explicit-rk.ts';
+import { emptyStats, IntegrationFailure, type SolverStats } from '../../models/solving/numerics/ode-system.ts';
+import type { ExplicitTableau } from '../../models/solving/numerics/tableau.ts';
+import { DOPRI5, EULER, HEUN, RK4 } from '../../models/solving/numerics/tableaux.ts';
 import { simulate } from '../../models/simulate.ts';
-import { CompartmentSystem } from '../../models/system.ts';
+import { CompartmentSystem } from '../../models/building/system.ts';
 import { decay, oscillator, twoState } from './test-problems.ts';
 
 const brennock = JSON.parse(readFileSync(new URL('../../samples/brennock-oral-bid.json', import.meta.url), 'utf8'));

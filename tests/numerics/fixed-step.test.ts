@@ -3,13 +3,13 @@
  * landing on t1, evaluation counts, and the Hermite dense output they record.
  */
 import { describe, expect, it } from 'vitest';
-import { DenseStore } from '../../models/numerics/dense-store';
-import { emptyStats, IntegrationFailure } from '../../models/numerics/ode-system';
-import type { OdeSystem } from '../../models/numerics/ode-system';
-import { integrateFixed } from '../../models/numerics/explicit-rk';
-import { integrateAbm2 } from '../../models/numerics/adams-bashforth-moulton';
-import { EULER, HEUN, RK4 } from '../../models/numerics/tableaux';
-import type { ExplicitTableau } from '../../models/numerics/tableau';
+import { DenseStore } from '../../models/solving/numerics/dense-store';
+import { emptyStats, IntegrationFailure } from '../../models/solving/numerics/ode-system';
+import type { OdeSystem } from '../../models/solving/numerics/ode-system';
+import { integrateFixed } from '../../models/solving/numerics/explicit-rk';
+import { integrateAbm2 } from '../../models/solving/numerics/adams-bashforth-moulton';
+import { EULER, HEUN, RK4 } from '../../models/solving/numerics/tableaux';
+import type { ExplicitTableau } from '../../models/solving/numerics/tableau';
 import { blowUp, decay, guarded, maxAbsDiff, twoState, twoStateExact } from './test-problems';
 
 type Runner = (system: OdeSystem, t1: number, y: Float64Array, h: number) => void;

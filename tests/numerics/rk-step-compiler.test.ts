@@ -7,13 +7,13 @@
  */
 import fc from 'fast-check';
 import { afterEach, describe, expect, it, vi } from 'vitest';
-import { normaliseScenario } from '../../models/normalize.ts';
-import { setCodeGeneration } from '../../models/numerics/generated-code.ts';
-import { kernelSource } from '../../models/numerics/rk-step-compiler.ts';
-import { unpack } from '../../models/numerics/rk-step.ts';
-import { DOP853, DOPRI5, EULER, HEUN, RK4 } from '../../models/numerics/tableaux.ts';
+import { normaliseScenario } from '../../models/scenario/normalize.ts';
+import { setCodeGeneration } from '../../models/solving/numerics/generated-code.ts';
+import { kernelSource } from '../../models/solving/numerics/rk-step-compiler.ts';
+import { unpack } from '../../models/solving/numerics/rk-step.ts';
+import { DOP853, DOPRI5, EULER, HEUN, RK4 } from '../../models/solving/numerics/tableaux.ts';
 import { simulate, simulateModel, type SimulationResult } from '../../models/simulate.ts';
-import { CompartmentSystem } from '../../models/system.ts';
+import { CompartmentSystem } from '../../models/building/system.ts';
 
 afterEach(() => {
   setCodeGeneration(true);

@@ -1,18 +1,18 @@
 /**
- * Real-axis stability limits of the fixed-step methods (models/numerics/stability.ts),
+ * Real-axis stability limits of the fixed-step methods (models/solving/numerics/stability.ts),
  * checked three ways: the table against the root of |stability function| = 1 computed here
  * from the tableaux themselves; for ABM2 against the root of the spectral radius of its
  * characteristic polynomial, whose coefficients are read off the engine's own steps; and the
  * engine's behaviour on y' = −λy just inside and just outside each limit.
  */
 import { describe, expect, it } from 'vitest';
-import { integrateAbm2 } from '../../models/numerics/adams-bashforth-moulton';
-import { DenseStore } from '../../models/numerics/dense-store';
-import { integrateFixed } from '../../models/numerics/explicit-rk';
-import { emptyStats } from '../../models/numerics/ode-system';
-import { realStabilityLimit } from '../../models/numerics/stability';
-import type { ExplicitTableau } from '../../models/numerics/tableau';
-import { EULER, HEUN, RK4 } from '../../models/numerics/tableaux';
+import { integrateAbm2 } from '../../models/solving/numerics/adams-bashforth-moulton';
+import { DenseStore } from '../../models/solving/numerics/dense-store';
+import { integrateFixed } from '../../models/solving/numerics/explicit-rk';
+import { emptyStats } from '../../models/solving/numerics/ode-system';
+import { realStabilityLimit } from '../../models/solving/numerics/stability';
+import type { ExplicitTableau } from '../../models/solving/numerics/tableau';
+import { EULER, HEUN, RK4 } from '../../models/solving/numerics/tableaux';
 import { linearSystem } from './test-problems';
 
 /**

@@ -2,13 +2,13 @@
  * The Rosenbrock method (RODAS4) and the automatic explicit → stiff hand-over.
  */
 import { describe, expect, it } from 'vitest';
-import { DenseStore } from '../../models/numerics/dense-store';
-import { emptyStats, IntegrationFailure } from '../../models/numerics/ode-system';
-import type { OdeSystem } from '../../models/numerics/ode-system';
-import { integrateRosenbrock } from '../../models/numerics/rosenbrock';
-import type { RosenbrockOptions } from '../../models/numerics/rosenbrock';
-import { createIntegratorState, HIGH_ORDER_RTOL, integrateSegment } from '../../models/numerics/auto-integrator';
-import type { MethodName, SegmentSettings } from '../../models/numerics/auto-integrator';
+import { DenseStore } from '../../models/solving/numerics/dense-store';
+import { emptyStats, IntegrationFailure } from '../../models/solving/numerics/ode-system';
+import type { OdeSystem } from '../../models/solving/numerics/ode-system';
+import { integrateRosenbrock } from '../../models/solving/numerics/rosenbrock';
+import type { RosenbrockOptions } from '../../models/solving/numerics/rosenbrock';
+import { createIntegratorState, HIGH_ORDER_RTOL, integrateSegment } from '../../models/solving/numerics/auto-integrator';
+import type { MethodName, SegmentSettings } from '../../models/solving/numerics/auto-integrator';
 import {
   blowUp,
   decay,

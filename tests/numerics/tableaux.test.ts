@@ -4,10 +4,10 @@
  * tree t with |t| ≤ p. Trees are generated, not listed by hand.
  */
 import { describe, expect, it } from 'vitest';
-import { DOP853, DOPRI5, EULER, EXPLICIT_TABLEAUX, HEUN, RK4 } from '../../models/numerics/tableaux';
-import { endSlopeIndex, fullStageCount } from '../../models/numerics/tableau';
-import type { ExplicitTableau } from '../../models/numerics/tableau';
-import { RODAS4 } from '../../models/numerics/rosenbrock';
+import { DOP853, DOPRI5, EULER, EXPLICIT_TABLEAUX, HEUN, RK4 } from '../../models/solving/numerics/tableaux';
+import { endSlopeIndex, fullStageCount } from '../../models/solving/numerics/tableau';
+import type { ExplicitTableau } from '../../models/solving/numerics/tableau';
+import { RODAS4 } from '../../models/solving/numerics/rosenbrock';
 
 /** A rooted tree as the multiset of its subtrees (canonically ordered). */
 interface Tree {

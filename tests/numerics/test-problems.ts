@@ -1,5 +1,5 @@
 /** Test problems with known exact solutions, shared by the numerics tests. */
-import type { OdeSystem } from '../../models/numerics/ode-system';
+import type { OdeSystem } from '../../models/solving/numerics/ode-system';
 
 /** y' = A y with a constant row-major matrix A. */
 export function linearSystem(a: readonly number[][]): OdeSystem {

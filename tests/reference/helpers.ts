@@ -6,7 +6,7 @@
  */
 import { Solver } from 'odex';
 import { expect } from 'vitest';
-import type { CompartmentFigures } from '../../models/metrics/exposure.ts';
+import type { CompartmentFigures } from '../../models/figures/exposure.ts';
 import { simulate, type SimulationResult } from '../../models/simulate.ts';
 
 /** Runs a scenario and fails loudly with the engine's problems when it is rejected. */

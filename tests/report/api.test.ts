@@ -2,7 +2,7 @@
 // with its file name on success; the same JSON problems as /api/simulate otherwise.
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { scenarioFingerprint } from '../../models/fingerprint.ts';
+import { scenarioFingerprint } from '../../models/scenario/fingerprint.ts';
 import { createApp, defaultServerLimits } from '../../server/app.ts';
 import { loadSamples } from '../../server/samples.ts';
 import { SimulationPool } from '../../server/worker-pool.ts';

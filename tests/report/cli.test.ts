@@ -6,7 +6,7 @@ import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'no
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { scenarioFingerprint } from '../../models/fingerprint.ts';
+import { scenarioFingerprint } from '../../models/scenario/fingerprint.ts';
 import { runCli } from '../../server/cli.ts';
 import { pdfPages, readSample, removeTempFiles, root } from './helpers.ts';
 

@@ -2,9 +2,9 @@
 // and in every footer, the engine's own numbers (formatted with the same fmt the report
 // uses), the symbols µ, τ and ½, the reference overlay, and no PDF for a bad scenario.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { scenarioFingerprint } from '../../models/fingerprint.ts';
+import { scenarioFingerprint } from '../../models/scenario/fingerprint.ts';
 import { simulate, type SimulationResult } from '../../models/simulate.ts';
-import { fmt } from '../../models/summary-text.ts';
+import { fmt } from '../../models/result/summary-text.ts';
 import { buildReport } from '../../server/report/report.ts';
 import { escapeRegExp, failing, pdfInfo, pdfPages, readSample, removeTempFiles } from './helpers.ts';
 

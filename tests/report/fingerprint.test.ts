@@ -3,7 +3,7 @@
 import { createHash } from 'node:crypto';
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
-import { canonicalJson, scenarioFingerprint, sha256Hex } from '../../models/fingerprint.ts';
+import { canonicalJson, scenarioFingerprint, sha256Hex } from '../../models/scenario/fingerprint.ts';
 import { readSample } from './helpers.ts';
 
 const bytes = (text: string) => new TextEncoder().encode(text);

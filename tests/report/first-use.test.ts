@@ -2,11 +2,11 @@
 // beside a page that shows percent, "doses[1]" in the steady-state words, and a last page
 // holding only a table's two-line note. Each is read back from the PDF with pdftotext.
 import { afterAll, describe, expect, it } from 'vitest';
-import { normaliseScenario } from '../../models/normalize.ts';
+import { normaliseScenario } from '../../models/scenario/normalize.ts';
 import { simulateModel } from '../../models/simulate.ts';
-import { fmt } from '../../models/summary-text.ts';
+import { fmt } from '../../models/result/summary-text.ts';
 import { createReportDocument, contentBottom, documentBytes } from '../../server/report/document.ts';
-import { doseLabelsOf, doseLineName, plainDoseWords } from '../../models/dose-words.ts';
+import { doseLabelsOf, doseLineName, plainDoseWords } from '../../models/result/dose-words.ts';
 import { buildReport } from '../../server/report/report.ts';
 import { drawTable } from '../../server/report/table.ts';
 import { pdfPages, readSample, removeTempFiles, squeeze } from './helpers.ts';

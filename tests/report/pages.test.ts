@@ -4,7 +4,7 @@
 import { readFileSync, readdirSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { scenarioFingerprint } from '../../models/fingerprint.ts';
+import { scenarioFingerprint } from '../../models/scenario/fingerprint.ts';
 import { buildReport } from '../../server/report/report.ts';
 import { pdfInfo, pdfPages, readSample, removeTempFiles, root } from './helpers.ts';
 

@@ -1,7 +1,7 @@
 // The report's building blocks that need no PDF: axis ticks, the regimen in words, the
 // derived parameters (k = CL/V, volume at steady state) and the independent check.
 import { describe, expect, it } from 'vitest';
-import { normaliseScenario } from '../../models/normalize.ts';
+import { normaliseScenario } from '../../models/scenario/normalize.ts';
 import { simulateModel } from '../../models/simulate.ts';
 import { independentCheck, checkSettings } from '../../server/report/check.ts';
 import { fontBytes } from '../../server/report/font-file.ts';
@@ -9,7 +9,7 @@ import { duration, reportFileName, unitText } from '../../server/report/format.t
 import { modelParameters } from '../../server/report/parameters.ts';
 import { readReportRequest } from '../../server/report/request.ts';
 import { describeDoseLine } from '../../server/report/regimen.ts';
-import { linearAxis, logAxis, niceNumber, timeAxis } from '../../models/axis-ticks.ts';
+import { linearAxis, logAxis, niceNumber, timeAxis } from '../../models/result/axis-ticks.ts';
 import { readSample } from './helpers.ts';
 
 function run(scenario: unknown) {

@@ -4,7 +4,7 @@
  */
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
-import { normaliseScenario } from '../../models/normalize.ts';
+import { normaliseScenario } from '../../models/scenario/normalize.ts';
 
 type Scenario = Record<string, any>;
 const brennock: Scenario = JSON.parse(readFileSync('samples/brennock-oral-bid.json', 'utf8'));

@@ -4,7 +4,7 @@
  */
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
-import { checkUnitSystem, convertQuantity, type Dimension } from '../../models/units.ts';
+import { checkUnitSystem, convertQuantity, type Dimension } from '../../models/scenario/units.ts';
 
 const hours = { amount: 'mg', volume: 'L', time: 'h' };
 
@@ -153,7 +153,7 @@ describe('everyday units without the general parser', () => {
   it('agree with mathjs for every pair of everyday units and their quotients, within 2 ulp', async () => {
     const { create, unitDependencies } = await import('mathjs');
     const math = create({ unitDependencies });
-    const { simpleFactor } = await import('../../models/simple-units.ts');
+    const { simpleFactor } = await import('../../models/scenario/simple-units.ts');
     const groups = [
       ['ng', 'ug', 'mg', 'g', 'kg'],
       ['nmol', 'umol', 'mmol', 'mol'],

@@ -3,7 +3,7 @@
 import { readFileSync } from 'node:fs';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { resultToJson } from '../../models/result-format.ts';
+import { resultToJson } from '../../models/result/result-format.ts';
 import { simulate } from '../../models/simulate.ts';
 import { createApp, defaultServerLimits } from '../../server/app.ts';
 import { loadSamples } from '../../server/samples.ts';

@@ -9,7 +9,7 @@ import { tmpdir } from 'node:os';
 import { join, relative } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { resultToJsonText } from '../../models/result-format.ts';
+import { resultToJsonText } from '../../models/result/result-format.ts';
 import { simulate } from '../../models/simulate.ts';
 import { runCli } from '../../server/cli.ts';
 import { SimulationPool } from '../../server/worker-pool.ts';

@@ -16,7 +16,7 @@
  */
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
-import { limits } from '../../models/limits.ts';
+import { limits } from '../../models/scenario/limits.ts';
 import type { SimulationResult } from '../../models/simulate.ts';
 import { run } from '../reference/helpers.ts';
 import { linearReference, mmReference, type SteadyReference } from './reference.ts';

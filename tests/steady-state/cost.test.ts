@@ -6,10 +6,10 @@
  */
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
-import { limits } from '../../models/limits.ts';
-import type { ScenarioInput } from '../../models/schema.ts';
-import { cycleAdministrations, maintenanceLines, type SteadyStateFigures } from '../../models/steady-state.ts';
-import { normaliseScenario } from '../../models/normalize.ts';
+import { limits } from '../../models/scenario/limits.ts';
+import type { ScenarioInput } from '../../models/scenario/schema.ts';
+import { cycleAdministrations, maintenanceLines, type SteadyStateFigures } from '../../models/figures/steady-state.ts';
+import { normaliseScenario } from '../../models/scenario/normalize.ts';
 import { run } from '../reference/helpers.ts';
 
 const sample = (name: string): ScenarioInput => JSON.parse(readFileSync(new URL(`../../samples/${name}`, import.meta.url), 'utf8')) as ScenarioInput;

@@ -4,7 +4,7 @@
  * formula separately, in Python (double precision), not with the engine's code.
  */
 import { describe, expect, it } from 'vitest';
-import { normaliseScenario } from '../../models/normalize.ts';
+import { normaliseScenario } from '../../models/scenario/normalize.ts';
 import { simulate } from '../../models/simulate.ts';
 import { readSubject } from '../../models/subject/subject.ts';
 

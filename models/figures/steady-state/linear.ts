@@ -11,12 +11,12 @@
  * AUC still to come after them, wᵀy (w from (−M)ᵀw = e_c/V_c), a sum of non-negative terms —
  * nothing is computed as a small difference of large numbers.
  */
-import { buildSchedule } from '../events.ts';
-import { createExpmWorkspace, expmScaled } from '../linalg/expm.ts';
-import { solveLinear } from '../linalg/lu.ts';
-import { propagateExact } from '../linear-path.ts';
-import type { Administration } from '../model.ts';
-import type { CompartmentSystem } from '../system.ts';
+import { buildSchedule } from '../../building/events.ts';
+import { createExpmWorkspace, expmScaled } from '../../solving/linalg/expm.ts';
+import { solveLinear } from '../../solving/linalg/lu.ts';
+import { propagateExact } from '../../solving/linear-path.ts';
+import type { Administration } from '../../building/model.ts';
+import type { CompartmentSystem } from '../../building/system.ts';
 
 /** The amount block of M restricted to the compartments `keep` (row-major, in their order). */
 function amountBlock(system: CompartmentSystem, keep: number[]): Float64Array {

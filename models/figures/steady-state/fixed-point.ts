@@ -12,10 +12,10 @@
  * Jacobian is √rtol of that same scale: a step proportional to a washed-out trough alone
  * would be far below the integration noise of a cycle, and the Jacobian noise.
  */
-import type { Schedule } from '../events.ts';
-import { solveLinear } from '../linalg/lu.ts';
-import { limits } from '../limits.ts';
-import { formatNumber } from '../format-number.ts';
+import type { Schedule } from '../../building/events.ts';
+import { solveLinear } from '../../solving/linalg/lu.ts';
+import { limits } from '../../scenario/limits.ts';
+import { formatNumber } from '../../result/format-number.ts';
 import { formatShare } from './capacity.ts';
 
 export interface CycleMap {

@@ -2,13 +2,13 @@
  * Solving a schedule: the exact path for a linear model (or when asked for), the numerical
  * path otherwise. Shared by the main run and the steady-state search.
  */
-import type { Schedule } from './events.ts';
+import type { Schedule } from '../building/events.ts';
 import { propagateExact } from './linear-path.ts';
-import type { Model } from './model.ts';
+import type { Model } from '../building/model.ts';
 import { integrateSchedule } from './numerical-path.ts';
 import type { Trajectory } from './numerics/dense-store.ts';
 import type { SolverStats } from './numerics/ode-system.ts';
-import type { CompartmentSystem } from './system.ts';
+import type { CompartmentSystem } from '../building/system.ts';
 
 export type SolutionPath = 'exact' | 'adaptive' | 'fixed';
 

@@ -1,5 +1,5 @@
 /** The reported rows of a run: the output times merged with the schedule's breakpoints. */
-import type { Schedule } from './events.ts';
+import type { Schedule } from '../building/events.ts';
 
 /** Output times merged with breakpoints; a breakpoint with a bolus gives two rows (before and after). */
 export function outputRows(outputTimes: Float64Array, schedule: Schedule): { times: Float64Array; sides: Uint8Array } {

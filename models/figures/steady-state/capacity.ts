@@ -3,8 +3,8 @@
  * state out before any cycle is run, and the plain account of those numbers that the
  * search's messages quote (only numbers that were computed, never a guess at a cause).
  */
-import type { Administration, Model } from '../model.ts';
-import { formatNumber } from '../format-number.ts';
+import type { Administration, Model } from '../../building/model.ts';
+import { formatNumber } from '../../result/format-number.ts';
 
 /** Average bioavailable input rate of the cycle, amount per time. */
 export function averageDoseRate(cycle: readonly Administration[], period: number): number {

@@ -10,22 +10,22 @@
  * - The cycle itself: which lines repeat, their period, their doses folded into one cycle
  *   (steady-state/cycle.ts); what can be ruled out before any cycle is run (steady-state/capacity.ts).
  */
-import { doseLineName } from './dose-words.ts';
-import { buildSchedule } from './events.ts';
-import { propagateExact } from './linear-path.ts';
-import { CurveProbe } from './metrics/curve-probe.ts';
-import { exposureFigures, type WindowFigures } from './metrics/exposure.ts';
-import type { Model } from './model.ts';
-import type { SolverStats } from './numerics/ode-system.ts';
-import { formatNumber } from './format-number.ts';
-import { solveSchedule } from './solve.ts';
+import { doseLineName } from '../result/dose-words.ts';
+import { buildSchedule } from '../building/events.ts';
+import { propagateExact } from '../solving/linear-path.ts';
+import { CurveProbe } from './curve-probe.ts';
+import { exposureFigures, type WindowFigures } from './exposure.ts';
+import type { Model } from '../building/model.ts';
+import type { SolverStats } from '../solving/numerics/ode-system.ts';
+import { formatNumber } from '../result/format-number.ts';
+import { solveSchedule } from '../solving/solve.ts';
 import { iteratedApproach, type Approach, type Work } from './steady-state/approach.ts';
 import { capacityAccount, capacityProblem } from './steady-state/capacity.ts';
 import { cycleAdministrations, givenAdministrations, maintenanceLines, maintenancePeriod, reachableFrom, trappedCompartments } from './steady-state/cycle.ts';
 import { iterate, type CycleMap, type Found, type SearchSettings } from './steady-state/fixed-point.ts';
 import { linearApproach, linearPeriodicState } from './steady-state/linear.ts';
 import { cycleProfile, type CycleProfile } from './steady-state/profile.ts';
-import type { CompartmentSystem } from './system.ts';
+import type { CompartmentSystem } from '../building/system.ts';
 
 export { cycleAdministrations, maintenanceLines, maintenancePeriod, trappedCompartments } from './steady-state/cycle.ts';
 

@@ -2,13 +2,13 @@
  * The exact path for linear models: between breakpoints x' = Mx + u with constant u,
  * so x(t0 + h) = e^{Mh}·x(t0) + ∫₀ʰ e^{Ms} ds·u — no truncation error, only rounding.
  */
-import type { Schedule } from './events.ts';
+import type { Schedule } from '../building/events.ts';
 import { normInf } from './linalg/dense.ts';
 import { createExpActionWork, expAction, type ExpActionWork } from './linalg/exp-action.ts';
 import { createExpmWorkspace, createPropagator, propagator, type ExpmWorkspace, type Propagator } from './linalg/expm.ts';
 import type { Trajectory } from './numerics/dense-store.ts';
 import { codeGenerationEnabled, compileSource, index } from './numerics/generated-code.ts';
-import type { CompartmentSystem } from './system.ts';
+import type { CompartmentSystem } from '../building/system.ts';
 
 /**
  * A propagator with Φ stored by its nonzero entries: compartment models leave many exact

@@ -2,9 +2,9 @@
  * The result as users receive it: plain JSON (arrays, compartments keyed by id) and CSV.
  * Typed arrays become plain arrays only here, at the boundary.
  */
-import type { CompartmentFigures } from './metrics/exposure.ts';
-import type { Diagnostics, SimulationEvent, SimulationResult, ResultUnits } from './simulate.ts';
-import type { SteadyStateFigures } from './steady-state.ts';
+import type { CompartmentFigures } from '../figures/exposure.ts';
+import type { Diagnostics, SimulationEvent, SimulationResult, ResultUnits } from '../simulate.ts';
+import type { SteadyStateFigures } from '../figures/steady-state.ts';
 
 export interface CompartmentSeriesJson {
   label: string;

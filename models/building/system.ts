@@ -5,7 +5,7 @@
  * the cumulative amount eliminated from the body (for the mass balance).
  */
 import type { Model } from './model.ts';
-import type { DerivativeCode, OdeSystem } from './numerics/ode-system.ts';
+import type { DerivativeCode, OdeSystem } from '../solving/numerics/ode-system.ts';
 
 export interface StateLayout {
   /** Number of compartments; amounts occupy indices 0..compartments-1. */

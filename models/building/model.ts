@@ -3,9 +3,9 @@
  * the scenario's unit system, names resolved to indices and repeated doses expanded.
  * Everything downstream (system builder, solvers, metrics) reads only this.
  */
-import type { SolverMethod } from './schema.ts';
-import type { Covariates } from './subject/subject.ts';
-import type { UnitSystem } from './units.ts';
+import type { SolverMethod } from '../scenario/schema.ts';
+import type { Covariates } from '../subject/subject.ts';
+import type { UnitSystem } from '../scenario/units.ts';
 
 export interface ModelCompartment {
   id: string;

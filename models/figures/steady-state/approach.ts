@@ -8,12 +8,12 @@
  * so the time is a root found by bisection — at a 90% level, so no small difference of large
  * numbers decides it. At cycle ends W is the AUC of that cycle, the older definition.
  */
-import { buildSchedule } from '../events.ts';
-import { limits } from '../limits.ts';
-import type { Model } from '../model.ts';
-import type { SolverStats } from '../numerics/ode-system.ts';
-import { solveSchedule } from '../solve.ts';
-import type { CompartmentSystem } from '../system.ts';
+import { buildSchedule } from '../../building/events.ts';
+import { limits } from '../../scenario/limits.ts';
+import type { Model } from '../../building/model.ts';
+import type { SolverStats } from '../../solving/numerics/ode-system.ts';
+import { solveSchedule } from '../../solving/solve.ts';
+import type { CompartmentSystem } from '../../building/system.ts';
 import { administrationsWithin, givenAdministrations, type DoseLines } from './cycle.ts';
 
 export interface Approach {

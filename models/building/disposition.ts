@@ -4,7 +4,7 @@
  * the eigenvalue closest to zero. A saturable model is linearised at zero concentration,
  * where Michaelis–Menten elimination behaves as first order with rate Vmax/(Km·V).
  */
-import { eigenvalues } from './linalg/eigenvalues.ts';
+import { eigenvalues } from '../solving/linalg/eigenvalues.ts';
 import type { CompartmentSystem } from './system.ts';
 
 export interface Disposition {

@@ -4,7 +4,7 @@
  * cycle, an infusion longer than the cycle folded in closed form (it runs ⌊L/τ⌋ times over
  * the whole cycle plus once over its remainder), so the cost does not grow with L/τ.
  */
-import type { Administration, Model } from '../model.ts';
+import type { Administration, Model } from '../../building/model.ts';
 
 export type DoseLines = Model['doseLines'];
 

@@ -7,9 +7,9 @@
  * the balance holds to rounding whatever the tolerance, and a failure beyond rounding means
  * the arithmetic itself broke down (rates or volumes outside what doubles resolve).
  */
-import type { Model } from './model.ts';
-import type { Problem } from './problems.ts';
-import type { StateLayout } from './system.ts';
+import type { Model } from '../building/model.ts';
+import type { Problem } from '../scenario/problems.ts';
+import type { StateLayout } from '../building/system.ts';
 
 export interface MassBalance {
   /** Amount that has arrived by the end (bioavailable amounts; infusions pro rata). */

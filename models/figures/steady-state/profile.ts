@@ -3,10 +3,10 @@
  * state, so that a plot can show the steady state itself rather than the last simulated
  * interval (which may be far from it).
  */
-import type { Schedule } from '../events.ts';
-import type { Model } from '../model.ts';
-import type { Trajectory } from '../numerics/dense-store.ts';
-import { outputRows } from '../output-rows.ts';
+import type { Schedule } from '../../building/events.ts';
+import type { Model } from '../../building/model.ts';
+import type { Trajectory } from '../../solving/numerics/dense-store.ts';
+import { outputRows } from '../../result/output-rows.ts';
 
 export interface CycleProfile {
   /** Times from the start of the cycle; a bolus time appears twice (before, then after). */

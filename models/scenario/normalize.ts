@@ -14,11 +14,11 @@ import type {
   ModelCompartment,
   ModelThreshold,
   ModelTransfer,
-} from './model.ts';
+} from '../building/model.ts';
 import { formatPath, type Outcome, type Problem } from './problems.ts';
 import { scenarioSchema, type AdjustedQuantity, type ModelQuantity, type Quantity, type Scenario } from './schema.ts';
-import { applyRelation } from './subject/relations.ts';
-import { readSubject, type Covariates } from './subject/subject.ts';
+import { applyRelation } from '../subject/relations.ts';
+import { readSubject, type Covariates } from '../subject/subject.ts';
 import { checkUnitSystem, convertQuantity, unitWritten, type Dimension, type UnitSystem } from './units.ts';
 
 const fixedStepMethods = new Set(['euler', 'heun', 'rk4', 'abm2']);

@@ -4,9 +4,9 @@
  * rates that are in force at that time and side. Metrics use it to place peaks and
  * threshold crossings on the true curve rather than on the output grid.
  */
-import type { Schedule } from '../events.ts';
-import type { Trajectory } from '../numerics/dense-store.ts';
-import type { CompartmentSystem } from '../system.ts';
+import type { Schedule } from '../building/events.ts';
+import type { Trajectory } from '../solving/numerics/dense-store.ts';
+import type { CompartmentSystem } from '../building/system.ts';
 
 export class CurveProbe {
   readonly state: Float64Array;

@@ -3,8 +3,8 @@
  * applying boluses and switching infusion rates exactly at each breakpoint, so that no
  * step ever straddles a discontinuity. Every accepted step lands in one dense store.
  */
-import type { Schedule } from './events.ts';
-import type { SolverSettings } from './model.ts';
+import type { Schedule } from '../building/events.ts';
+import type { SolverSettings } from '../building/model.ts';
 import {
   createIntegratorState,
   fixedStepVectors,
@@ -17,7 +17,7 @@ import {
 import { DenseStore } from './numerics/dense-store.ts';
 import { fixedStepCount, tooManyFixedSteps } from './numerics/explicit-rk.ts';
 import type { SolverStats } from './numerics/ode-system.ts';
-import type { CompartmentSystem } from './system.ts';
+import type { CompartmentSystem } from '../building/system.ts';
 
 /** The integration spans of the schedule, breakpoint to breakpoint, as the driver runs them. */
 function spans(schedule: Schedule): [number, number][] {

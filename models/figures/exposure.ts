@@ -4,8 +4,8 @@
  * each exact piece); between two knots, turning points are located as roots of the
  * slope and threshold crossings as roots of C − level, on the continuous solution.
  */
-import type { Model } from '../model.ts';
-import type { StateLayout } from '../system.ts';
+import type { Model } from '../building/model.ts';
+import type { StateLayout } from '../building/system.ts';
 import { CurveProbe } from './curve-probe.ts';
 import { refineRoot } from './root-finding.ts';
 

@@ -2,7 +2,7 @@
  * A plain-text summary of a result for the terminal: the figures a reviewer reads first,
  * the method and its diagnostics, and the caution that this is a simulation.
  */
-import type { SimulationResult } from './simulate.ts';
+import type { SimulationResult } from '../simulate.ts';
 
 export const caution =
   'Model simulation for review only — not dosing advice. It is only as good as the parameters entered; dosing decisions belong to qualified clinicians under local protocols, product labelling and applicable regulations.';
