@@ -42,6 +42,7 @@ export const entries = {
   'simulation-worker': 'server/simulation-worker.ts',
   cli: 'server/cli.ts',
   'cli-worker': 'server/cli-worker.ts',
+  'population-worker': 'server/population-worker.ts',
 };
 /** Packages left to node's own loading (see above). */
 const external = ['pdfkit', 'express', 'helmet'];

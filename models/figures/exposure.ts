@@ -197,11 +197,24 @@ function membership(times: Float64Array, members: Float64Array): Uint8Array {
   return out;
 }
 
-export function exposureFigures(model: Model, layout: StateLayout, probe: CurveProbe): CompartmentFigures[] {
+/** A part of the span to read figures over (one dosing interval of a virtual subject, say). */
+export interface FigureWindow {
+  start: number;
+  end: number;
+  /** Whether a dose falls due at `end`, so that the concentration there is a trough. */
+  troughAtEnd: boolean;
+}
+
+/**
+ * The figures over the whole span, or over `window` only: then `overall` holds the window's
+ * figures (its AUC from the window's start) and the knots outside it are never visited.
+ */
+export function exposureFigures(whole: Model, layout: StateLayout, probe: CurveProbe, window?: FigureWindow): CompartmentFigures[] {
+  const model: Model = window ? { ...whole, start: window.start, end: window.end } : whole;
   const schedule = probe.schedule;
-  const bpTimes = Float64Array.from(schedule.breakpoints, (b) => b.time);
+  const bpTimes = Float64Array.from(schedule.breakpoints, (b) => b.time).filter((t) => t >= model.start && t <= model.end);
   const starts = intervalStarts(model, bpTimes);
-  const scan = mergeTimes([probe.trajectory.knots(), bpTimes, starts, Float64Array.of(model.start, model.end)]).filter(
+  const scan = mergeTimes([probe.trajectory.knots(model.start, model.end), bpTimes, starts, Float64Array.of(model.start, model.end)]).filter(
     (t) => t >= model.start && t <= model.end,
   );
   // Rows: a breakpoint gets a left and a right row (state or slope may jump there).
@@ -231,6 +244,9 @@ export function exposureFigures(model: Model, layout: StateLayout, probe: CurveP
   const tracked = model.compartments
     .map((c, i) => ({ index: i, volume: c.volume }))
     .filter((c): c is { index: number; volume: number } => c.volume !== null);
+  // Before a window that starts within the run, the state is the run's own, not empty.
+  const before = new Float64Array(layout.size);
+  if (window && window.start > whole.start) probe.trajectory.stateAt(window.start, 'left', before);
   const perCompartment = tracked.map((c) => {
     const levels: Level[] = [];
     for (const th of model.thresholds) {
@@ -242,12 +258,12 @@ export function exposureFigures(model: Model, layout: StateLayout, probe: CurveP
       ...c,
       levels,
       thresholds: model.thresholds.filter((th) => th.compartment === c.index),
-      overall: new Accumulator(model.start, levels.length, 0),
+      overall: new Accumulator(model.start, levels.length, before[layout.auc[c.index]]),
       current: null as Accumulator | null,
       intervals: [] as IntervalFigures[],
       crossings: [] as Crossing[],
       crossingCount: 0,
-      prevC: 0,
+      prevC: before[c.index] / c.volume,
       prevS: 0,
       prevT: model.start,
       lastC: 0,
@@ -410,7 +426,7 @@ export function exposureFigures(model: Model, layout: StateLayout, probe: CurveP
   }
 
   const dueTolerance = 1e-9 * Math.max(1, Math.abs(model.end));
-  const doseDueAtEnd = model.doseLines.some((l) => l.nextGiven !== null && Math.abs(l.nextGiven - model.end) <= dueTolerance);
+  const doseDueAtEnd = window ? window.troughAtEnd : model.doseLines.some((l) => l.nextGiven !== null && Math.abs(l.nextGiven - model.end) <= dueTolerance);
   return perCompartment.map((pc) => {
     // The last interval ends with the span; its trough is the concentration at the end when the
     // regimen's next dose falls due exactly then (the span was cut at a dosing time).
@@ -422,7 +438,7 @@ export function exposureFigures(model: Model, layout: StateLayout, probe: CurveP
         tmax: pc.overall.tmax,
         cmin: pc.overall.cmin,
         tmin: pc.overall.tmin,
-        auc: aucNow[layout.auc[pc.index]],
+        auc: aucNow[layout.auc[pc.index]] - pc.overall.aucStart,
         cEnd: pc.lastC,
         windows: windowFigures(pc.thresholds, pc.levels, pc.overall.over, model.end - model.start),
         crossings: pc.crossings,

@@ -136,7 +136,18 @@ function cycleMap(model: Model, system: CompartmentSystem, schedule: CycleMap['s
   return map;
 }
 
-export function steadyStateFigures(model: Model, system: CompartmentSystem, stats: SolverStats): SteadyStateFigures | null {
+/** What a caller needs besides the cycle's figures: a population run skips the approach and the plotted cycle. */
+export interface SteadyStateOptions {
+  approach: boolean;
+  profile: boolean;
+}
+
+export function steadyStateFigures(
+  model: Model,
+  system: CompartmentSystem,
+  stats: SolverStats,
+  options: SteadyStateOptions = { approach: true, profile: true },
+): SteadyStateFigures | null {
   const lines = maintenanceLines(model);
   const intervals = lines.map((l) => l.every as number);
   if (intervals.length === 0) return null;
@@ -219,7 +230,9 @@ export function steadyStateFigures(model: Model, system: CompartmentSystem, stat
     how += `; the cycle integrated by ${run.methodsUsed.join(' and ')} from it returns to it within a relative ${formatNumber(returned)}`;
   }
 
-  const approach: Approach[] = model.linear
+  const approach: Approach[] = !options.approach
+    ? tracked.map(() => ({ firstAuc: NaN, time90: null, time95: null }))
+    : model.linear
     ? linearApproach(
         system,
         givenAdministrations(lines, period, 0, 1),
@@ -266,7 +279,7 @@ export function steadyStateFigures(model: Model, system: CompartmentSystem, stat
     compartments,
     approachDefinition: APPROACH_DEFINITION,
     work: spent(),
-    profile: cycleProfile(cycleModel, run.trajectory, schedule, y0),
+    profile: options.profile ? cycleProfile(cycleModel, run.trajectory, schedule, y0) : null,
   };
 }
 

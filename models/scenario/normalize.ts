@@ -16,7 +16,11 @@ import type {
   ModelTransfer,
 } from '../building/model.ts';
 import { formatPath, type Outcome, type Problem } from './problems.ts';
-import { scenarioSchema, type AdjustedQuantity, type ModelQuantity, type Quantity, type Scenario } from './schema.ts';
+import { scenarioSchema, type AdjustedQuantity, type ModelQuantity, type Quantity, type Scenario, type Subject } from './schema.ts';
+import { logitNormalSpread, logNormalSpread } from '../population/spread.ts';
+import { readShare } from './shares.ts';
+
+type VariationKind = NonNullable<AdjustedQuantity['variation']>;
 import { applyRelation } from '../subject/relations.ts';
 import { readSubject, type Covariates } from '../subject/subject.ts';
 import { checkUnitSystem, convertQuantity, unitWritten, type Dimension, type UnitSystem } from './units.ts';
@@ -30,6 +34,8 @@ class Reader {
   constructor(
     readonly units: UnitSystem,
     readonly covariates: Covariates = {},
+    /** A virtual subject's standard normal effect on the quantity at a path (0 for the typical subject). */
+    readonly effect: ((path: string) => number) | null = null,
   ) {}
 
   fail(path: string, message: string): void {
@@ -65,12 +71,15 @@ class Reader {
     return v;
   }
 
-  /** The typical value times each relation's multiplier for this subject. */
-  adjust(q: AdjustedQuantity, typical: number, path: string): number | null {
+  /**
+   * The typical value times each relation's multiplier for this subject, then its own departure
+   * from that median when the quantity varies between subjects and a virtual subject is read.
+   */
+  adjust(q: AdjustedQuantity, typical: number, path: string, fraction = false): number | null {
     let value = typical;
     const words: string[] = [];
     let failed = false;
-    q.covariates.forEach((relation, j) => {
+    (q.covariates ?? []).forEach((relation, j) => {
       const applied = applyRelation(relation, this.covariates, `${path}.covariates[${j}]`);
       if (!applied.ok) {
         this.problems.push(applied.problem);
@@ -80,10 +89,74 @@ class Reader {
       value *= applied.applied.multiplier;
       words.push(applied.applied.words);
     });
-    if (failed) return null;
+    const variation = readVariation(q, path, fraction, typical, this);
+    if (failed || variation === undefined) return null;
+    if (variation) {
+      words.push(variation.words);
+      const z = this.effect?.(path) ?? 0;
+      // z = 0 is the typical subject: the value is left exactly as it is.
+      if (z !== 0) value = variation.kind === 'log-normal' ? value * Math.exp(variation.spread * z) : logistic(logit(value) + variation.spread * z);
+    }
     this.adjustments.push({ path, name: q.name ?? null, typical, value, relations: words });
     return value;
   }
+}
+
+function logit(p: number): number {
+  return Math.log(p / (1 - p));
+}
+
+function logistic(x: number): number {
+  return 1 / (1 + Math.exp(-x));
+}
+
+/**
+ * The quantity's between-subject variability: null when it has none, undefined after a problem.
+ * Log-normal: the log has SD √ln(1 + cv²), the exact relation (not the small-cv cv itself).
+ * Logit-normal (fractions): the logit's SD that gives the fraction this cv at its typical value.
+ */
+function readVariation(q: AdjustedQuantity, path: string, fraction: boolean, typical: number, r: Reader): { kind: VariationKind; spread: number; words: string } | null | undefined {
+  if (q.covariates === undefined && q.cv === undefined) {
+    r.fail(path, 'needs `covariates`, `cv` or both besides `typical`; otherwise write the quantity itself');
+    return undefined;
+  }
+  if (q.cv === undefined) {
+    if (q.variation !== undefined) r.fail(`${path}.variation`, 'needs `cv`, the coefficient of variation');
+    return q.variation === undefined ? null : undefined;
+  }
+  const cv = readShare(q.cv, `${path}.cv`, r, 'a coefficient of variation', 5);
+  if (cv === null) return undefined;
+  const kind: VariationKind = q.variation ?? (fraction ? 'logit-normal' : 'log-normal');
+  if (fraction && kind === 'log-normal') {
+    r.fail(`${path}.variation`, 'a fraction varies logit-normally (log-normal values could exceed 1); write "logit-normal" or leave it out');
+    return undefined;
+  }
+  if (!fraction && kind === 'logit-normal') {
+    r.fail(`${path}.variation`, 'logit-normal is for fractions such as bioavailability; this quantity varies log-normally');
+    return undefined;
+  }
+  const percent = `${Number((cv * 100).toPrecision(6))}%`;
+  if (kind === 'log-normal') return { kind, spread: logNormalSpread(cv), words: `cv ${percent} (log-normal)` };
+  const found = cachedLogitSpread(typical, cv);
+  if (!found.ok) {
+    r.fail(`${path}.cv`, found.message);
+    return undefined;
+  }
+  return { kind, spread: found.spread, words: `cv ${percent} at the typical value (logit-normal)` };
+}
+
+/** Logit spreads by (typical, cv): a root search per quantity, not per subject. */
+const logitSpreads = new Map<string, ReturnType<typeof logitNormalSpread>>();
+
+function cachedLogitSpread(typical: number, cv: number): ReturnType<typeof logitNormalSpread> {
+  const key = `${typical}|${cv}`;
+  let found = logitSpreads.get(key);
+  if (!found) {
+    if (logitSpreads.size > 1000) logitSpreads.clear();
+    found = logitNormalSpread(typical, cv);
+    logitSpreads.set(key, found);
+  }
+  return found;
 }
 
 function zodProblems(error: z.ZodError): Problem[] {
@@ -153,13 +226,24 @@ export function normaliseScenario(input: unknown): Outcome<Model> {
   return buildModel(parsed.value);
 }
 
-export function buildModel(s: Scenario): Outcome<Model> {
+/** What differs for one virtual subject of a population: its covariates and its effects. */
+export interface SubjectVariant {
+  /** The subject's covariates, in place of the scenario's `subject`. */
+  subject: Subject;
+  /** The standard normal effect on the varying quantity at a JSON path. */
+  effect: (path: string) => number;
+  /** The output times, when the caller has them already (they do not depend on the subject). */
+  outputTimes?: Float64Array;
+}
+
+export function buildModel(s: Scenario, variant?: SubjectVariant): Outcome<Model> {
   const unitCheck = checkUnitSystem(s.units);
   if (unitCheck.problems.length > 0) {
     return { ok: false, problems: unitCheck.problems.map((p) => ({ path: `units.${p.field}`, message: p.message })) };
   }
-  const subject = readSubject(s.subject);
-  const r = new Reader(unitCheck.units, subject.covariates);
+  const subjectGiven = variant ? variant.subject : s.subject;
+  const subject = readSubject(subjectGiven);
+  const r = new Reader(unitCheck.units, subject.covariates, variant?.effect ?? null);
   r.problems.push(...subject.problems);
 
   const compartments = readCompartments(s, r);
@@ -177,7 +261,7 @@ export function buildModel(s: Scenario): Outcome<Model> {
   const span = spanOk && end !== null ? { start, end } : null;
 
   const doses = span ? readDoses(s, r, compartments, index, span) : null;
-  const outputTimes = span ? readOutputTimes(s, r, span) : null;
+  const outputTimes = span ? (variant?.outputTimes ?? readOutputTimes(s, r, span)) : null;
   const thresholds = readThresholds(s, r, compartments, index);
   const solver = readSolver(s, r);
 
@@ -199,7 +283,7 @@ export function buildModel(s: Scenario): Outcome<Model> {
       thresholds,
       solver,
       linear: transfers.every((t) => t.kinetics.kind === 'first-order'),
-      subject: s.subject === undefined ? null : { covariates: subject.covariates, adjustments: r.adjustments },
+      subject: subjectGiven === undefined ? null : { covariates: subject.covariates, adjustments: r.adjustments },
     },
   };
 }
@@ -208,7 +292,7 @@ export function buildModel(s: Scenario): Outcome<Model> {
 function readFraction(value: number | string | AdjustedQuantity, path: string, r: Reader): number | null {
   if (typeof value === 'object') {
     const typical = readFraction(value.typical, `${path}.typical`, r);
-    const adjusted = typical === null ? null : r.adjust(value, typical, path);
+    const adjusted = typical === null ? null : r.adjust(value, typical, path, true);
     if (adjusted !== null && adjusted > 1) {
       r.fail(path, `is ${Number(adjusted.toPrecision(6))} for this subject (typical ${typical} with its covariate relations); a bioavailability cannot exceed 1`);
       return null;

@@ -29,17 +29,28 @@ export const covariateRelationSchema = z
   })
   .describe('A covariate relation on a model quantity.');
 
-/** A model quantity that depends on the subject: its typical value and its covariate relations. */
+/** A coefficient of variation: a fraction (0.3) or a percentage ("30%"). */
+export const fractionOrPercent = z.union([z.number(), z.string().trim().min(1, 'must not be empty')], 'must be a fraction such as 0.3, or a percentage such as "30%"');
+
+/** How a quantity varies between subjects around its typical value. */
+export const variationKinds = ['log-normal', 'logit-normal'] as const;
+
+/**
+ * A model quantity that depends on the subject: its typical value, its covariate relations, and
+ * its between-subject variability (a coefficient of variation). At least one of the two.
+ */
 export const adjustedQuantitySchema = z
   .strictObject({
-    typical: z.union([z.number(), z.string().trim().min(1, 'must not be empty')]).describe('The value for a subject at the reference values of the covariates.'),
-    covariates: z.array(covariateRelationSchema).min(1).max(20).describe('Relations applied in turn, each a multiplier.'),
-    name: z.string().max(40).optional().describe('A short name for tables, e.g. "CL".'),
+    typical: z.union([z.number(), z.string().trim().min(1, 'must not be empty')]).describe('The value for a subject at the reference values of the covariates (the median, when it varies between subjects).'),
+    covariates: z.array(covariateRelationSchema).min(1).max(20).optional().describe('Relations applied in turn, each a multiplier.'),
+    cv: fractionOrPercent.optional().describe('Between-subject variability as a coefficient of variation, e.g. "30%": log-normal by default (the SD of the log is √ln(1 + cv²)), logit-normal for fractions such as bioavailability.'),
+    variation: z.enum(variationKinds).optional().describe('How the quantity varies between subjects: log-normal (default; logit-normal for bioavailability).'),
+    name: z.string().regex(/^[A-Za-z][A-Za-z0-9_]{0,39}$/, 'must start with a letter and use only letters, digits or "_" (at most 40 characters)').optional().describe('A short name for tables and correlations, e.g. "CL".'),
   })
-  .describe('A model quantity with covariate relations.');
+  .describe('A model quantity with covariate relations, between-subject variability, or both.');
 
 /** A model quantity: a plain quantity, or one that depends on the subject's covariates. */
-export const modelQuantity = z.union([z.number(), z.string().trim().min(1, 'must not be empty'), adjustedQuantitySchema], 'must be a number, a string with a unit such as "12 L", or an object with `typical` and `covariates`');
+export const modelQuantity = z.union([z.number(), z.string().trim().min(1, 'must not be empty'), adjustedQuantitySchema], 'must be a number, a string with a unit such as "12 L", or an object with `typical` and `covariates` or `cv`');
 
 export const subjectSchema = z
   .object({
@@ -143,6 +154,87 @@ export const solverSchema = z
   })
   .describe('Numerical method settings.');
 
+/** A covariate's distribution in a virtual population; drawn by its inverse CDF from one uniform number per subject. */
+export const covariateDistributionSchema = z
+  .strictObject({
+    distribution: z.enum(['normal', 'log-normal', 'uniform', 'categories']).describe('normal (mean, sd), log-normal (median, cv), uniform (min, max) or categories (shares).'),
+    mean: quantity.optional().describe('normal: the mean, e.g. "72 kg".'),
+    sd: quantity.optional().describe('normal: the standard deviation, e.g. "12 kg".'),
+    median: quantity.optional().describe('log-normal: the median.'),
+    cv: fractionOrPercent.optional().describe('log-normal: the coefficient of variation.'),
+    min: quantity.optional().describe('Lowest value: truncates normal and log-normal; the lower end of uniform.'),
+    max: quantity.optional().describe('Highest value: truncates normal and log-normal; the upper end of uniform.'),
+    shares: z.record(z.string(), z.number()).optional().describe('categories: each category\'s share, e.g. { "female": 0.5, "male": 0.5 }.'),
+  })
+  .describe('How one covariate is distributed in the population.');
+
+/** Bounds on one exposure figure; either or both. */
+const boundsSchema = z.strictObject({
+  atLeast: quantity.optional().describe('The figure must be at least this.'),
+  atMost: quantity.optional().describe('The figure must be at most this.'),
+});
+
+/** When a figure is read: at steady state, or in one dosing interval of the simulated span. */
+export const periodSchema = z
+  .union([z.enum(['steady state', 'first interval', 'last interval']), z.number().int().min(1)], 'must be "steady state", "first interval", "last interval" or a dosing interval number (1 is the first)')
+  .describe('"steady state", "first interval", "last interval", or the number of a dosing interval (1 is the first).');
+
+export const targetSchema = z
+  .strictObject({
+    compartment: identifier.optional().describe('Whose concentration; default the first compartment with a volume.'),
+    when: periodSchema.default('steady state'),
+    label: z.string().max(80).optional(),
+    trough: boundsSchema.optional().describe('The concentration just before the next dose.'),
+    peak: boundsSchema.optional().describe('Cmax over the dosing interval.'),
+    auc24: boundsSchema.optional().describe('AUC per 24 hours: the interval\'s AUC × 24 h / interval.'),
+    above: quantity.optional().describe('A concentration the level must stay above for at least `forAtLeast` of the interval.'),
+    window: z.strictObject({ from: quantity, to: quantity }).optional().describe('A concentration window to stay within for at least `forAtLeast` of the interval.'),
+    forAtLeast: fractionOrPercent.optional().describe('With `above` or `window`: the share of the dosing interval, e.g. "40%".'),
+  })
+  .describe('A target a subject attains or not: exactly one of trough, peak, auc24, above or window.');
+
+export const populationSchema = z
+  .strictObject({
+    subjects: z.number().int().min(1).max(100_000).describe('Number of virtual subjects.'),
+    seed: z.number().int().min(0).max(Number.MAX_SAFE_INTEGER).default(1).describe('Seed of the random numbers: subject i\'s numbers depend only on the seed and i.'),
+    percentiles: z.array(z.number().gt(0).lt(100)).min(1).max(15).default([5, 50, 95]).describe('Percentiles of the bands and of the exposure figures.'),
+    covariates: z.record(z.string(), covariateDistributionSchema).optional().describe('Covariates drawn for each subject, by name (weight, height, age, sex, serumCreatinine or the subject\'s own); the rest are the scenario subject\'s.'),
+    covariateTable: z
+      .strictObject({
+        rows: z.array(z.record(z.string(), z.union([z.number(), z.string().trim().min(1)]))).min(1).max(100_000).optional().describe('Covariate rows, e.g. { "weight": "64 kg", "sex": "female" }.'),
+        file: z.string().min(1).max(500).optional().describe('A CSV file of covariate rows (header: covariate names, with the unit in brackets, e.g. "weight [kg]"); read by the command line relative to the scenario file.'),
+        draw: z.enum(['in turn', 'at random']).default('in turn').describe('in turn: subject i takes row i (wrapping round); at random: each subject takes a row drawn with replacement.'),
+      })
+      .optional()
+      .describe('Covariates taken from a table of rows instead of (or as well as) distributions.'),
+    correlations: z
+      .array(z.strictObject({ between: z.tuple([z.string(), z.string()]), value: z.number().min(-1).max(1) }))
+      .max(200)
+      .default([])
+      .describe('Correlations between the variabilities of named quantities, e.g. { "between": ["CL", "V"], "value": 0.4 }.'),
+    residual: z
+      .strictObject({
+        additive: quantity.optional().describe('SD of an additive error (concentration).'),
+        proportional: fractionOrPercent.optional().describe('SD of a proportional error, e.g. "15%".'),
+      })
+      .optional()
+      .describe('Residual error of simulated observations: additive, proportional, or both (combined).'),
+    targets: z.array(targetSchema).max(20).default([]),
+    periods: z.array(periodSchema).max(10).optional().describe('When exposure figures are summarised; default: steady state, the first interval and the periods the targets name.'),
+    histogramBins: z.number().int().min(2).max(200).default(20),
+    regimens: z
+      .strictObject({
+        line: z.number().int().min(0).default(0).describe('The dose line (index into doses) whose amount, interval and duration vary.'),
+        amounts: z.array(quantity).min(1).max(30).optional(),
+        intervals: z.array(quantity).min(1).max(30).optional(),
+        durations: z.array(quantity).min(1).max(10).optional().describe('Infusion durations.'),
+        ceilingAtLeast: fractionOrPercent.default(0.9).describe('A regimen keeps the ceiling targets (an upper bound only) when this share of subjects meets them.'),
+      })
+      .optional()
+      .describe('A grid of regimens compared by attainment, every one on the same subjects.'),
+  })
+  .describe('A virtual population: subjects drawn from covariate distributions and between-subject variability.');
+
 export const scenarioSchema = z
   .strictObject({
     title: z.string().min(1).max(200),
@@ -154,6 +246,7 @@ export const scenarioSchema = z
     doses: z.array(doseSchema).max(1000).default([]),
     output: outputSchema,
     solver: solverSchema.default({ method: 'auto', rtol: 1e-8, atol: 1e-10, maxSteps: 5_000_000 }),
+    population: populationSchema.optional(),
   })
   .describe('A Tidemark scenario: a compartment model, a dose schedule and what to report.');
 
@@ -164,6 +257,10 @@ export type ModelQuantity = z.output<typeof modelQuantity>;
 export type AdjustedQuantity = z.output<typeof adjustedQuantitySchema>;
 export type CovariateRelation = z.output<typeof covariateRelationSchema>;
 export type Subject = z.output<typeof subjectSchema>;
+export type Population = z.output<typeof populationSchema>;
+export type Target = z.output<typeof targetSchema>;
+export type Period = z.output<typeof periodSchema>;
+export type CovariateDistribution = z.output<typeof covariateDistributionSchema>;
 export type Sex = (typeof sexes)[number];
 export type DoseLine = z.output<typeof doseSchema>;
 export type TransferLine = z.output<typeof transferSchema>;

@@ -391,9 +391,11 @@ export class LinearTrajectory implements Trajectory {
   }
 
   /** Times that bracket every turning point and crossing for the metrics (pieceKnotTimes in each piece). */
-  knots(): Float64Array {
+  knots(from = -Infinity, to = Infinity): Float64Array {
     const out: number[] = [];
-    for (let k = 0; k < this.times.length; k++) pieceKnotTimes(this.times[k], this.pieceEnd(k), this.fastestRate, out);
+    const first = from === -Infinity ? 0 : this.locate(from, 'right');
+    const last = to === Infinity ? this.times.length - 1 : this.locate(to, 'right');
+    for (let k = first; k <= last; k++) pieceKnotTimes(this.times[k], this.pieceEnd(k), this.fastestRate, out);
     out.push(this.end);
     return Float64Array.from(out);
   }

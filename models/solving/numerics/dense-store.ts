@@ -27,9 +27,10 @@ export interface Trajectory {
   /**
    * Ascending times close enough together that the state is smooth and (in practice)
    * has at most one turning point between two of them: the solver's steps, or a
-   * subdivision of each exact piece.
+   * subdivision of each exact piece. With `from` and `to`, only those within [from, to]
+   * (the pieces outside are not visited).
    */
-  knots(): Float64Array;
+  knots(from?: number, to?: number): Float64Array;
   /** States at ascending times, side per row (0 = left limit, 1 = right limit), passed to write in order. */
   sample(times: Float64Array, sides: Uint8Array, write: (row: number, state: Float64Array) => void): void;
 }
@@ -343,10 +344,13 @@ export class DenseStore implements Trajectory {
     }
   }
 
-  knots(): Float64Array {
-    const out = new Float64Array(this.count + 1);
-    for (let k = 0; k < this.count; k++) out[k] = this.t0At(k);
-    out[this.count] = this.end;
+  knots(from = -Infinity, to = Infinity): Float64Array {
+    if (this.count === 0) return Float64Array.of(this.end);
+    const first = from === -Infinity ? 0 : this.locate(from, 'right');
+    const last = to === Infinity ? this.count - 1 : this.locate(to, 'right');
+    const out = new Float64Array(last - first + 2);
+    for (let k = first; k <= last; k++) out[k - first] = this.t0At(k);
+    out[last - first + 1] = this.end;
     return out;
   }
 

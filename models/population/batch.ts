@@ -1,0 +1,77 @@
+/**
+ * A batch: subjects first … first + count − 1 run in turn, their numbers in flat typed arrays.
+ * Batches are what threads, processes and shards hand back; a population is its batches in
+ * subject order, whoever computed them.
+ */
+import type { Outcome } from '../scenario/problems.ts';
+import type { PopulationPlan } from './plan.ts';
+import { NO_STEADY_STATE, runSubject, SubjectScratch, subjectVariant } from './subject-run.ts';
+
+export interface Batch {
+  first: number;
+  count: number;
+  /** Concentrations: subject s, banded compartment b, output time j at (s·B + b)·T + j. */
+  grid: Float64Array;
+  /** Figures: subject s's row of layout.columns numbers. */
+  figures: Float64Array;
+  status: Uint8Array;
+  /** Regimen r's figures of subject s at (r·count + s)·regimenColumns. */
+  regimenFigures: Float64Array;
+  regimenStatus: Uint8Array;
+  methods: string[];
+  /** Largest relative mass-balance error over the batch's runs. */
+  worstBalance: number;
+  /** The first reason a subject had no steady state, for the warnings. */
+  steadyMessage: string | null;
+}
+
+/** Runs subjects [first, first + count); `progress` is told after each subject. */
+export function runBatch(plan: PopulationPlan, first: number, count: number, progress?: (done: number) => void): Outcome<Batch> {
+  const B = plan.layout.banded.length;
+  const T = plan.template.outputTimes.length;
+  const columns = plan.layout.columns;
+  const regimenColumns = plan.regimenLayout?.columns ?? 0;
+  const variants = plan.regimens.length;
+  const batch: Batch = {
+    first,
+    count,
+    grid: new Float64Array(count * B * T),
+    figures: new Float64Array(count * columns),
+    status: new Uint8Array(count),
+    regimenFigures: new Float64Array(variants * count * regimenColumns),
+    regimenStatus: new Uint8Array(variants * count),
+    methods: [],
+    worstBalance: 0,
+    steadyMessage: null,
+  };
+  const scratch = new SubjectScratch(plan);
+  const methods = new Set<string>();
+  for (let s = 0; s < count; s++) {
+    const i = first + s;
+    const variant = subjectVariant(plan, i, scratch);
+    const grid = batch.grid.subarray(s * B * T, (s + 1) * B * T);
+    const run = runSubject(plan, plan.scenario, plan.layout, variant, grid, batch.figures.subarray(s * columns, (s + 1) * columns), scratch);
+    if (!run.ok) return failed(plan, i, null, run.problems);
+    batch.status[s] = run.value.status;
+    batch.worstBalance = Math.max(batch.worstBalance, run.value.balance);
+    run.value.methods.forEach((m) => methods.add(m));
+    if (run.value.status & NO_STEADY_STATE) batch.steadyMessage ??= `virtual subject ${i}: ${run.value.steadyMessage}`;
+    for (let r = 0; r < variants; r++) {
+      const at = (r * count + s) * regimenColumns;
+      const layout = plan.regimenLayout;
+      if (!layout) break;
+      const out = runSubject(plan, plan.regimens[r].scenario, layout, variant, null, batch.regimenFigures.subarray(at, at + regimenColumns), scratch);
+      if (!out.ok) return failed(plan, i, plan.regimens[r].words, out.problems);
+      batch.regimenStatus[r * count + s] = out.value.status;
+    }
+    progress?.(s + 1);
+  }
+  batch.methods = [...methods].sort();
+  return { ok: true, value: batch };
+}
+
+/** A subject that cannot be run fails the population, naming the subject and the field. */
+function failed(plan: PopulationPlan, i: number, regimen: string | null, problems: { path: string; message: string }[]): Outcome<Batch> {
+  const who = `virtual subject ${i} (seed ${plan.seed})${regimen ? `, regimen ${regimen}` : ''}`;
+  return { ok: false, problems: problems.map((p) => ({ path: p.path, message: `${who}: ${p.message}` })) };
+}

@@ -1,0 +1,59 @@
+/**
+ * A virtual population, the entry point: the plan from the scenario, subjects run in batches,
+ * the batches summarised. Threads, processes and cluster shards each run some batches of the
+ * same plan; `summarise` of all of them in subject order is the one result.
+ */
+import { buildModel, parseScenario } from '../scenario/normalize.ts';
+import type { Outcome, Problem } from '../scenario/problems.ts';
+import { runBatch, type Batch } from './batch.ts';
+import { readPlan, type PopulationPlan } from './plan.ts';
+import { summarise, type PopulationResult } from './summary.ts';
+
+export interface PopulationOverrides {
+  subjects?: number;
+  seed?: number;
+}
+
+/** Reads a scenario with a `population` section into the plan every batch runs. */
+export function planPopulation(input: unknown, overrides: PopulationOverrides = {}): Outcome<PopulationPlan> {
+  const parsed = parseScenario(input);
+  if (!parsed.ok) return parsed;
+  const scenario = parsed.value;
+  if (!scenario.population) {
+    return { ok: false, problems: [{ path: 'population', message: 'is required for a population run: at least { "subjects": 1000 }' }] };
+  }
+  const template = buildModel(scenario);
+  if (!template.ok) return template;
+  const plan = readPlan(scenario, template.value, overrides);
+  if (!plan.ok) return plan;
+  const problems: Problem[] = [];
+  plan.value.regimens.forEach((r) => {
+    const built = buildModel(r.scenario);
+    if (!built.ok) problems.push(...built.problems.map((p) => ({ path: 'population.regimens', message: `regimen ${r.words}: ${p.path}: ${p.message}` })));
+  });
+  return problems.length > 0 ? { ok: false, problems } : plan;
+}
+
+/** Subjects [first, end) of shard `index` (1-based) of `of` equal contiguous parts. */
+export function shardRange(subjects: number, index: number, of: number): { first: number; count: number } {
+  const first = Math.floor((subjects * (index - 1)) / of);
+  const end = Math.floor((subjects * index) / of);
+  return { first, count: end - first };
+}
+
+/** Splits subjects into `parts` contiguous batches of nearly equal size (for threads). */
+export function batchRanges(subjects: number, parts: number): { first: number; count: number }[] {
+  const n = Math.max(1, Math.min(parts, subjects));
+  return Array.from({ length: n }, (_, k) => shardRange(subjects, k + 1, n));
+}
+
+/** The whole population in this thread. */
+export function simulatePopulation(input: unknown, overrides: PopulationOverrides = {}, progress?: (done: number) => void): Outcome<PopulationResult> {
+  const plan = planPopulation(input, overrides);
+  if (!plan.ok) return plan;
+  const batch = runBatch(plan.value, 0, plan.value.subjects, progress);
+  if (!batch.ok) return batch;
+  return summarise(plan.value, [batch.value]);
+}
+
+export { runBatch, summarise, type Batch, type PopulationPlan, type PopulationResult };

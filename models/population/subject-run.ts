@@ -1,0 +1,178 @@
+/**
+ * One virtual subject: its covariates and effects from its own random numbers, its model, and
+ * only what the population result needs — concentrations on the output grid and the figures
+ * of the chosen periods — never the whole single-subject result.
+ */
+import type { Model } from '../building/model.ts';
+import { buildSchedule } from '../building/events.ts';
+import { CompartmentSystem } from '../building/system.ts';
+import { CurveProbe } from '../figures/curve-probe.ts';
+import { exposureFigures, intervalStarts, type CompartmentFigures, type FigureWindow } from '../figures/exposure.ts';
+import { massBalance, massBalanceProblem } from '../figures/mass-balance.ts';
+import { steadyStateFigures } from '../figures/steady-state.ts';
+import { buildModel, type SubjectVariant } from '../scenario/normalize.ts';
+import type { Problem } from '../scenario/problems.ts';
+import type { Period, Scenario } from '../scenario/schema.ts';
+import { emptyStats, IntegrationFailure } from '../solving/numerics/ode-system.ts';
+import { solveSchedule } from '../solving/solve.ts';
+import { correlate } from './correlation.ts';
+import { STREAMS, subjectCovariates } from './covariates.ts';
+import { FIGURES, type FigureLayout } from './layout.ts';
+import type { PopulationPlan } from './plan.ts';
+import { SubjectRandom } from './random.ts';
+
+/** Status bits of a subject. */
+export const NO_STEADY_STATE = 1;
+
+/** Scratch reused from subject to subject (one per thread). */
+export class SubjectScratch {
+  readonly raw: Float64Array;
+  readonly effects: Float64Array;
+  readonly pathIndex: Map<string, number>;
+  readonly sides: Uint8Array;
+  constructor(plan: PopulationPlan) {
+    this.raw = new Float64Array(plan.varying.length);
+    this.effects = new Float64Array(plan.varying.length);
+    this.pathIndex = new Map(plan.varying.map((v, i) => [v.path, i]));
+    // Bands are read just after any dose given at an output time.
+    this.sides = new Uint8Array(plan.template.outputTimes.length).fill(1);
+  }
+}
+
+/** Subject i's covariates and effects: the same numbers for every regimen (common random numbers). */
+export function subjectVariant(plan: PopulationPlan, i: number, scratch: SubjectScratch): SubjectVariant {
+  const random = new SubjectRandom(plan.seed, i);
+  const subject = subjectCovariates(plan.covariates, plan.scenario.subject, i, random);
+  const n = plan.varying.length;
+  for (let j = 0; j < n; j++) scratch.raw[j] = random.normal(STREAMS.effects, j);
+  if (plan.factor) correlate(plan.factor, n, scratch.raw, scratch.effects);
+  else scratch.effects.set(scratch.raw);
+  const effects = scratch.effects;
+  const index = scratch.pathIndex;
+  return { subject, effect: (path) => effects[index.get(path) ?? -1] ?? 0, outputTimes: plan.template.outputTimes };
+}
+
+export interface SubjectOutcome {
+  status: number;
+  methods: string[];
+  /** Mass balance of the span's run (relative), or 0 when only the steady state was computed. */
+  balance: number;
+  /** Why the steady state was not found, when it was not. */
+  steadyMessage: string | null;
+}
+
+export type SubjectResult = { ok: true; value: SubjectOutcome } | { ok: false; problems: Problem[] };
+
+/**
+ * Runs subject i of `scenario` (the plan's, or a regimen's copy): writes its concentrations at
+ * the output times into `grid` (banded compartment b at grid[b·T + j]) when `grid` is given, and
+ * its figures for `layout`'s periods into `figures`.
+ */
+export function runSubject(
+  plan: PopulationPlan,
+  scenario: Scenario,
+  layout: FigureLayout,
+  variant: SubjectVariant,
+  grid: Float64Array | null,
+  figures: Float64Array,
+  scratch: SubjectScratch,
+): SubjectResult {
+  const built = buildModel(scenario, variant);
+  if (!built.ok) return built;
+  const model: Model = { ...built.value, thresholds: layout.thresholds };
+  const system = new CompartmentSystem(model);
+  const stats = emptyStats();
+  const outcome: SubjectOutcome = { status: 0, methods: [], balance: 0, steadyMessage: null };
+  const intervalPeriods = layout.periods.filter((p) => p !== 'steady state');
+  try {
+    if (grid || intervalPeriods.length > 0) {
+      const schedule = buildSchedule(model.administrations, model.compartments.length, model.start, model.end);
+      const solution = solveSchedule(model, system, schedule, new Float64Array(system.dimension), stats);
+      outcome.methods = solution.methodsUsed;
+      const balance = massBalance(model, system.layout, solution.final);
+      const unbalanced = massBalanceProblem(model, balance);
+      if (unbalanced) return { ok: false, problems: [unbalanced] };
+      outcome.balance = balance.relativeError;
+      if (grid) sampleGrid(model, layout, solution.trajectory, scratch.sides, grid);
+      if (intervalPeriods.length > 0) {
+        const probe = new CurveProbe(solution.trajectory, system, schedule);
+        const bpTimes = Float64Array.from(schedule.breakpoints, (b) => b.time);
+        layout.periods.forEach((period, p) => {
+          if (period === 'steady state') return;
+          const window = periodWindow(model, bpTimes, period);
+          const found = window ? exposureFigures(model, system.layout, probe, window) : null;
+          writeWindow(layout, p, found, window, figures, plan.day);
+        });
+      }
+    }
+    const steadyAt = layout.periods.indexOf('steady state');
+    if (steadyAt >= 0) {
+      const steady = steadyStateFigures(model, system, stats, { approach: false, profile: false });
+      if (!steady?.reached) {
+        outcome.status |= NO_STEADY_STATE;
+        outcome.steadyMessage = steady?.message ?? 'no repeated dose line';
+        for (let b = 0; b < layout.banded.length; b++) writeMissing(layout, steadyAt, b, figures);
+      } else {
+        const day = plan.day;
+        steady.compartments.forEach((c, b) => {
+          const at = layout.base[steadyAt * layout.banded.length + b];
+          const values = [c.cmax, c.tmax, c.cmin, c.trough, c.auc, c.cavg, (c.auc * day) / steady.period];
+          for (let f = 0; f < FIGURES.length; f++) figures[at + f] = values[f];
+          c.windows.forEach((w, k) => (figures[at + FIGURES.length + k] = w.fractionInWindow));
+        });
+      }
+    }
+  } catch (e) {
+    const message = e instanceof IntegrationFailure ? `numerical failure at t = ${e.time}: ${e.message}` : e instanceof Error ? e.message : String(e);
+    return { ok: false, problems: [{ path: 'solver', message }] };
+  }
+  return { ok: true, value: outcome };
+}
+
+function sampleGrid(model: Model, layout: FigureLayout, trajectory: { sample(t: Float64Array, s: Uint8Array, w: (row: number, state: Float64Array) => void): void }, sides: Uint8Array, grid: Float64Array): void {
+  const times = model.outputTimes;
+  const T = times.length;
+  const banded = layout.banded;
+  const volumes = banded.map((c) => model.compartments[c].volume as number);
+  trajectory.sample(times, sides, (row, state) => {
+    for (let b = 0; b < banded.length; b++) grid[b * T + row] = state[banded[b]] / volumes[b];
+  });
+}
+
+/** The time window of a dosing-interval period, or null when this subject's span lacks it. */
+export function periodWindow(model: Model, breakpoints: Float64Array, period: Period): FigureWindow | null {
+  const starts = intervalStarts(model, breakpoints);
+  const tolerance = 1e-9 * Math.max(1, Math.abs(model.end));
+  const dueAtEnd = model.doseLines.some((l) => l.nextGiven !== null && Math.abs(l.nextGiven - model.end) <= tolerance);
+  const n = starts.length;
+  const window = (k: number): FigureWindow | null => {
+    if (k < 0 || k >= n) return null;
+    const end = k + 1 < n ? starts[k + 1] : model.end;
+    return { start: starts[k], end, troughAtEnd: k + 1 < n || dueAtEnd };
+  };
+  if (period === 'first interval') return window(0);
+  if (period === 'last interval') return window(dueAtEnd || n < 2 ? n - 1 : n - 2);
+  if (typeof period === 'number') return window(period - 1);
+  return null;
+}
+
+function writeWindow(layout: FigureLayout, p: number, found: CompartmentFigures[] | null, window: FigureWindow | null, figures: Float64Array, day: number): void {
+  for (let b = 0; b < layout.banded.length; b++) {
+    const f = found?.[b];
+    if (!f || !window) {
+      writeMissing(layout, p, b, figures);
+      continue;
+    }
+    const at = layout.base[p * layout.banded.length + b];
+    const span = window.end - window.start;
+    const o = f.overall;
+    const values = [o.cmax, o.tmax - window.start, o.cmin, window.troughAtEnd ? o.cEnd : NaN, o.auc, o.auc / span, (o.auc * day) / span];
+    for (let k = 0; k < FIGURES.length; k++) figures[at + k] = values[k];
+    o.windows.forEach((w, k) => (figures[at + FIGURES.length + k] = w.fractionInWindow));
+  }
+}
+
+function writeMissing(layout: FigureLayout, p: number, b: number, figures: Float64Array): void {
+  const at = layout.base[p * layout.banded.length + b];
+  figures.fill(NaN, at, at + FIGURES.length + layout.windows[b].length);
+}
