@@ -3,8 +3,8 @@
  * every subject uses a fixed count of uniforms and any draw can be addressed directly.
  * Truncation maps u into [F(min), F(max)] instead of rejecting draws.
  */
-import { normalCdf, normalQuantile } from './normal';
-import { logNormalSpread } from './spread';
+import { normalCdf, normalQuantile } from './normal.ts';
+import { logNormalSpread } from './spread.ts';
 
 export type NumericDistribution =
   | { kind: 'normal'; mean: number; sd: number; min: number | null; max: number | null }

@@ -6,7 +6,7 @@
  * Generator: Philox4x32-10 (Salmon, Moraes, Dror & Shaw, "Parallel random numbers: as easy
  * as 1, 2, 3", SC'11), checked against the Random123 known-answer vectors in the tests.
  */
-import { normalQuantile } from './normal';
+import { normalQuantile } from './normal.ts';
 
 // Philox4x32 round multipliers and Weyl key increments (Salmon et al. 2011, table 2 / Random123 philox.h).
 const M0 = 0xd2511f53;

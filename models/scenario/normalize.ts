@@ -94,8 +94,8 @@ class Reader {
     if (variation) {
       words.push(variation.words);
       const z = this.effect?.(path) ?? 0;
-      // z = 0 is the typical subject: the value is left exactly as it is.
-      if (z !== 0) value = variation.kind === 'log-normal' ? value * Math.exp(variation.spread * z) : logistic(logit(value) + variation.spread * z);
+      // z = 0 is the typical subject, and a spread of 0 no variation: the value is left exactly as it is.
+      if (z !== 0 && variation.spread !== 0) value = variation.kind === 'log-normal' ? value * Math.exp(variation.spread * z) : logistic(logit(value) + variation.spread * z);
     }
     this.adjustments.push({ path, name: q.name ?? null, typical, value, relations: words });
     return value;
