@@ -5,7 +5,7 @@
 import type { Schedule } from '../building/events.ts';
 import { normInf } from './linalg/dense.ts';
 import { createExpActionWork, expAction, type ExpActionWork } from './linalg/exp-action.ts';
-import { createExpmWorkspace, createPropagator, propagator, type ExpmWorkspace, type Propagator } from './linalg/expm.ts';
+import { propagator, sharedExpmWorkspace, sharedPropagatorScratch, type ExpmWorkspace, type Propagator } from './linalg/expm.ts';
 import type { Trajectory } from './numerics/dense-store.ts';
 import { codeGenerationEnabled, compileSource, index } from './numerics/generated-code.ts';
 import type { CompartmentSystem } from '../building/system.ts';
@@ -27,8 +27,30 @@ export interface SparsePropagator {
 type Product = (vals: Float64Array, g: Float64Array, x: Float64Array, out: Float64Array) => void;
 
 /** Products by sparsity pattern: every model of one shape, and every step size, shares them. */
-const products = new Map<string, Product | null>();
+interface KnownProduct {
+  n: number;
+  rowStart: Int32Array;
+  cols: Int32Array;
+  product: Product | null;
+}
+const products = new Map<number, KnownProduct[]>();
+let productCount = 0;
 const MAX_PRODUCTS = 256;
+
+/** A hash of the pattern (FNV-1a over its integers): a population asks for the same few patterns for every subject. */
+function patternHash(rowStart: Int32Array, cols: Int32Array, n: number): number {
+  let h = 0x811c9dc5 ^ n;
+  for (let i = 0; i < rowStart.length; i++) h = Math.imul(h ^ rowStart[i], 0x01000193);
+  for (let i = 0; i < cols.length; i++) h = Math.imul(h ^ cols[i], 0x01000193);
+  return h >>> 0;
+}
+
+function samePattern(k: KnownProduct, rowStart: Int32Array, cols: Int32Array, n: number): boolean {
+  if (k.n !== n || k.rowStart.length !== rowStart.length || k.cols.length !== cols.length) return false;
+  for (let i = 0; i < rowStart.length; i++) if (k.rowStart[i] !== rowStart[i]) return false;
+  for (let i = 0; i < cols.length; i++) if (k.cols[i] !== cols[i]) return false;
+  return true;
+}
 
 /**
  * out_i = g_i + Σ vals[e]·x[cols[e]], written out entry by entry in the loop's order (so
@@ -36,8 +58,9 @@ const MAX_PRODUCTS = 256;
  */
 function productFor(rowStart: Int32Array, cols: Int32Array, n: number): Product | null {
   if (!codeGenerationEnabled() || cols.length > 4096) return null;
-  const key = `${n}|${rowStart.join(',')}|${cols.join(',')}`;
-  if (products.has(key)) return products.get(key) ?? null;
+  const hash = patternHash(rowStart, cols, n);
+  const known = products.get(hash)?.find((k) => samePattern(k, rowStart, cols, n));
+  if (known) return known.product;
   const lines: string[] = ['"use strict";'];
   for (let j = 0; j < n; j++) lines.push(`const x${j} = x[${index(j)}];`);
   for (let i = 0; i < n; i++) {
@@ -46,8 +69,14 @@ function productFor(rowStart: Int32Array, cols: Int32Array, n: number): Product 
     lines.push(`out[${index(i)}] = ${expr};`);
   }
   const product = compileSource<Product>(['vals', 'g', 'x', 'out'], lines.join('\n'));
-  if (products.size >= MAX_PRODUCTS) products.clear();
-  products.set(key, product);
+  if (productCount >= MAX_PRODUCTS) {
+    products.clear();
+    productCount = 0;
+  }
+  const list = products.get(hash) ?? [];
+  list.push({ n, rowStart: rowStart.slice(), cols: cols.slice(), product });
+  products.set(hash, list);
+  productCount++;
   return product;
 }
 
@@ -109,12 +138,12 @@ export class PropagatorCache {
     readonly inputs: readonly Float64Array[],
     private readonly capacity = 4096,
   ) {
-    this.ws = createExpmWorkspace(n + 1);
+    this.ws = sharedExpmWorkspace(n + 1);
     const d = quadratureScaling(matrix, n);
     this.scaling = d;
     this.scaledMatrix = Float64Array.from(matrix, (v, k) => (v * d[k % n]) / d[Math.floor(k / n)]);
     this.scaledInputs = inputs.map((u) => (u ? Float64Array.from(u, (v, i) => v / d[i]) : u));
-    this.scratch = createPropagator(n);
+    this.scratch = sharedPropagatorScratch(n);
     this.quadrature = Array.from({ length: n }, (_, j) => {
       for (let i = 0; i < n; i++) if (matrix[i * n + j] !== 0) return false;
       return true;

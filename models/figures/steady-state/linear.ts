@@ -12,7 +12,7 @@
  * nothing is computed as a small difference of large numbers.
  */
 import { buildSchedule } from '../../building/events.ts';
-import { createExpmWorkspace, expmScaled } from '../../solving/linalg/expm.ts';
+import { expmScaled, sharedExpmWorkspace } from '../../solving/linalg/expm.ts';
 import { solveLinear } from '../../solving/linalg/lu.ts';
 import { propagateExact } from '../../solving/linear-path.ts';
 import type { Administration } from '../../building/model.ts';
@@ -38,7 +38,7 @@ export function linearPeriodicState(system: CompartmentSystem, period: number, f
   // Amounts never depend on the AUC or eliminated states, so the amount block of e^{Mτ} is the
   // exponential of the amount block alone — without the 1/V of the AUC rows (1e9 for an effect
   // compartment of negligible volume), whose scale would otherwise set the rounding.
-  const phi = expmScaled(amountBlock(system, reached), m, period, new Float64Array(m * m), createExpmWorkspace(m));
+  const phi = expmScaled(amountBlock(system, reached), m, period, new Float64Array(m * m), sharedExpmWorkspace(m));
   const a = new Float64Array(m * m);
   for (let i = 0; i < m; i++) for (let j = 0; j < m; j++) a[i * m + j] = (i === j ? 1 : 0) - phi[i * m + j];
   const x = solveLinear(a, m, Float64Array.from(reached, (c) => first[c]));
@@ -109,7 +109,7 @@ export function linearApproach(
   // How far past the last input the solution must run for every compartment to reach 95%:
   // s doubles until the AUC still to come after it, wᵀe^{Ms}y, is below 5% everywhere.
   const yReached = Float64Array.from(reached, (c) => atEnd[c]);
-  const ws = createExpmWorkspace(m);
+  const ws = sharedExpmWorkspace(m);
   const phi = new Float64Array(m * m);
   const moved = new Float64Array(nc);
   /** The amounts s after the last input, with no more doses: e^{Ms}y over the reached block. */

@@ -309,3 +309,24 @@ export function expmScaled(
   expmInto(aug, n, out, ws);
   return out;
 }
+
+/**
+ * Workspaces and propagator scratch by dimension, shared by every caller in this thread: each
+ * is scratch within one synchronous call (no call nests another), and a population makes new
+ * propagator caches for every subject, where allocating fresh buffers cost more than the
+ * exponentials themselves.
+ */
+const sharedWorkspaces = new Map<number, ExpmWorkspace>();
+const sharedScratch = new Map<number, Propagator>();
+
+export function sharedExpmWorkspace(n: number): ExpmWorkspace {
+  let ws = sharedWorkspaces.get(n);
+  if (!ws) sharedWorkspaces.set(n, (ws = createExpmWorkspace(n)));
+  return ws;
+}
+
+export function sharedPropagatorScratch(n: number): Propagator {
+  let p = sharedScratch.get(n);
+  if (!p) sharedScratch.set(n, (p = createPropagator(n)));
+  return p;
+}
