@@ -10,8 +10,10 @@ import { limits } from '../models/scenario/limits.ts';
 import { scenarioJsonSchema } from '../models/scenario/json-schema.ts';
 import type { Problem } from '../models/scenario/problems.ts';
 import { readReportRequest, reportFileNameOf } from './report/request.ts';
+import { defaultPopulationLimits, PopulationJobs, stateJson, type PopulationLimits } from './population-jobs.ts';
+import { populationWorkerSource } from './population-threads.ts';
 import type { Sample } from './samples.ts';
-import type { SimulationPool } from './worker-pool.ts';
+import type { SimulationPool, WorkerModule } from './worker-pool.ts';
 
 export interface ServerLimits {
   /** Largest request body accepted, e.g. '2mb'. */
@@ -53,6 +55,19 @@ export interface AppOptions {
    * cannot read or drive it. Default: the loopback names. 'any' turns the check off.
    */
   allowedHosts?: readonly string[] | 'any';
+  /**
+   * Population runs (POST /api/population): their threads (default: as many as the pool has
+   * workers), the worker module (default: the TypeScript source; the built server passes the
+   * built one) and this server's limits (defaults: defaultPopulationLimits).
+   */
+  population?: { threads?: number; worker?: WorkerModule; limits?: Partial<PopulationLimits> };
+}
+
+const populationJobsOfApp = new WeakMap<express.Express, PopulationJobs>();
+
+/** The population jobs of an app made by createApp (to stop a running one at shutdown). */
+export function populationJobsOf(app: express.Express): PopulationJobs | undefined {
+  return populationJobsOfApp.get(app);
 }
 
 /** The host name of a Host header, lower case, without its port; IPv6 literals keep their brackets. */
@@ -182,6 +197,14 @@ export function createApp(options: AppOptions): express.Express {
   const json = [sameOrigin, jsonOnly, parse, shallow];
   const answerLimits = { maxOutputPoints: options.limits.maxOutputPoints, maxResponseBytes: options.limits.maxResponseBytes };
   const api = express.Router();
+  const populationLimits: PopulationLimits = { ...defaultPopulationLimits, ...options.population?.limits };
+  const population = new PopulationJobs({
+    threads: options.population?.threads ?? options.pool.options.size,
+    worker: options.population?.worker ?? populationWorkerSource,
+    limits: populationLimits,
+    heapMb: options.pool.memoryLimits.workerHeapMb,
+  });
+  populationJobsOfApp.set(app, population);
 
   api.post('/simulate', json, async (req: Request, res: Response) => {
     const reply = await options.pool.run({ kind: 'simulate', scenario: req.body, ...answerLimits });
@@ -211,6 +234,34 @@ export function createApp(options: AppOptions): express.Express {
     res.status(reply.status).type(reply.contentType).send(reply.body);
   });
 
+  // A virtual population: { scenario, subjects?, seed? } → 202 { id }, then polled by id.
+  api.post('/population', json, async (req: Request, res: Response) => {
+    const answer = await population.start(req.body);
+    if (answer.status === 202) {
+      res.status(202).location(`/api/population/${answer.id}`).json({ id: answer.id });
+      return;
+    }
+    sendProblems(res, answer.status, answer.problems);
+  });
+
+  api.get('/population/:id', (req, res) => {
+    const state = population.state(String(req.params.id));
+    if (!state) {
+      sendProblems(res, 404, [{ path: '', message: `no population run '${String(req.params.id)}' is kept here (finished runs are kept ${Math.round(populationLimits.keepMs / 60_000)} minutes)` }]);
+      return;
+    }
+    res.status(200).type('application/json').set('Cache-Control', 'no-store').send(stateJson(state));
+  });
+
+  api.delete('/population/:id', sameOrigin, (req, res) => {
+    const state = population.cancel(String(req.params.id));
+    if (!state) {
+      sendProblems(res, 404, [{ path: '', message: `no population run '${String(req.params.id)}' is kept here` }]);
+      return;
+    }
+    res.status(200).json({ state: state.state });
+  });
+
   api.get('/schema', (_req, res) => {
     res.json(scenarioJsonSchema());
   });
@@ -224,6 +275,7 @@ export function createApp(options: AppOptions): express.Express {
       responseBytes: options.limits.maxResponseBytes,
       timeBudgetMs: options.limits.timeBudgetMs,
       ...options.pool.memoryLimits,
+      population: populationLimits,
     });
   });
 

@@ -13,7 +13,8 @@ import { existsSync } from 'node:fs';
 import { availableParallelism } from 'node:os';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { allowedHostsFor, createApp, defaultServerLimits } from './app.ts';
+import { allowedHostsFor, createApp, defaultServerLimits, populationJobsOf } from './app.ts';
+import { populationWorkerFor } from './population-threads.ts';
 import { loadSamples } from './samples.ts';
 import { defaultPoolMemory, SimulationPool, type WorkerModule } from './worker-pool.ts';
 
@@ -55,7 +56,9 @@ function main(): void {
     ...defaultPoolMemory,
     ...(worker ? { worker } : {}),
   });
-  const app = createApp({ pool, samples: loadSamples(), clientDir, limits: defaultServerLimits, allowedHosts });
+  // Populations run on as many threads as the pool has workers, in the same form as the server.
+  const population = { threads: pool.options.size, worker: populationWorkerFor(import.meta.url) };
+  const app = createApp({ pool, samples: loadSamples(), clientDir, limits: defaultServerLimits, allowedHosts, population });
   const server = app.listen(port, host, () => {
     const shown = host.includes(':') ? `[${host}]` : host;
     console.log(`Tidemark is serving on http://${shown}:${port}/ (Ctrl-C to stop)`);
@@ -68,7 +71,7 @@ function main(): void {
   });
   const stop = () => {
     server.close();
-    void pool.close().then(() => process.exit(0));
+    void Promise.all([pool.close(), populationJobsOf(app)?.close()]).then(() => process.exit(0));
   };
   process.on('SIGINT', stop);
   process.on('SIGTERM', stop);
