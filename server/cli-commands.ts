@@ -10,7 +10,11 @@
 import { readFileSync } from 'node:fs';
 import { summaryText } from '../models/result/summary-text.ts';
 import { describeProblems, normaliseScenario, resultToCsv, resultToJsonText, scenarioJsonSchema, simulate, type Problem } from '../models/index.ts';
-import { parseOptions, parseTimeLimit, usage } from './cli-options.ts';
+import { planPopulation, runBatch, summarise, shardRange, type Batch, type PopulationPlan, type PopulationResult } from '../models/population/population.ts';
+import { parseOptions, parseShard, parseTimeLimit, parseWhole, usage } from './cli-options.ts';
+import { withCovariateFile } from './covariate-csv.ts';
+import { checkParts, decodeBatch, makePart, readPart, type PartFile } from './population-parts.ts';
+import { populationToCsv, populationToText } from './population-text.ts';
 import { sameFile } from './same-file.ts';
 import { visibleLines, visibleText } from './terminal-text.ts';
 import { fromUserFolder } from './user-folder.ts';
@@ -64,6 +68,176 @@ function readScenario(path: string | undefined): { ok: true; value: unknown } | 
   } catch (e) {
     return { ok: false, message: `'${shown}' is not valid JSON: ${visibleText((e as Error).message)}` };
   }
+}
+
+/** A population's result in the chosen format. */
+function renderPopulation(r: PopulationResult, format: string): string {
+  if (format === 'csv') return populationToCsv(r);
+  if (format === 'text') return populationToText(r, visibleText);
+  return JSON.stringify(r, null, 2) + '\n';
+}
+
+/** A population run, read and planned, ready for its subjects to be computed (in threads by the program). */
+export interface PopulationJob {
+  scenario: unknown;
+  overrides: { subjects: number; seed: number };
+  plan: PopulationPlan;
+  /** The subjects to compute: all, or the shard's. */
+  range: { first: number; count: number };
+  shard: { index: number; of: number } | null;
+  threads: number;
+  format: 'json' | 'csv' | 'text';
+  out: string | undefined;
+  progress: boolean;
+  /** Seconds (0: none). */
+  timeLimit: number;
+}
+
+/**
+ * Reads a population command line: its options, the scenario and its covariate file, and the
+ * plan. Either the outcome already (a usage error, a problem) or the job to compute.
+ */
+export function preparePopulation(args: string[], context: CliContext & { cores?: number; terminal?: boolean } = {}): { outcome: CliOutcome } | { job: PopulationJob } {
+  const [, ...rest] = args;
+  const parsed = parseOptions(rest);
+  const { options } = parsed;
+  const folder = context.folder ?? process.cwd();
+  const fail = (message: string) => ({ outcome: finish({ code: 2, stdout: '', stderr: `${visibleText(message)}\n\n${usage}\n` }) });
+  if (parsed.error) return fail(parsed.error);
+  const unknown = [...options.keys()].find((k) => !['subjects', 'seed', 'format', 'out', 'threads', 'shard', 'progress', 'time-limit'].includes(k));
+  if (unknown !== undefined) return fail(`unknown option --${unknown}`);
+  if (parsed.positional.length !== 1) return fail(parsed.positional.length === 0 ? 'a scenario FILE is required' : `unexpected argument '${parsed.positional[1]}'`);
+  const file = fromUserFolder(folder, parsed.positional[0]);
+  const subjects = parseWhole('subjects', options.get('subjects'), 1, 100_000);
+  if (!subjects.ok) return fail(subjects.message);
+  const seed = parseWhole('seed', options.get('seed'), 0, Number.MAX_SAFE_INTEGER);
+  if (!seed.ok) return fail(seed.message);
+  const threads = parseWhole('threads', options.get('threads'), 1, 256);
+  if (!threads.ok) return fail(threads.message);
+  const shard = parseShard(options.get('shard'));
+  if (!shard.ok) return fail(shard.message);
+  const limit = parseTimeLimit(options.get('time-limit'));
+  if (!limit.ok) return fail(limit.message);
+  const format = options.get('format') ?? 'json';
+  if (format !== 'json' && format !== 'csv' && format !== 'text') return fail(`--format must be json, csv or text, not '${format}'`);
+  const outGiven = options.get('out');
+  const out = outGiven === undefined ? undefined : fromUserFolder(folder, outGiven);
+  if (shard.value && out === undefined) return fail('--shard writes a part file: give it with --out FILE');
+  if (shard.value && options.has('format')) return fail('--shard writes a part file (JSON for merge); --format applies to merge');
+  if (out !== undefined) {
+    const clash = overwritesInput(out, [['scenario file', file]]);
+    if (clash) return fail(clash);
+  }
+  const input = readScenario(file);
+  if (!input.ok) return fail(input.message);
+  const withTable = withCovariateFile(input.value, file, parsed.positional[0]);
+  if (!withTable.ok) return { outcome: finish({ code: 1, stdout: '', stderr: withTable.errors.join('\n') + '\n' }) };
+  const plan = planPopulation(withTable.value, { subjects: subjects.value, seed: seed.value });
+  if (!plan.ok) return { outcome: finish(problems(plan.problems, parsed.positional[0])) };
+  const overrides = { subjects: plan.value.subjects, seed: plan.value.seed };
+  const range = shard.value ? shardRange(overrides.subjects, shard.value.index, shard.value.of) : { first: 0, count: overrides.subjects };
+  return {
+    job: {
+      scenario: withTable.value,
+      overrides,
+      plan: plan.value,
+      range,
+      shard: shard.value,
+      threads: threads.value ?? Math.max(1, context.cores ?? 1),
+      format,
+      out,
+      progress: options.has('progress') || context.terminal === true,
+      timeLimit: limit.seconds,
+    },
+  };
+}
+
+/** The outcome of a computed population job: the part file of a shard, else the summarised result. */
+export function finishPopulation(job: PopulationJob, batches: Batch[]): CliOutcome {
+  if (job.shard) {
+    const [batch] = batches.length === 1 ? batches : [joinBatches(batches)];
+    const part = makePart(job.scenario, job.overrides, job.shard, batch);
+    const text = JSON.stringify(part) + '\n';
+    const { index, of } = job.shard;
+    return finish({ code: 0, stdout: '', stderr: `wrote part ${index} of ${of} (subjects ${job.range.first} to ${job.range.first + job.range.count - 1}) to ${visibleText(job.out as string)}\n`, file: { path: job.out as string, text } });
+  }
+  const result = summarise(job.plan, batches);
+  if (!result.ok) return finish(problems(result.problems, 'population'));
+  return deliver(result.value, job.format, job.out);
+}
+
+function deliver(r: PopulationResult, format: string, out: string | undefined): CliOutcome {
+  const text = renderPopulation(r, format);
+  const warnings = format === 'text' ? '' : r.diagnostics.warnings.map((w) => `warning: ${visibleText(w)}\n`).join('');
+  return finish(out !== undefined ? { code: 0, stdout: '', stderr: warnings + `wrote result to ${visibleText(out)}\n`, file: { path: out, text } } : { code: 0, stdout: text, stderr: warnings });
+}
+
+/** Consecutive batches (the threads of one shard) as one. */
+export function joinBatches(batches: Batch[]): Batch {
+  const sorted = [...batches].sort((a, b) => a.first - b.first);
+  const count = sorted.reduce((s, b) => s + b.count, 0);
+  const concat = <T extends Float64Array | Uint8Array>(make: (n: number) => T, pick: (b: Batch) => T): T => {
+    const out = make(sorted.reduce((s, b) => s + pick(b).length, 0));
+    let at = 0;
+    for (const b of sorted) {
+      out.set(pick(b), at);
+      at += pick(b).length;
+    }
+    return out;
+  };
+  // Regimen arrays are laid out regimen by regimen over the batch's subjects: re-lay them over the joined subjects.
+  const variants = sorted[0] && sorted[0].count > 0 ? sorted[0].regimenStatus.length / sorted[0].count : 0;
+  const cols = variants > 0 && sorted[0].count > 0 ? sorted[0].regimenFigures.length / (variants * sorted[0].count) : 0;
+  const regimenFigures = new Float64Array(variants * count * cols);
+  const regimenStatus = new Uint8Array(variants * count);
+  let offset = 0;
+  for (const b of sorted) {
+    for (let r = 0; r < variants; r++) {
+      regimenFigures.set(b.regimenFigures.subarray(r * b.count * cols, (r + 1) * b.count * cols), (r * count + offset) * cols);
+      regimenStatus.set(b.regimenStatus.subarray(r * b.count, (r + 1) * b.count), r * count + offset);
+    }
+    offset += b.count;
+  }
+  return {
+    first: sorted[0]?.first ?? 0,
+    count,
+    grid: concat((n) => new Float64Array(n), (b) => b.grid),
+    figures: concat((n) => new Float64Array(n), (b) => b.figures),
+    status: concat((n) => new Uint8Array(n), (b) => b.status),
+    regimenFigures,
+    regimenStatus,
+    methods: [...new Set(sorted.flatMap((b) => b.methods))].sort(),
+    worstBalance: sorted.reduce((w, b) => Math.max(w, b.worstBalance), 0),
+    steadyMessage: sorted.find((b) => b.steadyMessage)?.steadyMessage ?? null,
+  };
+}
+
+/** merge: the part files read, checked as one run, and summarised. */
+function merge(paths: string[], shownPaths: string[], format: string, out: string | undefined): CliOutcome {
+  const inputProblem = (message: string): CliOutcome => ({ code: 1, stdout: '', stderr: message + '\n' });
+  const parts: { name: string; part: PartFile }[] = [];
+  for (let k = 0; k < paths.length; k++) {
+    const name = visibleText(shownPaths[k]);
+    const read = readScenario(paths[k]);
+    if (!read.ok) return inputProblem(read.message);
+    const part = readPart(read.value);
+    if (!part.ok) return inputProblem(`${name}: ${part.message}`);
+    parts.push({ name, part: part.value });
+  }
+  const mismatch = checkParts(parts);
+  if (mismatch) return inputProblem(mismatch);
+  const first = parts[0];
+  const plan = planPopulation(first.part.scenario, first.part.overrides);
+  if (!plan.ok) return problems(plan.problems, shownPaths[0]);
+  const batches: Batch[] = [];
+  for (const { name, part } of parts) {
+    const batch = decodeBatch(part.batch, plan.value);
+    if (!batch.ok) return inputProblem(`${name}: ${batch.message}`);
+    batches.push(batch.value);
+  }
+  const result = summarise(plan.value, batches);
+  if (!result.ok) return problems(result.problems, shownPaths[0]);
+  return deliver(result.value, format, out);
 }
 
 function problems(list: Problem[], file: string): CliOutcome {
@@ -162,6 +336,28 @@ function run(args: string[], context: CliContext): CliOutcome {
       return out !== undefined
         ? { code: 0, stdout: '', stderr: warnings + `wrote result to ${visibleText(out)}\n`, file: { path: out, text } }
         : { code: 0, stdout: text, stderr: warnings };
+    }
+    case 'population': {
+      // Importers compute in this thread; the program (cli.ts) runs the same job across worker threads.
+      const prepared = preparePopulation(args, context);
+      if ('outcome' in prepared) return prepared.outcome;
+      const { job } = prepared;
+      const batch = runBatch(job.plan, job.range.first, job.range.count);
+      if (!batch.ok) return problems(batch.problems, parsed.positional[0]);
+      return finishPopulation(job, [batch.value]);
+    }
+    case 'merge': {
+      const wrong = unknownOption(['format', 'out']);
+      if (wrong) return wrong;
+      if (positional.length === 0) return fail('merge needs the part files: merge PART... [--out FILE]');
+      const format = options.get('format') ?? 'json';
+      if (format !== 'json' && format !== 'csv' && format !== 'text') return fail(`--format must be json, csv or text, not '${visibleText(format)}'`);
+      const out = options.get('out');
+      if (out !== undefined) {
+        const clash = overwritesInput(out, positional.map((p): [string, string] => ['part file', p]));
+        if (clash) return fail(clash);
+      }
+      return merge(positional, parsed.positional, format, out);
     }
     case 'report': {
       const wrong = unknownOption(['out', 'reference', 'time-limit']);

@@ -18,6 +18,15 @@ commands:
                    tidemark-<title>-<fingerprint>.pdf in the current folder
                    options: [--out report.pdf] [--reference FILE] [--time-limit SECONDS]
                    (--reference: a second scenario drawn dashed over the curves)
+  population FILE  run the scenario's virtual population across worker threads: the result as
+                   JSON (default), --format csv (percentile bands per time) or --format text
+                   options: [--subjects N] [--seed S] [--format json|csv|text] [--out FILE]
+                   [--threads K] [--shard I/N] [--progress] [--time-limit SECONDS]
+                   --shard I/N (1 ≤ I ≤ N) runs part I of N of the subjects and writes a part
+                   file (needs --out); a Slurm array gives I as $SLURM_ARRAY_TASK_ID, a Kubernetes
+                   Indexed Job as $((JOB_COMPLETION_INDEX+1)) (its index counts from 0)
+  merge PART...    summarise the part files of one population run into the whole result
+                   (the same as the run without --shard); options: [--format json|csv|text] [--out FILE]
   validate FILE    check a scenario and list every problem with its place in the file
   schema           print the JSON Schema of the scenario format
   verify           check this installation: run published reference cases and print
@@ -28,6 +37,8 @@ commands:
 options:
   --out FILE                 written whole or not at all, never over an input file
   --time-limit SECONDS       stop a computation that runs longer (default ${defaultTimeLimitSeconds}; 0 for none)
+  --threads K                population: worker threads (default: this machine's cores)
+  --progress                 population: a progress line per 10% on stderr even when it is not a terminal
 
 Relative paths are read from the current folder. Exit status: 0 success, 1 invalid scenario,
 failed computation, failed verification or unwritable output, 2 usage error.
@@ -43,6 +54,9 @@ export interface ParsedArgs {
   error: string | null;
 }
 
+/** Options that take no value. */
+const flags = new Set(['progress']);
+
 export function parseOptions(args: string[]): ParsedArgs {
   const positional: string[] = [];
   const options = new Map<string, string>();
@@ -51,6 +65,11 @@ export function parseOptions(args: string[]): ParsedArgs {
     if (a.startsWith('--')) {
       const eq = a.indexOf('=');
       const name = eq < 0 ? a.slice(2) : a.slice(2, eq);
+      if (flags.has(name)) {
+        if (eq >= 0) return { positional, options, error: `option --${name} takes no value` };
+        options.set(name, 'yes');
+        continue;
+      }
       const value = eq < 0 ? args[++i] : a.slice(eq + 1);
       if (value === undefined) return { positional, options, error: `option --${name} needs a value` };
       options.set(name, value);
@@ -76,4 +95,24 @@ export function timeLimitMessage(seconds: number): string {
     'shorten the span (output.end), coarsen output.step or solver.step, loosen solver.rtol or use fewer doses, ' +
     'or allow more time with --time-limit SECONDS (0 for none)'
   );
+}
+
+/** A whole number option within [min, max], or the usage error. */
+export function parseWhole(name: string, text: string | undefined, min: number, max: number): { ok: true; value: number | undefined } | { ok: false; message: string } {
+  if (text === undefined) return { ok: true, value: undefined };
+  const value = /^\s*\d+\s*$/.test(text) ? Number(text) : NaN;
+  if (!(value >= min && value <= max)) return { ok: false, message: `--${name} must be a whole number from ${min} to ${max}, not '${text}'` };
+  return { ok: true, value };
+}
+
+/** --shard I/N: part I (1-based) of N, or the usage error. */
+export function parseShard(text: string | undefined): { ok: true; value: { index: number; of: number } | null } | { ok: false; message: string } {
+  if (text === undefined) return { ok: true, value: null };
+  const m = /^\s*(\d+)\s*\/\s*(\d+)\s*$/.exec(text);
+  const index = m ? Number(m[1]) : NaN;
+  const of = m ? Number(m[2]) : NaN;
+  if (!(of >= 1 && of <= 100_000 && index >= 1 && index <= of)) {
+    return { ok: false, message: `--shard must be I/N, part I of N with 1 ≤ I ≤ N ≤ 100000 (e.g. 2/8), not '${text}'` };
+  }
+  return { ok: true, value: { index, of } };
 }

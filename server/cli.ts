@@ -1,5 +1,5 @@
 /**
- * Command line: simulate, report, validate, schema, verify (the commands are in cli-commands.ts).
+ * Command line: simulate, report, population, merge, validate, schema, verify (the commands are in cli-commands.ts).
  * Exit 0 on success, 1 when the scenario is invalid, the computation fails or exceeds its
  * time limit, or the output cannot be written; 2 on a usage error. Errors go to stderr as
  * "path: message" lines, never as stack traces.
@@ -14,6 +14,7 @@
  * because the reader had seen enough, while a failing verify still exits 1.
  */
 import { realpathSync } from 'node:fs';
+import { availableParallelism } from 'node:os';
 import { fileURLToPath } from 'node:url';
 import { isMainThread } from 'node:worker_threads';
 import type { CliContext, CliOutcome } from './cli-commands.ts';
@@ -21,6 +22,7 @@ import { parseOptions, parseTimeLimit, timeLimitMessage } from './cli-options.ts
 import type { CliWorkerData, WorkerOutcome } from './cli-worker.ts';
 import { visibleText } from './terminal-text.ts';
 import { userFolder } from './user-folder.ts';
+import { populationWorkerFor, runThreads } from './population-threads.ts';
 import { startWorker, type WorkerModule } from './worker-pool.ts';
 import { writeFileAtomic } from './write-file-atomic.ts';
 
@@ -93,6 +95,45 @@ async function runInThread(args: string[], folder: string): Promise<Finished> {
   return { code: o.code, stdout: o.stdout, stderr: o.stderr, ...(file ? { file } : {}) };
 }
 
+/**
+ * population: read and planned here, its subjects computed across worker threads (each runs
+ * a contiguous range; the result does not depend on how many), stopped at --time-limit.
+ * Progress, a line per 10%, goes to stderr as it happens when stderr is a terminal or
+ * --progress is given.
+ */
+async function runPopulation(args: string[], folder: string): Promise<Finished> {
+  const { preparePopulation, finishPopulation } = await import('./cli-commands.ts');
+  const prepared = preparePopulation(args, { folder, cores: availableParallelism(), terminal: process.stderr.isTTY === true });
+  if ('outcome' in prepared) return toFinished(prepared.outcome);
+  const { job } = prepared;
+  const controller = new AbortController();
+  const timer = job.timeLimit > 0 ? setTimeout(() => controller.abort(), job.timeLimit * 1000) : null;
+  let shown = 0;
+  const what = job.shard ? `part ${job.shard.index} of ${job.shard.of}: ` : '';
+  const onProgress = job.progress
+    ? (done: number, total: number) => {
+        const tenth = total > 0 ? Math.floor((done * 10) / total) : 10;
+        if (tenth <= shown) return;
+        shown = tenth;
+        process.stderr.write(`population: ${what}${tenth * 10}% (${done} of ${total} subjects)\n`);
+      }
+    : undefined;
+  try {
+    const threads = Math.max(1, Math.min(job.threads, job.range.count));
+    const run = await runThreads(job.scenario, job.overrides, job.overrides.subjects, { threads, worker: populationWorkerFor(import.meta.url), range: job.range, signal: controller.signal, onProgress });
+    if (controller.signal.aborted) return { code: 1, stdout: '', stderr: timeLimitMessage(job.timeLimit) + '\n' };
+    if (!run.ok) return { code: 1, stdout: '', stderr: run.problems.map((p) => `${visibleText(p.path)}: ${visibleText(p.message)}`).join('\n') + '\n' };
+    return toFinished(finishPopulation(job, run.value));
+  } finally {
+    if (timer) clearTimeout(timer);
+  }
+}
+
+function toFinished(o: CliOutcome): Finished {
+  const file = o.file ? { path: o.file.path, data: o.file.text } : o.binaryFile ? { path: o.binaryFile.path, data: o.binaryFile.bytes } : undefined;
+  return { code: o.code, stdout: o.stdout, stderr: o.stderr, ...(file ? { file } : {}) };
+}
+
 /** The limit for simulate and report; null for the other commands, for no limit, or for a usage error the command reports itself. */
 function timeLimitOf(args: string[]): number | null {
   const [command, ...rest] = args;
@@ -124,7 +165,8 @@ async function main(): Promise<void> {
   let finished: Finished;
   try {
     const seconds = timeLimitOf(args);
-    finished = seconds === null ? await runInThread(args, folder) : await runInWorker(args, folder, seconds);
+    const population = args[0] === 'population' && !args.includes('--help') && !args.includes('-h');
+    finished = population ? await runPopulation(args, folder) : seconds === null ? await runInThread(args, folder) : await runInWorker(args, folder, seconds);
   } catch (e) {
     // A defect, not a user error: say so plainly, without a stack trace.
     process.stderr.write(`internal error: ${visibleText(e instanceof Error ? e.message : String(e))}\nPlease report this with the scenario file.\n`);
