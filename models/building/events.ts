@@ -88,10 +88,10 @@ export function buildSchedule(
   const active = new Int32Array(compartments);
   let current: { time: number; jumps: Jump[] } = { time: start, jumps: [] };
   const close = () => {
-    const rates = Float64Array.from(running);
-    let key = distinct.findIndex((d) => sameVector(d, rates));
-    if (key < 0) key = distinct.push(rates) - 1;
-    breakpoints.push({ time: current.time, jumps: current.jumps, rates, rateKey: key });
+    // Breakpoints with the same rates share one vector: a schedule of boluses has one in all.
+    let key = distinct.findIndex((d) => sameVector(d, running));
+    if (key < 0) key = distinct.push(Float64Array.from(running)) - 1;
+    breakpoints.push({ time: current.time, jumps: current.jumps, rates: distinct[key], rateKey: key });
   };
   for (const e of raw) {
     if (e.time - current.time > tolerance) {

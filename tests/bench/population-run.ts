@@ -1,0 +1,14 @@
+/**
+ * `npm run bench:population`, and the child process of each population run of the benchmark
+ * (`node dist/bench/population.mjs run <saturable> <subjects> <step>` prints one JSON line).
+ */
+import { measurePopulation, populationReport, runHere } from './population.ts';
+
+const [mode, saturable, subjects, step] = process.argv.slice(2);
+if (mode === 'run') {
+  const r = await runHere(saturable === 'true', Number(subjects), Number(step));
+  console.log(JSON.stringify(r));
+} else {
+  console.log('Virtual populations');
+  console.log(populationReport(await measurePopulation()));
+}

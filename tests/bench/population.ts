@@ -1,0 +1,172 @@
+/**
+ * Population figures for `npm run bench` (alone: `npm run bench:population`): the benchmark's
+ * two-compartment oral model (one dose a day for a year, hourly bands) as a virtual population.
+ *  - per subject: the population path (covariates, model, exact solve, the grid, first-interval
+ *    and steady-state figures) against the exact solve alone, one thread, as a ratio;
+ *  - 1,000 subjects on the machine's threads, end to end (plan, batches, summary): target < 1 s
+ *    on 2 cores on the exact path, < 15 s for the saturable variant;
+ *  - 10,000 subjects × 500 reported times: peak resident memory of the whole process (target
+ *    < 500 MB), and the time against 1,000 subjects of the same (cost linear in subjects: ≈ 10×).
+ * Each population run happens in a child process of its own, so that one run's memory and
+ * garbage never count against the next.
+ */
+import { spawnSync } from 'node:child_process';
+import { buildSync } from 'esbuild';
+import { availableParallelism } from 'node:os';
+import { dirname, join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { buildSchedule } from '../../models/building/events.ts';
+import { CompartmentSystem } from '../../models/building/system.ts';
+import { planPopulation, runBatch, summarise } from '../../models/population/population.ts';
+import { normaliseScenario } from '../../models/scenario/normalize.ts';
+import { emptyStats } from '../../models/solving/numerics/ode-system.ts';
+import { solveSchedule } from '../../models/solving/solve.ts';
+import { runThreads, type ThreadOptions } from '../../server/population-threads.ts';
+import { linearScenario, saturableScenario } from './scenario.ts';
+
+const here = dirname(fileURLToPath(import.meta.url));
+const root = join(here, '..', '..');
+
+/** The benchmark scenario with between-subject variability, a weight covariate and two targets. */
+export function populationScenario(saturable: boolean, subjects: number, step = 1): Record<string, unknown> {
+  const base = (saturable ? saturableScenario : linearScenario)({ method: 'auto' }, step) as {
+    compartments: { id: string; volume?: number | object }[];
+    transfers: Record<string, unknown>[];
+    [k: string]: unknown;
+  };
+  const transfers = base.transfers.map((t) => ({ ...t }));
+  transfers[0].k = { typical: transfers[0].k, cv: '40%', name: 'ka' };
+  if (saturable) transfers[1].vmax = { typical: transfers[1].vmax, cv: '30%', name: 'Vmax', covariates: [{ on: 'weight', power: 0.75, reference: '70 kg' }] };
+  else transfers[1].cl = { typical: transfers[1].cl, cv: '30%', name: 'CL', covariates: [{ on: 'weight', power: 0.75, reference: '70 kg' }] };
+  const compartments = base.compartments.map((c) => (c.id === 'central' ? { ...c, volume: { typical: c.volume, cv: '20%', name: 'V1', covariates: [{ on: 'weight', power: 1, reference: '70 kg' }] } } : c));
+  return {
+    ...base,
+    subject: { weight: '70 kg' },
+    compartments,
+    transfers,
+    population: {
+      subjects,
+      seed: 20261202,
+      covariates: { weight: { distribution: 'normal', mean: '72 kg', sd: '13 kg', min: '40 kg', max: '140 kg' } },
+      correlations: [{ between: [saturable ? 'Vmax' : 'CL', 'V1'], value: 0.3 }],
+      targets: [{ trough: { atLeast: '0.5 mg/L' } }, { peak: { atMost: '4 mg/L' } }],
+    },
+  };
+}
+
+export interface PopulationRun {
+  subjects: number;
+  times: number;
+  threads: number;
+  seconds: number;
+  peakRssMb: number;
+  subjectsWithoutSteadyState: number;
+}
+
+export interface PopulationBench {
+  perSubject: { exactSolveMs: number; populationPathMs: number; ratio: number };
+  linear1000: PopulationRun;
+  saturable1000: PopulationRun;
+  memory1000: PopulationRun;
+  memory10000: PopulationRun;
+  scaling: number;
+}
+
+function median(xs: number[]): number {
+  const s = [...xs].sort((a, b) => a - b);
+  return s[Math.floor(s.length / 2)];
+}
+
+/** One thread: the exact solve of the typical subject, and a subject of the population path. */
+function perSubject(): PopulationBench['perSubject'] {
+  const model = normaliseScenario(linearScenario({ method: 'exact' }));
+  if (!model.ok) throw new Error('benchmark scenario invalid');
+  const system = new CompartmentSystem(model.value);
+  const schedule = buildSchedule(model.value.administrations, model.value.compartments.length, model.value.start, model.value.end);
+  const solve = () => solveSchedule(model.value, system, schedule, new Float64Array(system.dimension), emptyStats());
+  const plan = planPopulation(populationScenario(false, 200));
+  if (!plan.ok) throw new Error(JSON.stringify(plan.problems));
+  for (let i = 0; i < 20; i++) solve();
+  runBatch(plan.value, 0, 20);
+  const solveRuns: number[] = [];
+  const pathRuns: number[] = [];
+  for (let rep = 0; rep < 5; rep++) {
+    let t = performance.now();
+    for (let i = 0; i < 100; i++) solve();
+    solveRuns.push((performance.now() - t) / 100);
+    t = performance.now();
+    runBatch(plan.value, rep * 40, 40);
+    pathRuns.push((performance.now() - t) / 40);
+  }
+  const exactSolveMs = median(solveRuns);
+  const populationPathMs = median(pathRuns);
+  return { exactSolveMs, populationPathMs, ratio: populationPathMs / exactSolveMs };
+}
+
+/** One population end to end in a child process: `node population.mjs run <saturable> <subjects> <step>`. */
+function childRun(saturable: boolean, subjects: number, step: number): PopulationRun {
+  const bundle = join(root, 'dist', 'bench', 'population.mjs');
+  const out = spawnSync(process.execPath, [bundle, 'run', String(saturable), String(subjects), String(step)], { encoding: 'utf8', cwd: root });
+  const line = out.stdout.trim().split('\n').pop() ?? '';
+  if (out.status !== 0 || !line.startsWith('{')) throw new Error(`population run failed: ${out.stderr}`);
+  return JSON.parse(line) as PopulationRun;
+}
+
+async function runHere(saturable: boolean, subjects: number, step: number): Promise<PopulationRun> {
+  const threads = availableParallelism();
+  const scenario = populationScenario(saturable, subjects, step);
+  const start = performance.now();
+  const plan = planPopulation(scenario);
+  if (!plan.ok) throw new Error(JSON.stringify(plan.problems));
+  const options: ThreadOptions = { threads, worker: { kind: 'built', url: new URL(`file://${join(root, 'dist', 'server', 'population-worker.js')}`) } };
+  const batches = await runThreads(scenario, {}, subjects, options);
+  if (!batches.ok) throw new Error(JSON.stringify(batches.problems));
+  const result = summarise(plan.value, batches.value);
+  if (!result.ok) throw new Error(JSON.stringify(result.problems));
+  const seconds = (performance.now() - start) / 1000;
+  return {
+    subjects,
+    times: result.value.times.length,
+    threads,
+    seconds,
+    peakRssMb: process.resourceUsage().maxRSS / 1024,
+    subjectsWithoutSteadyState: result.value.diagnostics.subjectsWithoutSteadyState,
+  };
+}
+
+export async function measurePopulation(): Promise<PopulationBench> {
+  spawnSync(process.execPath, [join(root, 'scripts', 'build-server.mjs'), '--if-stale', '--quiet'], { stdio: 'inherit', cwd: root });
+  buildSync({
+    entryPoints: [join(root, 'tests', 'bench', 'population-run.ts')],
+    bundle: true,
+    platform: 'node',
+    format: 'esm',
+    packages: 'external',
+    outfile: join(root, 'dist', 'bench', 'population.mjs'),
+    logLevel: 'warning',
+  });
+  const per = perSubject();
+  const linear1000 = childRun(false, 1000, 1);
+  const saturable1000 = childRun(true, 1000, 1);
+  // 500 reported times over the year: a step of 8760/499 h.
+  const step = 8760 / 499;
+  const memory1000 = childRun(false, 1000, step);
+  const memory10000 = childRun(false, 10000, step);
+  return { perSubject: per, linear1000, saturable1000, memory1000, memory10000, scaling: memory10000.seconds / memory1000.seconds };
+}
+
+export function populationReport(b: PopulationBench): string {
+  const f = (v: number, d = 2) => v.toFixed(d);
+  const run = (name: string, r: PopulationRun, target: string) =>
+    `  ${name.padEnd(44)} ${f(r.seconds).padStart(7)} s  ${String(Math.round(r.peakRssMb)).padStart(5)} MB peak  (${r.subjects} subjects × ${r.times} times, ${r.threads} threads; ${target})`;
+  return [
+    `  per subject, one thread: population path ${f(b.perSubject.populationPathMs, 3)} ms, exact solve alone ${f(b.perSubject.exactSolveMs, 3)} ms: ${f(b.perSubject.ratio, 1)}×`,
+    run('1,000 subjects, exact path, hourly bands', b.linear1000, `target < 1 s: ${b.linear1000.seconds < 1 ? 'PASS' : 'FAIL'}`),
+    run('1,000 subjects, saturable, hourly bands', b.saturable1000, `target < 15 s: ${b.saturable1000.seconds < 15 ? 'PASS' : 'FAIL'}`),
+    run('1,000 subjects × 500 times', b.memory1000, 'the scaling reference'),
+    run('10,000 subjects × 500 times', b.memory10000, `target < 500 MB: ${b.memory10000.peakRssMb < 500 ? 'PASS' : 'FAIL'}`),
+    `  10,000 against 1,000 subjects: ${f(b.scaling, 1)}× the time (linear: 10×)`,
+  ].join('\n');
+}
+
+export { runHere };
