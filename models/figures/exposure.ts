@@ -220,8 +220,10 @@ export function exposureFigures(whole: Model, layout: StateLayout, probe: CurveP
   // Rows: a breakpoint gets a left and a right row (state or slope may jump there).
   const scanBreakpoint = membership(scan, bpTimes);
   const scanBoundary = membership(scan, starts);
+  // A window ends just before a dose that falls on its end: a breakpoint there gives its left row only.
+  const leftOnly = (i: number) => scanBreakpoint[i] === 1 && scan[i] === model.end && scan[i] > model.start;
   let rowCount = 0;
-  for (let i = 0; i < scan.length; i++) rowCount += scanBreakpoint[i] === 1 && scan[i] > model.start ? 2 : 1;
+  for (let i = 0; i < scan.length; i++) rowCount += scanBreakpoint[i] === 1 && scan[i] > model.start && !leftOnly(i) ? 2 : 1;
   const rowTimes = new Float64Array(rowCount);
   const rowSides = new Uint8Array(rowCount);
   const rowBreakpoint = new Uint8Array(rowCount);
@@ -234,6 +236,7 @@ export function exposureFigures(whole: Model, layout: StateLayout, probe: CurveP
       rowBreakpoint[r] = 1;
       rowBoundary[r] = scanBoundary[i];
       rowSides[r++] = 0;
+      if (leftOnly(i)) continue;
     }
     rowTimes[r] = t;
     rowBreakpoint[r] = scanBreakpoint[i];

@@ -145,3 +145,82 @@ describe('between-subject variability as a coefficient of variation', () => {
     expect(Math.abs(sd / mean - cv)).toBeLessThan(0.01);
   });
 });
+
+describe('correlated variabilities through the scenario', () => {
+  // IV boluses every 24 h: the first interval's Cmax is D/V (at the first dose) and the AUC over a
+  // cycle at steady state is D/CL (Rowland & Tozer), so ln Cmax and ln AUC are −ln V and −ln CL
+  // shifted: their correlation is the one given between the logs of CL and V. A sample
+  // correlation of N pairs has standard error about (1 − ρ²)/√N (Fisher's large-sample formula).
+  const N = 20_000;
+  const rho = 0.6;
+  const scenario = {
+    title: 'CL and V correlated',
+    compartments: [{ id: 'central', volume: { typical: '20 L', cv: '25%', name: 'V' } }],
+    transfers: [{ from: 'central', cl: { typical: '4 L/h', cv: '40%', name: 'CL' } }],
+    doses: [{ into: 'central', amount: '100 mg', every: '24 h' }],
+    output: { end: '48 h', step: '24 h' },
+    population: { subjects: N, seed: 8, periods: ['first interval', 'steady state'], correlations: [{ between: ['V', 'CL'], value: rho }] },
+  };
+  const plan = planPopulation(scenario);
+  if (!plan.ok) throw new Error(JSON.stringify(plan.problems));
+  const batch = runBatch(plan.value, 0, N);
+  if (!batch.ok) throw new Error(JSON.stringify(batch.problems));
+  const layout = plan.value.layout;
+  const cmax = figureColumn(layout, 0, 0, 'cmax');
+  const auc = figureColumn(layout, 1, 0, 'auc');
+  const x = new Float64Array(N);
+  const y = new Float64Array(N);
+  for (let s = 0; s < N; s++) {
+    x[s] = Math.log(batch.value.figures[s * layout.columns + cmax]);
+    y[s] = Math.log(batch.value.figures[s * layout.columns + auc]);
+  }
+  const mean = (a: Float64Array) => a.reduce((p, v) => p + v, 0) / a.length;
+  const mx = mean(x);
+  const my = mean(y);
+  let sxy = 0;
+  let sxx = 0;
+  let syy = 0;
+  for (let s = 0; s < N; s++) {
+    sxy += (x[s] - mx) * (y[s] - my);
+    sxx += (x[s] - mx) ** 2;
+    syy += (y[s] - my) ** 2;
+  }
+
+  it('the sample correlation of ln Cmax (first dose) and ln AUC (steady state) is the one given, within 4 standard errors', () => {
+    expect(Math.abs(sxy / Math.sqrt(sxx * syy) - rho)).toBeLessThan((4 * (1 - rho * rho)) / Math.sqrt(N));
+  });
+
+  it('the SDs of the logs are √ln(1 + cv²) within 4 standard errors (SE of an SD ≈ s/√(2N))', () => {
+    const sx = Math.sqrt(sxx / (N - 1));
+    const sy = Math.sqrt(syy / (N - 1));
+    expect(Math.abs(sx - Math.sqrt(Math.log(1 + 0.25 ** 2)))).toBeLessThan((4 * sx) / Math.sqrt(2 * N));
+    expect(Math.abs(sy - Math.sqrt(Math.log(1 + 0.4 ** 2)))).toBeLessThan((4 * sy) / Math.sqrt(2 * N));
+  });
+});
+
+describe('the figures of a dosing interval', () => {
+  it('the first interval of boluses every 24 h: Cmax = D/V at the dose and trough = D/V·e^{−k·24 h} just before the next (not after it)', () => {
+    const N = 50;
+    const plan = planPopulation({
+      title: 'first interval',
+      compartments: [{ id: 'central', volume: { typical: '20 L', cv: '25%' } }],
+      transfers: [{ from: 'central', cl: { typical: '4 L/h', cv: '40%' } }],
+      doses: [{ into: 'central', amount: '100 mg', every: '24 h' }],
+      output: { end: '72 h', step: '6 h' },
+      population: { subjects: N, seed: 2, periods: ['first interval', 'steady state'] },
+    });
+    if (!plan.ok) throw new Error('plan');
+    const batch = runBatch(plan.value, 0, N);
+    if (!batch.ok) throw new Error('batch');
+    const layout = plan.value.layout;
+    for (let s = 0; s < N; s++) {
+      const f = batch.value.figures.subarray(s * layout.columns);
+      const cmax = f[figureColumn(layout, 0, 0, 'cmax')];
+      // k = CL/V = (D/AUC_ss)/(D/C0) (one compartment, Rowland & Tozer).
+      const k = cmax / f[figureColumn(layout, 1, 0, 'auc')];
+      expect(Math.abs(f[figureColumn(layout, 0, 0, 'trough')] / (cmax * Math.exp(-k * 24)) - 1)).toBeLessThan(1e-10);
+      expect(Math.abs(f[figureColumn(layout, 0, 0, 'cmin')] / (cmax * Math.exp(-k * 24)) - 1)).toBeLessThan(1e-10);
+      expect(f[figureColumn(layout, 0, 0, 'tmax')]).toBe(0);
+    }
+  });
+});
