@@ -23,6 +23,7 @@ import { centralRule, modelParameters, steadyVolumeRule, type ModelParameters } 
 import { drawConcentrationFigure, windowLabel, type PlotSeries } from './plot.ts';
 import { doseMarks, regimenRows } from './regimen.ts';
 import { drawTable, type Cell } from './table.ts';
+import { drawPopulationSection, reportPopulationCap, runReportPopulation, type PopulationCap, type PopulationRun } from './population.ts';
 import type { ReportRequest } from './request.ts';
 
 export { readReportRequest, type ReportRequest } from './request.ts';
@@ -34,6 +35,8 @@ export interface ReportOptions {
   now?: Date;
   /** Largest number of reported times accepted (the server's limit); unlimited when absent. */
   maxOutputPoints?: number;
+  /** Limits on the virtual population a report runs (tests lower them); reportPopulationCap when absent. */
+  populationCap?: Partial<PopulationCap>;
 }
 
 export type ReportOutcome =
@@ -78,8 +81,11 @@ export function buildReport(request: ReportRequest, options: ReportOptions = {})
   const fingerprint = scenarioFingerprint(request.scenario);
   const { model, result } = main.value;
   const check = independentCheck(request.scenario as Record<string, unknown>, result, model.linear);
+  // The population, when the scenario has one, runs here: in the report's own worker thread.
+  const population = runReportPopulation(request.scenario, { ...reportPopulationCap, ...options.populationCap });
+  if (population && !population.ok) return population;
   const now = options.now ?? new Date();
-  const { bytes, pages } = renderReport({ model, result, fingerprint, reference, check, now, description: descriptionOf(request.scenario) });
+  const { bytes, pages } = renderReport({ model, result, fingerprint, reference, check, now, description: descriptionOf(request.scenario), population: population?.value ?? null });
   return { ok: true, bytes, fileName: reportFileName(model.title, fingerprint), fingerprint, pages };
 }
 
@@ -96,6 +102,7 @@ interface Parts {
   check: CheckOutcome;
   now: Date;
   description: string | null;
+  population: PopulationRun | null;
 }
 
 function renderReport(parts: Parts): { bytes: Uint8Array; pages: number } {
@@ -103,7 +110,7 @@ function renderReport(parts: Parts): { bytes: Uint8Array; pages: number } {
   const author = `Tidemark ${tidemarkVersion}`;
   const doc = createReportDocument({
     title: `${model.title} — concentration report`,
-    subject: `Concentration–time simulation of the scenario “${model.title}”, for review; not dosing advice. Scenario fingerprint ${fingerprint}.`,
+    subject: `Concentration–time simulation of the scenario “${model.title}”${parts.population?.result ? `, with a virtual population of ${parts.population.result.subjects} subjects` : ''}, for review; not dosing advice. Scenario fingerprint ${fingerprint}.`,
     author,
     keywords: `pharmacokinetics, compartment model, concentration, simulation, review, not dosing advice, fingerprint ${fingerprint}`,
     created: now,
@@ -127,6 +134,7 @@ function renderReport(parts: Parts): { bytes: Uint8Array; pages: number } {
   warningsSection(doc, model, result, check);
   methodSection(doc, result, check);
   intervalSection(doc, model, result, params);
+  if (parts.population) drawPopulationSection(doc, parts.population, model, '8', '3');
 
   stampPages(doc, { title: model.title, fingerprint, version: tidemarkVersion });
   const pages = doc.bufferedPageRange().count;
