@@ -4,7 +4,7 @@
  * Truncation maps u into [F(min), F(max)] instead of rejecting draws.
  */
 import { normalCdf, normalQuantile } from './normal.ts';
-import { logNormalSpread } from './spread.ts';
+import { logNormalSpread } from '../subject/variability.ts';
 
 export type NumericDistribution =
   | { kind: 'normal'; mean: number; sd: number; min: number | null; max: number | null }

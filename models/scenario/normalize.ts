@@ -17,7 +17,7 @@ import type {
 } from '../building/model.ts';
 import { formatPath, type Outcome, type Problem } from './problems.ts';
 import { scenarioSchema, type AdjustedQuantity, type ModelQuantity, type Quantity, type Scenario, type Subject } from './schema.ts';
-import { logitNormalSpread, logNormalSpread } from '../population/spread.ts';
+import { logitNormalSpread, logNormalSpread } from '../subject/variability.ts';
 import { readShare } from './shares.ts';
 
 type VariationKind = NonNullable<AdjustedQuantity['variation']>;

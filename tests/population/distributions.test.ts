@@ -5,8 +5,8 @@
 import { describe, expect, it } from 'vitest';
 import { drawFrom } from '../../models/population/distributions';
 import type { NumericDistribution } from '../../models/population/distributions';
-import { normalCdf, normalQuantile } from '../../models/population/normal';
-import { logNormalSpread } from '../../models/population/spread';
+import { normalCdf, normalQuantile } from '../../models/population/normal.ts';
+import { logNormalSpread } from '../../models/subject/variability.ts';
 import { SubjectRandom } from '../../models/population/random';
 
 const weight: NumericDistribution = { kind: 'normal', mean: 75, sd: 15, min: 45, max: 120 };

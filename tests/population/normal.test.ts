@@ -6,7 +6,7 @@
 import Decimal from 'decimal.js';
 import { erf } from 'mathjs';
 import { describe, expect, it } from 'vitest';
-import { normalCdf, normalQuantile } from '../../models/population/normal';
+import { normalCdf, normalQuantile } from '../../models/population/normal.ts';
 
 const EPS = 2 ** -52;
 const D = Decimal.clone({ precision: 360 });

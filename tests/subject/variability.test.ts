@@ -3,7 +3,7 @@
  * against a fine composite Simpson rule written here, and the logit-normal root and refusals.
  */
 import { describe, expect, it } from 'vitest';
-import { logitNormalMoments, logitNormalSpread, logNormalSpread } from '../../models/population/spread';
+import { logitNormalMoments, logitNormalSpread, logNormalSpread } from '../../models/subject/variability.ts';
 
 describe('logNormalSpread', () => {
   it('satisfies cv² = exp(s²) − 1 and the log-normal moments sd/mean = cv', () => {
