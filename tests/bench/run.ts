@@ -26,6 +26,7 @@ import { singleDose, singleDoseVsExpm, superposed } from './closed-form.ts';
 import { GridSeries, prepare, readModel, runEngine, runOdex, type EngineRun, type OdexRun } from './paths.ts';
 import { phaseNames, simulatePhases, type PhaseName } from './phases.ts';
 import { measureStartup, startupReport } from './startup.ts';
+import { measurePopulation, populationReport } from './population.ts';
 import { AMOUNT_SCALE, halvexin, linearScenario, saturableScenario, type SolverBlock } from './scenario.ts';
 import { summarise, timeBlocks, type Job, type Timing } from './timing.ts';
 
@@ -464,6 +465,11 @@ section('Start-up: the built command line and server against a bare node start (
 const startup = await measureStartup();
 console.log(startupReport(startup));
 
+// ---------- virtual populations ----------
+section('Virtual populations: the population path per subject, 1,000 and 10,000 subjects (population.ts)');
+const population = await measurePopulation();
+console.log(populationReport(population));
+
 // ---------- summary ----------
 section('Summary (markdown)');
 const best = (method: string) => pairings.filter((p) => p.method === method);
@@ -546,6 +552,7 @@ const artifact = {
   },
   memory: { runs: memory, primaryIncreaseMB: memoryIncrease, pass: memoryPass },
   startup,
+  population,
   targets: {
     odexRatio: TARGET_ODEX_RATIO,
     odexRatioAim: AIM_ODEX_RATIO,
