@@ -24,6 +24,7 @@ import { RegimenForm } from './regimen-form.ts';
 import { addReportButton } from './report.ts';
 import { emptyScenario, formProblem, ScenarioStore, type ScenarioDoc } from './store.ts';
 import { renderPrintSummary } from './print-summary.ts';
+import { setUpPopulation } from './population-panel.ts';
 import { renderTimeline } from './timeline.ts';
 
 const defaultSample = 'brennock-oral-bid';
@@ -67,6 +68,7 @@ const hooks: FormHooks = {
 const modelForm = new ModelForm(store, byId('model-form'), hooks);
 const regimenForm = new RegimenForm(store, byId('regimen-form'), hooks);
 const outputForm = new OutputForm(store, byId('output-form'), hooks);
+const population = setUpPopulation(store, hooks, errors);
 
 function renderScenarioFields(): void {
   const host = byId('scenario-fields');
@@ -80,6 +82,7 @@ function renderForms(): void {
   modelForm.render();
   regimenForm.render();
   outputForm.render();
+  population.form.render();
   drawNow();
 }
 
@@ -116,7 +119,10 @@ store.subscribe((kind, path) => {
     errors.clearField(path);
     if (/^compartments\[\d+\]\.(label|volume)$/.test(path)) refreshCompartmentSelects(store, formRoot);
   }
-  if (kind === 'replaced') renderForms();
+  if (kind === 'replaced') {
+    population.replaced();
+    renderForms();
+  }
   else scheduleDraw();
   markStale();
 });

@@ -4,7 +4,8 @@
  */
 import { fmt } from '../../models/result/summary-text.ts';
 import { h } from './dom.ts';
-import { button, compartmentField, quantityField, refreshCompartmentSelects, selectField, textField } from './fields.ts';
+import { button, compartmentField, type QuantityOptions, refreshCompartmentSelects, selectField, textField } from './fields.ts';
+import { variableQuantityField } from './population-variability.ts';
 import { isNumberText, scenarioUnitOf, splitQuantity, unitSize, type Dim, type UnitSet } from './quantity.ts';
 import type { CompartmentDoc, ScenarioStore, TransferDoc } from './store.ts';
 import { UndoOffer } from './undo.ts';
@@ -63,6 +64,11 @@ export class ModelForm {
 
   private readonly undo: UndoOffer;
 
+  /** A quantity field with its "varies between subjects" toggle (population runs). */
+  private varying(opts: QuantityOptions): HTMLElement {
+    return variableQuantityField(this.store, opts, (focusAfter) => this.hooks.rerender(focusAfter));
+  }
+
   render(): void {
     this.renaming = null;
     const comps = this.store.compartments;
@@ -116,7 +122,7 @@ export class ModelForm {
       textField(this.store, { path: `${p}.label`, label: 'Label', placeholder: 'e.g. Plasma', maxLength: 80 }),
       depot
         ? h('div', { class: 'field depot-note' }, h('span', { class: 'field-label-like' }, 'Volume'), h('p', { class: 'note' }, 'none — holds amount only'))
-        : quantityField(this.store, { path: `${p}.volume`, label: 'Volume', dim: 'volume', required: true }),
+        : this.varying({ path: `${p}.volume`, label: 'Volume', dim: 'volume', required: true }),
       h('div', { class: 'field check' }, depotBox, h('label', { for: depotId }, 'No volume (depot)')),
       h('div', { class: 'field remove' }, button('Remove', { 'data-focus-key': `remove-compartment-${i}`, 'aria-label': `Remove compartment ${name}`, class: 'quiet' }, () => this.removeCompartment(i))),
     );
@@ -126,11 +132,11 @@ export class ModelForm {
     const p = `transfers[${i}]`;
     const kind = transferKind(t);
     const params: HTMLElement[] = [];
-    if (kind === 'k') params.push(quantityField(this.store, { path: `${p}.k`, label: 'Rate constant k', dim: 'rateConstant', required: true }));
-    if (kind === 'cl') params.push(quantityField(this.store, { path: `${p}.cl`, label: 'Clearance CL', dim: 'clearance', required: true }));
+    if (kind === 'k') params.push(this.varying({ path: `${p}.k`, label: 'Rate constant k', dim: 'rateConstant', required: true }));
+    if (kind === 'cl') params.push(this.varying({ path: `${p}.cl`, label: 'Clearance CL', dim: 'clearance', required: true }));
     if (kind === 'mm') {
-      params.push(quantityField(this.store, { path: `${p}.vmax`, label: 'Vmax', dim: 'amountRate', required: true }));
-      params.push(quantityField(this.store, { path: `${p}.km`, label: 'Km', dim: 'concentration', required: true }));
+      params.push(this.varying({ path: `${p}.vmax`, label: 'Vmax', dim: 'amountRate', required: true }));
+      params.push(this.varying({ path: `${p}.km`, label: 'Km', dim: 'concentration', required: true }));
     }
     const from = typeof t.from === 'string' ? t.from : '?';
     const to = typeof t.to === 'string' ? t.to : 'out';

@@ -1,0 +1,136 @@
+// The population panel in a real browser (Debian's Chromium through playwright-core) against
+// the real server and its population threads: the demo population opened from the sample
+// list, run with 60 subjects, its median band drawn equal to what the API answers for the
+// same scenario; a large run cancelled; no console errors and no CSP violations on the way.
+// The screenshot goes to tests/artifacts/population.png (git-ignored).
+import { mkdirSync } from 'node:fs';
+import { join } from 'node:path';
+import type { Browser, BrowserContext, Page } from 'playwright-core';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { ensureClientBuilt, launchChromium, repoRoot, startServer, type RunningServer } from './harness.ts';
+import { afterNewResult, field, openApp, type PageRecord } from './page-helpers.ts';
+
+const stepTimeout = 180_000;
+const sampleId = 'halvorin-population-infusion';
+
+let server: RunningServer | null = null;
+let browser: Browser | null = null;
+let context: BrowserContext;
+let page: Page;
+let record: PageRecord;
+
+beforeAll(async () => {
+  ensureClientBuilt();
+  browser = await launchChromium();
+  server = await startServer();
+  context = await browser.newContext({ viewport: { width: 1366, height: 900 }, deviceScaleFactor: 1, acceptDownloads: false });
+  ({ page, record } = await openApp(context, server.baseUrl));
+}, stepTimeout);
+
+afterAll(async () => {
+  await context?.close();
+  await browser?.close();
+  await server?.close();
+});
+
+/** Runs a population through the API from here (not the page), until it ends. */
+async function apiPopulation(scenario: unknown): Promise<{ state: string; result?: { bands: Record<string, Record<string, (number | null)[]>>; times: number[] } }> {
+  const post = await fetch(new URL('api/population', server!.baseUrl), { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ scenario }) });
+  expect(post.status).toBe(202);
+  const { id } = (await post.json()) as { id: string };
+  for (;;) {
+    const state = (await (await fetch(new URL(`api/population/${id}`, server!.baseUrl))).json()) as { state: string };
+    if (state.state !== 'running') return state;
+    await new Promise((r) => setTimeout(r, 100));
+  }
+}
+
+describe('the population panel in Chromium', () => {
+  it('lists the demo population among the samples and opens it with the panel unfolded', async () => {
+    const options = await page.getByTestId('sample-select').locator('option').evaluateAll((els) => els.map((e) => (e as HTMLOptionElement).value));
+    expect(options).toContain(sampleId);
+    await afterNewResult(page, () => page.getByTestId('sample-select').selectOption(sampleId));
+    expect(await page.getByTestId('population-details').evaluate((d) => (d as HTMLDetailsElement).open)).toBe(true);
+    // The typical subject's run is the page's usual one, unchanged by the population.
+    expect(await page.evaluate(() => window.__tidemark.lastResult?.times.length)).toBeGreaterThan(0);
+    // The clearance varies between subjects: its toggle is on and shows the cv written in the sample.
+    expect(await page.getByTestId('varies-transfers[0].cl').isChecked()).toBe(true);
+    expect(await field(page, 'transfers[0].cl.cv').inputValue()).toBe('30%');
+    expect(await page.getByTestId('varies-transfers[1].cl').isChecked()).toBe(false);
+  }, stepTimeout);
+
+  it('runs 60 subjects and draws the median band equal to the API answer for the same scenario', async () => {
+    const subjects = field(page, 'population.subjects');
+    await subjects.fill('60');
+    expect(await page.evaluate(() => (window.__tidemark.scenario.population as { subjects: number }).subjects)).toBe(60);
+    await page.getByTestId('run-population').click();
+    await page.waitForFunction(() => window.__tidemarkPopulation.result !== null && (window.__tidemarkPopulation.chart?.data.datasets.length ?? 0) === 3, undefined, { timeout: stepTimeout });
+    const shown = await page.evaluate(() => {
+      const chart = window.__tidemarkPopulation.chart!;
+      return {
+        sent: window.__tidemarkPopulation.sent,
+        median: chart.data.datasets[2].data as { x: number; y: number }[],
+        labels: chart.data.datasets.map((d) => d.label),
+        fills: chart.data.datasets.map((d) => (d as { fill?: unknown }).fill),
+        result: window.__tidemarkPopulation.result,
+      };
+    });
+    expect(shown.labels).toEqual(['5th percentile', '5th to 95th percentile', 'median']);
+    // The shaded area lies between the outer percentiles (chart.js fill to the dataset before).
+    expect(shown.fills).toEqual([false, '-1', false]);
+    expect((shown.sent as { population: { subjects: number } }).population.subjects).toBe(60);
+    const api = await apiPopulation(shown.sent);
+    expect(api.state).toBe('done');
+    // Same scenario, same seed: the API's answer is the same computation, so equal values.
+    const median = api.result!.bands.central['50'];
+    expect(shown.median.map((p) => p.y)).toEqual(median.filter((v): v is number => v !== null));
+    expect(shown.median.map((p) => p.x)).toEqual(api.result!.times.filter((_, i) => median[i] !== null));
+    expect(shown.result).toEqual(api.result);
+    await expect.poll(() => page.getByTestId('population-caution').textContent()).toMatch(/not dosing advice/);
+    expect(await page.getByTestId('population-attainment').locator('li').count()).toBe(3);
+    expect(await page.getByTestId('population-attainment').textContent()).toMatch(/± [\d.]+% \(standard error\)/);
+    expect(await page.getByTestId('population-histogram-trough').count()).toBe(1);
+    expect(await page.getByTestId('population-histogram-cmax').count()).toBe(1);
+    expect(await page.getByTestId('population-regimens').locator('tbody tr').count()).toBe(8);
+    expect(await page.getByTestId('population-best-regimen').textContent()).toMatch(/★ best/);
+    mkdirSync(join(repoRoot, 'tests/artifacts'), { recursive: true });
+    // At the top, so the page's sticky caution is drawn where it stands, not over the results.
+    await page.evaluate(() => window.scrollTo(0, 0));
+    await page.screenshot({ path: join(repoRoot, 'tests/artifacts/population.png'), fullPage: true });
+  }, stepTimeout);
+
+  it('cancels a large run, keeps the shown result, and frees the server for the next run', async () => {
+    const before = await page.evaluate(() => window.__tidemarkPopulation.result);
+    await field(page, 'population.subjects').fill('5000');
+    await page.getByTestId('run-population').click();
+    await page.getByTestId('population-progress').waitFor({ state: 'visible' });
+    const cancel = page.getByTestId('population-cancel');
+    await cancel.waitFor({ state: 'visible', timeout: stepTimeout });
+    await cancel.click();
+    await expect.poll(() => page.getByTestId('population-status').textContent()).toBe('Cancelled.');
+    expect(await page.getByTestId('population-progress').isVisible()).toBe(false);
+    expect(await page.evaluate(() => window.__tidemarkPopulation.result)).toEqual(before);
+    // The threads were stopped: the server takes a new population at once.
+    const small = (await page.evaluate(() => window.__tidemarkPopulation.sent)) as { population: { subjects: number } };
+    small.population.subjects = 5;
+    expect((await apiPopulation(small)).state).toBe('done');
+  }, stepTimeout);
+
+  it('shows a population problem beside its field and keeps what was typed', async () => {
+    await field(page, 'population.subjects').fill('60');
+    await field(page, 'transfers[0].cl.cv').fill('-10%');
+    await page.getByTestId('run-population').click();
+    await expect.poll(() => page.locator('#f-transfers-0-cl-cv-error').textContent()).toMatch(/must not be negative/);
+    expect(await field(page, 'transfers[0].cl.cv').inputValue()).toBe('-10%');
+    expect(await page.getByTestId('population-status').textContent()).toMatch(/problems/);
+  }, stepTimeout);
+
+  it('made no console errors, page errors or CSP violations', async () => {
+    expect(record.pageErrors).toEqual([]);
+    expect(record.cspMessages).toEqual([]);
+    expect(await record.cspViolations()).toEqual([]);
+    // The one 400 is the invalid population the previous step sent on purpose.
+    expect(record.failedResponses.map((r) => r.status)).toEqual([400]);
+    expect(record.consoleErrors.filter((e) => !/status of 400/.test(e.text))).toEqual([]);
+  });
+});
