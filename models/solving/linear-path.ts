@@ -171,6 +171,28 @@ export class PropagatorCache {
     return hit;
   }
 
+  /** Steps asked for once and not kept: the second request of a step makes its propagator. */
+  private readonly seenOnce = new Set<string>();
+
+  /**
+   * The cached propagator of step h, or null when this step has not been asked for before: a
+   * step used once (the growing knot steps of one dosing interval, say) is cheaper by the
+   * action of the exponential than by a Padé exponential of its own. The step is remembered,
+   * so a step that repeats gets its propagator the second time.
+   */
+  getIfRepeated(h: number, rateKey: number): SparsePropagator | null {
+    if (rateKey === this.lastKey && Math.abs(h - this.lastH) <= 1e-12 * h && this.last) return this.last;
+    const key = `${rateKey}:${h.toPrecision(12)}`;
+    const hit = this.cache.get(key);
+    if (hit) return hit;
+    if (!this.seenOnce.has(key)) {
+      if (this.seenOnce.size >= this.capacity) this.seenOnce.clear();
+      this.seenOnce.add(key);
+      return null;
+    }
+    return this.get(h, rateKey);
+  }
+
   private compute(key: string, h: number, rateKey: number): SparsePropagator {
     if (this.cache.size >= this.capacity) this.cache.clear();
     const p = this.uncached(h, rateKey);
@@ -357,6 +379,12 @@ export class LinearTrajectory implements Trajectory {
       apply(this.cache.uncached(h, this.keys[k]), x, n, out);
       return;
     }
+    this.act(x, h, input, out);
+  }
+
+  /** out ← the state h after x under input, by the action of the exponential (x and out distinct). */
+  private act(x: Float64Array, h: number, input: Float64Array, out: Float64Array): void {
+    const n = this.dimension;
     // In the scaled coordinates of the propagators (quadrature states divided by D).
     const d = this.cache.scaling;
     for (let i = 0; i < n; i++) this.scaled[i] = x[i] / d[i];
@@ -459,7 +487,12 @@ export class LinearTrajectory implements Trajectory {
         at = starts[k];
       }
       if (t > at) {
-        apply(this.cache.get(t - at, this.keys[k]), x, n, next);
+        const h = t - at;
+        // A step seen for the first time goes by the action of the exponential (when that is
+        // cheap); a repeated one (a regular grid) by its propagator, one product per row.
+        const p = this.matrixNorm * h > TAYLOR_NORM_LIMIT ? this.cache.get(h, this.keys[k]) : this.cache.getIfRepeated(h, this.keys[k]);
+        if (p) apply(p, x, n, next);
+        else this.act(x, h, this.inputs[this.keys[k]], next);
         const swap = x;
         x = next;
         next = swap;

@@ -96,7 +96,7 @@ describe('overflow and impossible spans are refused at their field', () => {
 });
 
 describe('no false refusals', () => {
-  it.each(readdirSync('samples'))('%s with every adaptive and exact method', (file) => {
+  it.each(readdirSync('samples').filter((f) => f.endsWith('.json')))('%s with every adaptive and exact method', (file) => {
     const sample: Scenario = JSON.parse(readFileSync(`samples/${file}`, 'utf8'));
     for (const method of ['auto', 'dopri5', 'dop853', 'rosenbrock']) {
       const r = simulate({ ...sample, solver: { method, rtol: 1e-6, atol: 1e-8 } });
