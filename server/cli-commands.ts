@@ -10,7 +10,7 @@
 import { readFileSync } from 'node:fs';
 import { summaryText } from '../models/result/summary-text.ts';
 import { describeProblems, normaliseScenario, resultToCsv, resultToJsonText, scenarioJsonSchema, simulate, type Problem } from '../models/index.ts';
-import { planPopulation, runBatch, summarise, shardRange, type Batch, type PopulationPlan, type PopulationResult } from '../models/population/population.ts';
+import { hasPopulation, planPopulation, runBatch, summarise, shardRange, type Batch, type PopulationPlan, type PopulationResult } from '../models/population/population.ts';
 import { parseOptions, parseShard, parseTimeLimit, parseWhole, usage } from './cli-options.ts';
 import { withCovariateFile } from './covariate-csv.ts';
 import { checkParts, decodeBatch, makePart, readPart, type PartFile } from './population-parts.ts';
@@ -303,9 +303,18 @@ function run(args: string[], context: CliContext): CliOutcome {
       const model = normaliseScenario(input.value);
       if (!model.ok) return problems(model.problems, parsed.positional[0]);
       const m = model.value;
+      // A population section is checked as `population` would read it (its covariate table file included).
+      let population = '';
+      if (hasPopulation(input.value)) {
+        const withTable = withCovariateFile(input.value, positional[0] as string, parsed.positional[0]);
+        if (!withTable.ok) return { code: 1, stdout: '', stderr: withTable.errors.join('\n') + '\n' };
+        const plan = planPopulation(withTable.value);
+        if (!plan.ok) return problems(plan.problems, parsed.positional[0]);
+        population = `; a population of ${plan.value.subjects} with ${plan.value.varying.length} varying quantities, ${plan.value.targets.length} targets and ${plan.value.regimens.length} regimens`;
+      }
       return {
         code: 0,
-        stdout: `${visibleText(parsed.positional[0])}: valid — ${m.compartments.length} compartments, ${m.transfers.length} transfers, ${m.administrations.length} administrations, ${m.linear ? 'linear' : 'saturable'} model\n`,
+        stdout: `${visibleText(parsed.positional[0])}: valid — ${m.compartments.length} compartments, ${m.transfers.length} transfers, ${m.administrations.length} administrations, ${m.linear ? 'linear' : 'saturable'} model${population}\n`,
         stderr: '',
       };
     }

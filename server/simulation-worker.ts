@@ -8,6 +8,7 @@ import { parentPort } from 'node:worker_threads';
 import { scheduleOf } from '../models/building/events.ts';
 import type { Model } from '../models/building/model.ts';
 import { normaliseScenario } from '../models/scenario/normalize.ts';
+import { hasPopulation, planPopulation } from '../models/population/population.ts';
 import { resultToJsonText } from '../models/result/result-format.ts';
 import { outputRows } from '../models/result/output-rows.ts';
 import { simulateModel } from '../models/simulate.ts';
@@ -104,6 +105,9 @@ function computeJob(job: Omit<JobRequest, 'id'>): Omit<JobReply, 'id'> {
   if (tooLarge) return problems(422, [tooLarge]);
   if (job.kind === 'validate') {
     const m = model.value;
+    // A population section is checked as a population run would read it.
+    const plan = hasPopulation(job.scenario) ? planPopulation(job.scenario) : null;
+    if (plan && !plan.ok) return problems(400, plan.problems);
     const summary = {
       valid: true,
       compartments: m.compartments.length,
@@ -111,6 +115,7 @@ function computeJob(job: Omit<JobRequest, 'id'>): Omit<JobReply, 'id'> {
       administrations: m.administrations.length,
       outputPoints: points,
       linear: m.linear,
+      population: plan?.ok ? { subjects: plan.value.subjects, varying: plan.value.varying.length, targets: plan.value.targets.length, regimens: plan.value.regimens.length } : null,
     };
     return { status: 200, contentType: 'application/json', body: JSON.stringify(summary) };
   }

@@ -14,6 +14,11 @@ export interface PopulationOverrides {
   seed?: number;
 }
 
+/** Whether a scenario (any JSON value) has a `population` section to check. */
+export function hasPopulation(input: unknown): boolean {
+  return typeof input === 'object' && input !== null && 'population' in input && (input as { population?: unknown }).population !== undefined;
+}
+
 /** Reads a scenario with a `population` section into the plan every batch runs. */
 export function planPopulation(input: unknown, overrides: PopulationOverrides = {}): Outcome<PopulationPlan> {
   const parsed = parseScenario(input);

@@ -256,3 +256,16 @@ describe('part arrays', () => {
     expect(Buffer.from(float64ToBase64(Float64Array.of(1)), 'base64').toString('hex')).toBe('000000000000f03f');
   });
 });
+
+describe('validate checks a population section', () => {
+  it('a valid population is summarised; a population problem exits 1 with its path', () => {
+    const ok = runCli(['validate', 'pop.json'], { folder: dir });
+    expect(ok.code).toBe(0);
+    expect(ok.stdout).toContain('a population of 40 with 2 varying quantities, 2 targets and 2 regimens');
+    writeFileSync(join(dir, 'bad-pop.json'), JSON.stringify(scenario({ ...drawn, correlations: [{ between: ['CL', 'Vx'], value: 0.3 }] })));
+    const bad = runCli(['validate', 'bad-pop.json'], { folder: dir });
+    expect(bad.code).toBe(1);
+    expect(bad.stderr).toContain("population.correlations[0].between[1]: no varying quantity is named 'Vx'");
+    noStack(bad.stderr);
+  });
+});
