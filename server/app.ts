@@ -11,7 +11,6 @@ import { scenarioJsonSchema } from '../models/scenario/json-schema.ts';
 import type { Problem } from '../models/scenario/problems.ts';
 import { readReportRequest, reportFileNameOf } from './report/request.ts';
 import { defaultPopulationLimits, PopulationJobs, stateJson, type PopulationLimits } from './population-jobs.ts';
-import { populationWorkerSource } from './population-threads.ts';
 import type { Sample } from './samples.ts';
 import type { SimulationPool, WorkerModule } from './worker-pool.ts';
 
@@ -200,7 +199,7 @@ export function createApp(options: AppOptions): express.Express {
   const populationLimits: PopulationLimits = { ...defaultPopulationLimits, ...options.population?.limits };
   const population = new PopulationJobs({
     threads: options.population?.threads ?? options.pool.options.size,
-    worker: options.population?.worker ?? populationWorkerSource,
+    ...(options.population?.worker ? { worker: options.population.worker } : {}),
     limits: populationLimits,
     heapMb: options.pool.memoryLimits.workerHeapMb,
   });

@@ -14,7 +14,6 @@ import { availableParallelism } from 'node:os';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { allowedHostsFor, createApp, defaultServerLimits, populationJobsOf } from './app.ts';
-import { populationWorkerFor } from './population-threads.ts';
 import { loadSamples } from './samples.ts';
 import { defaultPoolMemory, SimulationPool, type WorkerModule } from './worker-pool.ts';
 
@@ -22,6 +21,8 @@ import { defaultPoolMemory, SimulationPool, type WorkerModule } from './worker-p
 // the extension says which form is running.
 const built = import.meta.url.endsWith('.js');
 const worker: WorkerModule | undefined = built ? { kind: 'built', url: new URL('./simulation-worker.js', import.meta.url) } : undefined;
+// Population threads likewise: the built thread beside the built server, else the source (the default).
+const populationWorker: WorkerModule | undefined = built ? { kind: 'built', url: new URL('./population-worker.js', import.meta.url) } : undefined;
 
 /** The repository root: the nearest folder above this file that holds package.json (server/ or dist/server/ lie below it). */
 function projectRoot(): string {
@@ -57,7 +58,7 @@ function main(): void {
     ...(worker ? { worker } : {}),
   });
   // Populations run on as many threads as the pool has workers, in the same form as the server.
-  const population = { threads: pool.options.size, worker: populationWorkerFor(import.meta.url) };
+  const population = { threads: pool.options.size, ...(populationWorker ? { worker: populationWorker } : {}) };
   const app = createApp({ pool, samples: loadSamples(), clientDir, limits: defaultServerLimits, allowedHosts, population });
   const server = app.listen(port, host, () => {
     const shown = host.includes(':') ? `[${host}]` : host;

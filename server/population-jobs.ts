@@ -5,10 +5,20 @@
  * given); finished ones are kept a short while, then forgotten.
  */
 import { randomUUID } from 'node:crypto';
-import { planPopulation, summarise, type PopulationPlan } from '../models/population/population.ts';
+import type { PopulationPlan } from '../models/population/population.ts';
 import type { Problem } from '../models/scenario/problems.ts';
-import { runThreads } from './population-threads.ts';
 import type { WorkerModule } from './worker-pool.ts';
+
+/**
+ * The engine and the threads are loaded at the first population request, not at the
+ * server's start: the HTTP thread otherwise only forwards bytes, and most runs are single.
+ */
+type Loaded = { engine: typeof import('../models/population/population.ts'); threads: typeof import('./population-threads.ts') };
+let loading: Promise<Loaded> | null = null;
+function load(): Promise<Loaded> {
+  loading ??= Promise.all([import('../models/population/population.ts'), import('./population-threads.ts')]).then(([engine, threads]) => ({ engine, threads }));
+  return loading;
+}
 
 export interface PopulationLimits {
   /** Subjects of one run. */
@@ -36,7 +46,8 @@ export const defaultPopulationLimits: PopulationLimits = {
 
 export interface PopulationJobOptions {
   threads: number;
-  worker: WorkerModule;
+  /** The thread module; default: the TypeScript source (the built server passes the built one). */
+  worker?: WorkerModule;
   limits: PopulationLimits;
   /** JavaScript heap of each thread, MB. */
   heapMb?: number;
@@ -125,7 +136,8 @@ export class PopulationJobs {
   async start(body: unknown): Promise<StartAnswer> {
     const request = readRequest(body);
     if (Array.isArray(request)) return { status: 400, problems: request };
-    const plan = planPopulation(request.scenario, request.overrides);
+    const { engine, threads } = await load();
+    const plan = engine.planPopulation(request.scenario, request.overrides);
     if (!plan.ok) return { status: 400, problems: plan.problems };
     const over = limitProblems(plan.value, this.options.limits);
     if (over.length > 0) return { status: 400, problems: over };
@@ -136,10 +148,10 @@ export class PopulationJobs {
       const progress = s.state === 'running' ? ` (${grouped(s.done)} of ${grouped(s.total)} subjects done)` : '';
       return { status: 503, problems: [{ path: '', message: `another population is running on this server${progress}; only one runs at a time. Wait for it to finish or cancel it, then run again` }] };
     }
-    return { status: 202, id: this.launch(request.scenario, request.overrides, plan.value) };
+    return { status: 202, id: this.launch(request.scenario, request.overrides, plan.value, { engine, threads }) };
   }
 
-  private launch(scenario: unknown, overrides: { subjects?: number; seed?: number }, plan: PopulationPlan): string {
+  private launch(scenario: unknown, overrides: { subjects?: number; seed?: number }, plan: PopulationPlan, { engine, threads }: Loaded): string {
     const id = randomUUID();
     const controller = new AbortController();
     const job: Job = { id, state: { state: 'running', done: 0, total: plan.subjects }, controller, finished: Promise.resolve(), timers: [] };
@@ -150,15 +162,16 @@ export class PopulationJobs {
       overBudget = true;
       controller.abort();
     }, this.options.limits.timeBudgetMs);
-    job.finished = runThreads(scenario, overrides, plan.subjects, {
-      threads: this.options.threads,
-      worker: this.options.worker,
-      signal: controller.signal,
-      ...(this.options.heapMb ? { heapMb: this.options.heapMb } : {}),
-      onProgress: (done, total) => {
-        if (job.state.state === 'running') job.state = { state: 'running', done, total };
-      },
-    })
+    job.finished = threads
+      .runThreads(scenario, overrides, plan.subjects, {
+        threads: this.options.threads,
+        worker: this.options.worker ?? threads.populationWorkerSource,
+        signal: controller.signal,
+        ...(this.options.heapMb ? { heapMb: this.options.heapMb } : {}),
+        onProgress: (done, total) => {
+          if (job.state.state === 'running') job.state = { state: 'running', done, total };
+        },
+      })
       .then((batches) => {
         if (overBudget) {
           const seconds = Math.round(this.options.limits.timeBudgetMs / 1000);
@@ -166,7 +179,7 @@ export class PopulationJobs {
         }
         if (controller.signal.aborted || batches.cancelled) return this.settle(job, { state: 'cancelled' });
         if (!batches.ok) return this.settle(job, { state: 'failed', problems: batches.problems });
-        const result = summarise(plan, batches.value);
+        const result = engine.summarise(plan, batches.value);
         this.settle(job, result.ok ? { state: 'done', resultJson: JSON.stringify(result.value) } : { state: 'failed', problems: result.problems });
       })
       .catch((e: unknown) => {
