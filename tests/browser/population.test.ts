@@ -59,6 +59,19 @@ describe('the population panel in Chromium', () => {
     expect(await page.getByTestId('varies-transfers[1].cl').isChecked()).toBe(false);
   }, stepTimeout);
 
+  it('writes { typical, cv } when a quantity is made to vary, and the plain value back when it no longer does', async () => {
+    const volume = () => page.evaluate(() => window.__tidemark.scenario.compartments?.[1].volume);
+    expect(await volume()).toBe('24 L');
+    await page.getByTestId('varies-compartments[1].volume').check();
+    expect(await volume()).toEqual({ typical: '24 L', cv: '30%' });
+    await field(page, 'compartments[1].volume.cv').fill('15');
+    await field(page, 'compartments[1].volume.name').fill('V2');
+    expect(await volume()).toEqual({ typical: '24 L', cv: '15%', name: 'V2' });
+    await page.getByTestId('varies-compartments[1].volume').uncheck();
+    expect(await volume()).toBe('24 L');
+    expect(await field(page, 'compartments[1].volume.cv').count()).toBe(0);
+  }, stepTimeout);
+
   it('runs 60 subjects and draws the median band equal to the API answer for the same scenario', async () => {
     const subjects = field(page, 'population.subjects');
     await subjects.fill('60');
