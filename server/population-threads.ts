@@ -5,7 +5,7 @@
  * result does not depend on the number of threads. Cancelling terminates the threads.
  */
 import type { Batch, PopulationOverrides } from '../models/population/population.ts';
-import { batchRanges } from '../models/population/population.ts';
+import { batchRanges } from '../models/population/ranges.ts';
 import type { Outcome, Problem } from '../models/scenario/problems.ts';
 import { startWorker, type WorkerModule } from './worker-pool.ts';
 

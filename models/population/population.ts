@@ -8,6 +8,7 @@ import type { Outcome, Problem } from '../scenario/problems.ts';
 import { runBatch, type Batch } from './batch.ts';
 import { readPlan, type PopulationPlan } from './plan.ts';
 import { summarise, type PopulationResult } from './summary.ts';
+import { batchRanges, shardRange } from './ranges.ts';
 
 export interface PopulationOverrides {
   subjects?: number;
@@ -39,19 +40,6 @@ export function planPopulation(input: unknown, overrides: PopulationOverrides = 
   return problems.length > 0 ? { ok: false, problems } : plan;
 }
 
-/** Subjects [first, end) of shard `index` (1-based) of `of` equal contiguous parts. */
-export function shardRange(subjects: number, index: number, of: number): { first: number; count: number } {
-  const first = Math.floor((subjects * (index - 1)) / of);
-  const end = Math.floor((subjects * index) / of);
-  return { first, count: end - first };
-}
-
-/** Splits subjects into `parts` contiguous batches of nearly equal size (for threads). */
-export function batchRanges(subjects: number, parts: number): { first: number; count: number }[] {
-  const n = Math.max(1, Math.min(parts, subjects));
-  return Array.from({ length: n }, (_, k) => shardRange(subjects, k + 1, n));
-}
-
 /** The whole population in this thread. */
 export function simulatePopulation(input: unknown, overrides: PopulationOverrides = {}, progress?: (done: number) => void): Outcome<PopulationResult> {
   const plan = planPopulation(input, overrides);
@@ -61,4 +49,4 @@ export function simulatePopulation(input: unknown, overrides: PopulationOverride
   return summarise(plan.value, [batch.value]);
 }
 
-export { runBatch, summarise, type Batch, type PopulationPlan, type PopulationResult };
+export { batchRanges, runBatch, shardRange, summarise, type Batch, type PopulationPlan, type PopulationResult };
