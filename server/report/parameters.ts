@@ -7,6 +7,7 @@
 import type { Model } from '../../models/building/model.ts';
 import type { SimulationResult } from '../../models/simulate.ts';
 import { fmt, unitText, withUnit } from './format.ts';
+import { adjustedPaths, subjectMark } from './subject.ts';
 
 export type Role = 'central' | 'peripheral' | 'depot' | 'other';
 
@@ -121,15 +122,19 @@ export function modelParameters(model: Model, result: SimulationResult): ModelPa
   const central = centralCompartment(model);
   const roles = rolesOf(model, central);
   const name = (i: number | null) => (i === null ? 'out of the body' : model.compartments[i].id);
+  // A value the subject's covariate relations changed carries a mark (the model holds the subject's value).
+  const adjusted = adjustedPaths(model);
+  const mark = (path: string) => (adjusted.has(path) ? ` ${subjectMark}` : '');
 
   const compartments: CompartmentRow[] = model.compartments.map((c, i) => ({
     id: c.id,
     label: c.label && c.label !== c.id ? c.label : '—',
-    volume: c.volume === null ? 'amount only' : withUnit(c.volume, u.volume),
+    volume: c.volume === null ? 'amount only' : withUnit(c.volume, u.volume) + mark(`compartments[${i}].volume`),
     role: roles[i],
   }));
 
-  const transfers: TransferRow[] = model.transfers.map((t) => {
+  // Model transfers are the scenario's, in order (a model is built only when every one is read).
+  const transfers: TransferRow[] = model.transfers.map((t, i) => {
     const v = model.compartments[t.from].volume;
     const route = `${name(t.from)} → ${name(t.to)}`;
     const label = t.label ?? '—';
@@ -139,7 +144,7 @@ export function modelParameters(model: Model, result: SimulationResult): ModelPa
       return {
         route,
         label,
-        kinetics: clearance !== null ? `first-order, CL ${withUnit(clearance, clUnit)}` : `first-order, k ${withUnit(k, k1)}`,
+        kinetics: (clearance !== null ? `first-order, CL ${withUnit(clearance, clUnit)}` : `first-order, k ${withUnit(k, k1)}`) + mark(`transfers[${i}].${clearance !== null ? 'cl' : 'k'}`),
         rateConstant: withUnit(k, k1),
         clearance: cl === null ? '—' : withUnit(cl, clUnit),
         note: clearance !== null ? 'k = CL / V' : cl === null ? 'no volume: amount-based' : 'CL = k · V',
@@ -149,7 +154,7 @@ export function modelParameters(model: Model, result: SimulationResult): ModelPa
     return {
       route,
       label,
-      kinetics: `saturable, Vmax ${withUnit(vmax, `${u.amount}/${u.time}`)}, Km ${withUnit(km, conc)}`,
+      kinetics: `saturable, Vmax ${withUnit(vmax, `${u.amount}/${u.time}`)}${mark(`transfers[${i}].vmax`)}, Km ${withUnit(km, conc)}${mark(`transfers[${i}].km`)}`,
       rateConstant: v === null ? '—' : withUnit(vmax / (km * v), k1),
       clearance: withUnit(vmax / km, clUnit),
       note: `at C ≪ Km: k = Vmax/(Km·V), CL = Vmax/Km; at C = Km the rate is Vmax/2 = ${withUnit(vmax / 2, `${u.amount}/${u.time}`)}`,

@@ -22,6 +22,7 @@ import { drawCautionBox, drawTitleBlock, stampPages } from './furniture.ts';
 import { centralRule, modelParameters, steadyVolumeRule, type ModelParameters } from './parameters.ts';
 import { drawConcentrationFigure, windowLabel, type PlotSeries } from './plot.ts';
 import { doseMarks, regimenRows } from './regimen.ts';
+import { drawSubjectTables } from './subject.ts';
 import { drawTable, type Cell } from './table.ts';
 import { drawPopulationSection, reportPopulationCap, runReportPopulation, type PopulationCap, type PopulationRun } from './population.ts';
 import type { ReportRequest } from './request.ts';
@@ -195,6 +196,7 @@ function modelSection(doc: PDFKit.PDFDocument, model: Model, result: SimulationR
     rows: params.derived.map((d) => [d.quantity, d.value, d.basis]),
     footnote: `${centralRule} ${steadyVolumeRule}`,
   });
+  drawSubjectTables(doc, model, result);
 }
 
 // ---- 2. Regimen ----
