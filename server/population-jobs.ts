@@ -173,14 +173,17 @@ export class PopulationJobs {
         },
       })
       .then((batches) => {
-        if (overBudget) {
-          const seconds = Math.round(this.options.limits.timeBudgetMs / 1000);
-          return this.settle(job, { state: 'failed', problems: [{ path: 'population', message: `the population took longer than this server's budget of ${seconds} s and was stopped; run fewer subjects, fewer regimens or a coarser output step, or use the command line` }] });
-        }
+        const seconds = Math.round(this.options.limits.timeBudgetMs / 1000);
+        const overBudgetState: JobState = { state: 'failed', problems: [{ path: 'population', message: `the population took longer than this server's budget of ${seconds} s and was stopped; run fewer subjects, fewer regimens or a coarser output step, or use the command line` }] };
+        if (overBudget) return this.settle(job, overBudgetState);
         if (controller.signal.aborted || batches.cancelled) return this.settle(job, { state: 'cancelled' });
         if (!batches.ok) return this.settle(job, { state: 'failed', problems: batches.problems });
-        const result = engine.summarise(plan, batches.value);
-        this.settle(job, result.ok ? { state: 'done', resultJson: JSON.stringify(result.value) } : { state: 'failed', problems: result.problems });
+        // The percentiles of a large population take seconds: computed in a thread, not here.
+        return threads.summariseInThread(scenario, overrides, batches.value, this.options.worker ?? threads.populationWorkerSource).then((summary) => {
+          if (overBudget) return this.settle(job, overBudgetState);
+          if (controller.signal.aborted) return this.settle(job, { state: 'cancelled' });
+          this.settle(job, summary.ok ? { state: 'done', resultJson: summary.value } : { state: 'failed', problems: summary.problems });
+        });
       })
       .catch((e: unknown) => {
         this.settle(job, { state: 'failed', problems: [{ path: 'population', message: `the population could not be completed: ${e instanceof Error ? e.message : String(e)}` }] });

@@ -16,8 +16,12 @@ export interface BatchRequest {
   count: number;
 }
 
+/** What a population thread is asked: run a batch, or summarise finished batches into the result's JSON. */
+export type ThreadRequest = ({ kind: 'batch' } & BatchRequest) | { kind: 'summarise'; scenario: unknown; overrides: PopulationOverrides; batches: Batch[] };
+
 export type BatchMessage =
   | { kind: 'ready' }
+  | { kind: 'summary'; json: string }
   | { kind: 'progress'; done: number }
   | { kind: 'batch'; batch: Batch }
   | { kind: 'problems'; problems: Problem[] };
@@ -64,7 +68,7 @@ export async function runThreads(scenario: unknown, overrides: PopulationOverrid
           resolve(o);
         };
         w.on('message', (m: BatchMessage) => {
-          if (m.kind === 'ready') w.postMessage({ scenario, overrides, first: part.first, count: part.count } satisfies BatchRequest);
+          if (m.kind === 'ready') w.postMessage({ kind: 'batch', scenario, overrides, first: part.first, count: part.count } satisfies ThreadRequest);
           else if (m.kind === 'progress') {
             done[k] = m.done;
             report();
@@ -72,7 +76,7 @@ export async function runThreads(scenario: unknown, overrides: PopulationOverrid
             done[k] = part.count;
             report();
             settle({ ok: true, value: m.batch });
-          } else settle({ ok: false, problems: m.problems });
+          } else if (m.kind === 'problems') settle({ ok: false, problems: m.problems });
         });
         w.on('error', (e) => settle({ ok: false, problems: [{ path: 'population', message: `a population thread failed: ${e.message}` }] }));
         w.on('exit', () => settle({ ok: false, problems: [{ path: 'population', message: options.signal?.aborted ? 'cancelled' : 'a population thread stopped unexpectedly' }] }));
@@ -90,4 +94,31 @@ export async function runThreads(scenario: unknown, overrides: PopulationOverrid
     options.signal?.removeEventListener('abort', onAbort);
     stopAll();
   }
+}
+
+/**
+ * The summary of finished batches as the result's JSON text, computed in a thread of its own
+ * (the batches are moved there, not copied), so a server's request thread never spends the
+ * seconds a large population's percentiles take.
+ */
+export function summariseInThread(scenario: unknown, overrides: PopulationOverrides, batches: Batch[], worker: WorkerModule): Promise<Outcome<string>> {
+  return new Promise((resolve) => {
+    const w = startWorker(worker);
+    let settled = false;
+    const settle = (o: Outcome<string>) => {
+      if (settled) return;
+      settled = true;
+      resolve(o);
+      void w.terminate();
+    };
+    w.on('message', (m: BatchMessage) => {
+      if (m.kind === 'ready') {
+        const buffers = batches.flatMap((b) => [b.grid.buffer, b.figures.buffer, b.status.buffer, b.regimenFigures.buffer, b.regimenStatus.buffer] as ArrayBuffer[]);
+        w.postMessage({ kind: 'summarise', scenario, overrides, batches } satisfies ThreadRequest, buffers);
+      } else if (m.kind === 'summary') settle({ ok: true, value: m.json });
+      else if (m.kind === 'problems') settle({ ok: false, problems: m.problems });
+    });
+    w.on('error', (e) => settle({ ok: false, problems: [{ path: 'population', message: `the summary thread failed: ${e.message}` }] }));
+    w.on('exit', () => settle({ ok: false, problems: [{ path: 'population', message: 'the summary thread stopped unexpectedly' }] }));
+  });
 }

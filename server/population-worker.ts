@@ -4,8 +4,8 @@
  * progress, and posts the batch back with its arrays moved, not copied.
  */
 import { parentPort } from 'node:worker_threads';
-import { planPopulation, runBatch, type Batch } from '../models/population/population.ts';
-import type { BatchRequest, BatchMessage } from './population-threads.ts';
+import { planPopulation, runBatch, summarise, type Batch } from '../models/population/population.ts';
+import type { BatchMessage, ThreadRequest } from './population-threads.ts';
 
 function post(message: BatchMessage, transfer: ArrayBuffer[] = []): void {
   parentPort?.postMessage(message, transfer);
@@ -15,10 +15,14 @@ export function batchBuffers(b: Batch): ArrayBuffer[] {
   return [b.grid.buffer, b.figures.buffer, b.status.buffer, b.regimenFigures.buffer, b.regimenStatus.buffer] as ArrayBuffer[];
 }
 
-parentPort?.on('message', (request: BatchRequest) => {
+parentPort?.on('message', (request: ThreadRequest) => {
   try {
     const plan = planPopulation(request.scenario, request.overrides);
     if (!plan.ok) return post({ kind: 'problems', problems: plan.problems });
+    if (request.kind === 'summarise') {
+      const result = summarise(plan.value, request.batches);
+      return post(result.ok ? { kind: 'summary', json: JSON.stringify(result.value) } : { kind: 'problems', problems: result.problems });
+    }
     // Progress at most every 1% of the batch (and at least every subject of a small one).
     const every = Math.max(1, Math.floor(request.count / 100));
     const batch = runBatch(plan.value, request.first, request.count, (done) => {
