@@ -176,7 +176,7 @@ function deliver(r: PopulationResult, format: string, out: string | undefined): 
 export function joinBatches(batches: Batch[]): Batch {
   const sorted = [...batches].sort((a, b) => a.first - b.first);
   const count = sorted.reduce((s, b) => s + b.count, 0);
-  const concat = <T extends Float64Array | Uint8Array>(make: (n: number) => T, pick: (b: Batch) => T): T => {
+  const concat = <T extends Float64Array | Float32Array | Uint8Array>(make: (n: number) => T, pick: (b: Batch) => T): T => {
     const out = make(sorted.reduce((s, b) => s + pick(b).length, 0));
     let at = 0;
     for (const b of sorted) {
@@ -201,7 +201,7 @@ export function joinBatches(batches: Batch[]): Batch {
   return {
     first: sorted[0]?.first ?? 0,
     count,
-    grid: concat((n) => new Float64Array(n), (b) => b.grid),
+    grid: concat((n) => new Float32Array(n), (b) => b.grid),
     figures: concat((n) => new Float64Array(n), (b) => b.figures),
     status: concat((n) => new Uint8Array(n), (b) => b.status),
     regimenFigures,

@@ -59,6 +59,23 @@ export function float64ToBase64(values: Float64Array): string {
   return Buffer.from(bytes).toString('base64');
 }
 
+/** Single-precision arrays (the batch's concentration grid), little-endian IEEE 754. */
+export function float32ToBase64(values: Float32Array): string {
+  const bytes = new Uint8Array(values.length * 4);
+  const view = new DataView(bytes.buffer);
+  for (let i = 0; i < values.length; i++) view.setFloat32(i * 4, values[i], true);
+  return Buffer.from(bytes).toString('base64');
+}
+
+export function base64ToFloat32(text: string): Float32Array | null {
+  const bytes = Buffer.from(text, 'base64');
+  if (bytes.length % 4 !== 0) return null;
+  const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+  const out = new Float32Array(bytes.length / 4);
+  for (let i = 0; i < out.length; i++) out[i] = view.getFloat32(i * 4, true);
+  return out;
+}
+
 export function base64ToFloat64(text: string): Float64Array | null {
   const bytes = Buffer.from(text, 'base64');
   if (bytes.length % 8 !== 0) return null;
@@ -74,7 +91,7 @@ export function encodeBatch(b: Batch): EncodedBatch {
   return {
     first: b.first,
     count: b.count,
-    grid: float64ToBase64(b.grid),
+    grid: float32ToBase64(b.grid),
     figures: float64ToBase64(b.figures),
     status: Buffer.from(b.status).toString('base64'),
     regimenFigures: float64ToBase64(b.regimenFigures),
@@ -140,7 +157,7 @@ export function decodeBatch(e: EncodedBatch, plan: PopulationPlan): Read<Batch> 
   const T = plan.template.outputTimes.length;
   const variants = plan.regimens.length;
   const regimenColumns = plan.regimenLayout?.columns ?? 0;
-  const grid = base64ToFloat64(e.grid);
+  const grid = base64ToFloat32(e.grid);
   const figures = base64ToFloat64(e.figures);
   const regimenFigures = base64ToFloat64(e.regimenFigures);
   const status = new Uint8Array(Buffer.from(e.status, 'base64'));
@@ -160,7 +177,7 @@ export function decodeBatch(e: EncodedBatch, plan: PopulationPlan): Read<Batch> 
     value: {
       first: e.first,
       count: e.count,
-      grid: grid as Float64Array,
+      grid: grid as Float32Array,
       figures: figures as Float64Array,
       status,
       regimenFigures: regimenFigures as Float64Array,

@@ -10,8 +10,12 @@ import { NO_STEADY_STATE, runSubject, SubjectScratch, subjectVariant } from './s
 export interface Batch {
   first: number;
   count: number;
-  /** Concentrations: subject s, banded compartment b, output time j at (s·B + b)·T + j. */
-  grid: Float64Array;
+  /**
+   * Concentrations: subject s, banded compartment b, output time j at (s·B + b)·T + j, in single
+   * precision (relative rounding 6e-8, far below any band's sampling error): a year of hourly
+   * values for 1000 subjects is 70 MB rather than 140, and memory first touched costs time.
+   */
+  grid: Float32Array;
   /** Figures: subject s's row of layout.columns numbers. */
   figures: Float64Array;
   status: Uint8Array;
@@ -35,7 +39,7 @@ export function runBatch(plan: PopulationPlan, first: number, count: number, pro
   const batch: Batch = {
     first,
     count,
-    grid: new Float64Array(count * B * T),
+    grid: new Float32Array(count * B * T),
     figures: new Float64Array(count * columns),
     status: new Uint8Array(count),
     regimenFigures: new Float64Array(variants * count * regimenColumns),

@@ -73,7 +73,7 @@ export function runSubject(
   scenario: Scenario,
   layout: FigureLayout,
   variant: SubjectVariant,
-  grid: Float64Array | null,
+  grid: Float32Array | null,
   figures: Float64Array,
   scratch: SubjectScratch,
 ): SubjectResult {
@@ -129,7 +129,7 @@ export function runSubject(
   return { ok: true, value: outcome };
 }
 
-function sampleGrid(model: Model, layout: FigureLayout, trajectory: { sample(t: Float64Array, s: Uint8Array, w: (row: number, state: Float64Array) => void): void }, sides: Uint8Array, grid: Float64Array): void {
+function sampleGrid(model: Model, layout: FigureLayout, trajectory: { sample(t: Float64Array, s: Uint8Array, w: (row: number, state: Float64Array) => void): void }, sides: Uint8Array, grid: Float32Array): void {
   const times = model.outputTimes;
   const T = times.length;
   const banded = layout.banded;

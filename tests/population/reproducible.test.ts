@@ -83,14 +83,14 @@ describe('a cv of 0 is the typical subject', () => {
   const { population: _p, ...single } = scenario;
   const one = ok(simulate(single));
 
-  it('every band equals the single run at the output times, bit for bit', () => {
+  it('every band equals the single run at the output times, to the single precision the bands are kept in', () => {
     const c = one.compartments.find((s) => s.id === 'central')?.concentration;
     if (!c) throw new Error('no concentration');
     population.times.forEach((t, j) => {
       // The single run reports both sides of a dose; the bands are read just after it.
       let row = -1;
       for (let r = 0; r < one.times.length; r++) if (one.times[r] === t) row = r;
-      for (const q of ['5', '50', '95']) expect(population.bands.central[q][j]).toBe(c[row]);
+      for (const q of ['5', '50', '95']) expect(population.bands.central[q][j]).toBe(Math.fround(c[row]));
     });
   });
 
