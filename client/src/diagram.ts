@@ -3,8 +3,9 @@
  * (dosed and feeding compartments first), transfers as labelled arrows, elimination
  * arrows crossing the dashed body outline and leaving the drawing.
  */
+import { adjustedText, adjustmentAt } from './covariate-relations.ts';
 import { svg } from './dom.ts';
-import { quantityLabel, type UnitSet } from './quantity.ts';
+import { quantityLabel, type Dim, type UnitSet } from './quantity.ts';
 import type { ScenarioStore, TransferDoc } from './store.ts';
 
 const nodeW = 150;
@@ -22,16 +23,33 @@ interface Node {
   dosed: boolean;
 }
 
-/** The kinetics of a transfer as a short label: "k 0.9 1/h", "CL 4.2 L/h", "Vmax 20 mg/h · Km 4 mg/L". */
-export function kineticsLabel(t: TransferDoc, u: UnitSet): string {
-  if (t.vmax !== undefined || t.km !== undefined) return `Vmax ${quantityLabel(t.vmax, 'amountRate', u)} · Km ${quantityLabel(t.km, 'concentration', u)}`;
-  if (t.cl !== undefined) return `CL ${quantityLabel(t.cl, 'clearance', u)}`;
-  if (t.k !== undefined) return `k ${quantityLabel(t.k, 'rateConstant', u)}`;
+/** The mark of a value the covariate relations made for this subject, explained by the legend. */
+export const adjustedMark = '◆';
+
+/**
+ * A model quantity in a label: the last run's value for this subject with the mark when its
+ * covariate relations changed it (path given), else as written — for { typical, … }, the typical value.
+ */
+function modelQuantityLabel(q: unknown, dim: Dim, u: UnitSet, path?: string): string {
+  const related = typeof q === 'object' && q !== null && Array.isArray((q as { covariates?: unknown }).covariates);
+  const adjusted = path === undefined || !related ? null : adjustmentAt(path);
+  if (adjusted) return `${adjustedText(adjusted.value, dim, u)} ${adjustedMark}`;
+  const plain = typeof q === 'object' && q !== null && 'typical' in q ? (q as { typical: unknown }).typical : q;
+  return quantityLabel(plain, dim, u);
+}
+
+/** The kinetics of a transfer as a short label: "k 0.9 1/h", "CL 4.2 L/h", "Vmax 20 mg/h · Km 4 mg/L"; `path` (transfers[i]) marks values for this subject. */
+export function kineticsLabel(t: TransferDoc, u: UnitSet, path?: string): string {
+  const at = (key: string) => (path === undefined ? undefined : `${path}.${key}`);
+  if (t.vmax !== undefined || t.km !== undefined) return `Vmax ${modelQuantityLabel(t.vmax, 'amountRate', u, at('vmax'))} · Km ${modelQuantityLabel(t.km, 'concentration', u, at('km'))}`;
+  if (t.cl !== undefined) return `CL ${modelQuantityLabel(t.cl, 'clearance', u, at('cl'))}`;
+  if (t.k !== undefined) return `k ${modelQuantityLabel(t.k, 'rateConstant', u, at('k'))}`;
   return 'kinetics not set';
 }
 
 function layout(store: ScenarioStore): Node[] {
   const seen = new Set<string>();
+  const index = new Map(store.compartments.map((c, i) => [c, i]));
   const comps = store.compartments.filter((c) => {
     if (typeof c.id !== 'string' || c.id === '' || seen.has(c.id)) return false;
     seen.add(c.id);
@@ -87,7 +105,7 @@ function layout(store: ScenarioStore): Node[] {
     return {
       id,
       label: typeof c.label === 'string' ? c.label : '',
-      volume: c.volume === undefined ? null : quantityLabel(c.volume, 'volume', store.units),
+      volume: c.volume === undefined ? null : modelQuantityLabel(c.volume, 'volume', store.units, `compartments[${index.get(c)}].volume`),
       x: cx * colGap,
       y: row * rowGap + shift,
       dosed: dosed.has(id),
@@ -162,6 +180,8 @@ export function renderDiagram(store: ScenarioStore, host: HTMLElement): void {
   // Transfers between compartments: edges of one pair are fanned so both directions show.
   const pairs = new Map<string, TransferDoc[]>();
   const eliminations = new Map<string, TransferDoc[]>();
+  const transferPath = new Map(store.transfers.map((t, i) => [t, `transfers[${i}]`]));
+  const kinetics = (t: TransferDoc) => kineticsLabel(t, u, transferPath.get(t));
   for (const t of store.transfers) {
     const from = typeof t.from === 'string' ? byId.get(t.from) : undefined;
     if (!from) {
@@ -226,7 +246,7 @@ export function renderDiagram(store: ScenarioStore, host: HTMLElement): void {
       const dx = to.x - from.x;
       const dy = to.y - from.y;
       const glyph = Math.abs(dx) >= Math.abs(dy) ? (dx > 0 ? '→' : '←') : dy > 0 ? '↓' : '↑';
-      const text = list.length > 1 ? `${glyph} ${kineticsLabel(t, u)}` : kineticsLabel(t, u);
+      const text = list.length > 1 ? `${glyph} ${kinetics(t)}` : kinetics(t);
       let spot: [number, number] | null = null;
       let first: [number, number] | null = null;
       for (let dist = outermost + 10 + k * 15, tries = 0; tries < 6 && !spot; dist += 15, tries++) {
@@ -246,7 +266,7 @@ export function renderDiagram(store: ScenarioStore, host: HTMLElement): void {
       taken.push(labelBox(lx, ly, text, anchor));
       labelsLayer.append(label(lx, ly, text, anchor));
       textBox(box, lx, ly, text, anchor);
-      described.push(`${from.id} to ${to.id}: ${kineticsLabel(t, u)}`);
+      described.push(`${from.id} to ${to.id}: ${kinetics(t)}`);
     });
   }
 
@@ -268,7 +288,7 @@ export function renderDiagram(store: ScenarioStore, host: HTMLElement): void {
           'marker-end': 'url(#tm-arrow-out)',
         }),
       );
-      const text = kineticsLabel(t, u);
+      const text = kinetics(t);
       const anchor = spread < 0 ? 'end' : 'start';
       const lx = x1 + (spread < 0 ? -8 : 8);
       const ly = bodyBottom + 22;
@@ -342,6 +362,13 @@ export function renderDiagram(store: ScenarioStore, host: HTMLElement): void {
   root.style.minWidth = `${Math.min(vw, 440).toFixed(0)}px`;
   root.append(title, desc, defs, body, bodyText, edgesLayer, nodesLayer, labelsLayer);
   host.replaceChildren(root);
+  if (described.some((d) => d.includes(adjustedMark)) || nodes.some((n) => n.volume?.includes(adjustedMark))) {
+    const legend = document.createElement('p');
+    legend.className = 'note diagram-legend';
+    legend.dataset.testid = 'diagram-legend';
+    legend.textContent = `${adjustedMark} for this subject, from covariate relations (the last run's values).`;
+    host.append(legend);
+  }
   if (skipped > 0) {
     const note = document.createElement('p');
     note.className = 'note';

@@ -25,6 +25,9 @@ import { addReportButton } from './report.ts';
 import { emptyScenario, formProblem, ScenarioStore, type ScenarioDoc } from './store.ts';
 import { renderPrintSummary } from './print-summary.ts';
 import { setUpPopulation } from './population-panel.ts';
+import { setSubjectOutcome, subjectOutcome } from './covariate-relations.ts';
+import { SubjectForm } from './subject-form.ts';
+import '../subject.css';
 import { renderTimeline } from './timeline.ts';
 
 const defaultSample = 'brennock-oral-bid';
@@ -69,6 +72,7 @@ const modelForm = new ModelForm(store, byId('model-form'), hooks);
 const regimenForm = new RegimenForm(store, byId('regimen-form'), hooks);
 const outputForm = new OutputForm(store, byId('output-form'), hooks);
 const population = setUpPopulation(store, hooks, errors);
+const subjectForm = new SubjectForm(store, byId('subject-form'), hooks.rerender);
 
 function renderScenarioFields(): void {
   const host = byId('scenario-fields');
@@ -79,6 +83,7 @@ function renderScenarioFields(): void {
 
 function renderForms(): void {
   renderScenarioFields();
+  subjectForm.render();
   modelForm.render();
   regimenForm.render();
   outputForm.render();
@@ -121,6 +126,9 @@ store.subscribe((kind, path) => {
   }
   if (kind === 'replaced') {
     population.replaced();
+    // A scenario that describes its subject opens the Subject section; one without folds it.
+    byId<HTMLDetailsElement>('subject-details').open = store.scenario.subject !== undefined;
+    setSubjectOutcome(null, store.units);
     renderForms();
   }
   else scheduleDraw();
@@ -194,6 +202,10 @@ async function run(): Promise<void> {
       lastScenario = sent;
       lastRevision = revision;
       errors.clear();
+      // The subject's covariates and adjusted quantities go beside the fields and on the diagram.
+      const hadSubject = subjectOutcome() !== null;
+      setSubjectOutcome(lastResult.subject, store.units);
+      if (hadSubject || lastResult.subject) hooks.rerender();
       controls.setResult(lastResult);
       showResult();
       const d = lastResult.diagnostics;

@@ -5,6 +5,7 @@
 import { fmt } from '../../models/result/summary-text.ts';
 import { h } from './dom.ts';
 import { button, compartmentField, type QuantityOptions, refreshCompartmentSelects, selectField, textField } from './fields.ts';
+import { relationsControl } from './covariate-relations.ts';
 import { variableQuantityField } from './population-variability.ts';
 import { isNumberText, scenarioUnitOf, splitQuantity, unitSize, type Dim, type UnitSet } from './quantity.ts';
 import type { CompartmentDoc, ScenarioStore, TransferDoc } from './store.ts';
@@ -64,9 +65,12 @@ export class ModelForm {
 
   private readonly undo: UndoOffer;
 
-  /** A quantity field with its "varies between subjects" toggle (population runs). */
+  /** A quantity field with its "varies between subjects" toggle (population runs) and its covariate relations. */
   private varying(opts: QuantityOptions): HTMLElement {
-    return variableQuantityField(this.store, opts, (focusAfter) => this.hooks.rerender(focusAfter));
+    const rerender = (focusAfter?: string) => this.hooks.rerender(focusAfter);
+    const field = variableQuantityField(this.store, opts, rerender);
+    field.append(relationsControl(this.store, opts.path, opts.dim, rerender));
+    return field;
   }
 
   render(): void {
