@@ -1,12 +1,12 @@
 /**
  * `npm run bench:population`, and the child process of each population run of the benchmark
- * (`node dist/bench/population.mjs run <saturable> <subjects> <step>` prints one JSON line).
+ * (`node dist/bench/population.mjs run <saturable> <subjects> <step> [end]` prints one JSON line).
  */
 import { measurePopulation, populationReport, runHere } from './population.ts';
 
-const [mode, saturable, subjects, step] = process.argv.slice(2);
+const [mode, saturable, subjects, step, end] = process.argv.slice(2);
 if (mode === 'run') {
-  const r = await runHere(saturable === 'true', Number(subjects), Number(step));
+  const r = await runHere(saturable === 'true', Number(subjects), Number(step), end === undefined ? undefined : Number(end));
   console.log(JSON.stringify(r));
 } else {
   console.log('Virtual populations');
