@@ -287,6 +287,13 @@ const FIRST_STEP_ACTION_LIMIT = 3;
 /** Knot states kept for this many pieces, first in first out (metrics walk the pieces in order). */
 const KNOT_PIECES_KEPT = 64;
 
+/** Knot offsets of a piece and the steps between them; the propagators are made when the plan is used again. */
+interface KnotPlan {
+  offsets: Float64Array;
+  nominal: Float64Array;
+  steps: SparsePropagator[] | null;
+}
+
 /** The exact solution as pieces: each starts at a breakpoint with its state just after the jumps. */
 export class LinearTrajectory implements Trajectory {
   readonly dimension: number;
@@ -300,7 +307,7 @@ export class LinearTrajectory implements Trajectory {
   private readonly inputs: readonly Float64Array[];
   /** Knot offsets from the piece start (shared plan) and the states there. */
   private readonly knotStates = new Map<number, { offsets: Float64Array; states: Float64Array }>();
-  private readonly knotPlans = new Map<string, { offsets: Float64Array; steps: SparsePropagator[] }>();
+  private readonly knotPlans = new Map<string, KnotPlan>();
   private readonly exactSteps = new Map<string, SparsePropagator>();
 
   constructor(
@@ -418,7 +425,17 @@ export class LinearTrajectory implements Trajectory {
     }
     states ??= new Float64Array(count * n);
     for (let i = 0; i < n; i++) states[i] = this.states[k * n + i];
-    for (let j = 1; j < count; j++) apply(plan.steps[j - 1], states.subarray((j - 1) * n, j * n), n, states.subarray(j * n, (j + 1) * n));
+    const input = this.inputs[this.keys[k]];
+    for (let j = 1; j < count; j++) {
+      const from = states.subarray((j - 1) * n, j * n);
+      const to = states.subarray(j * n, (j + 1) * n);
+      const h = plan.nominal[j - 1];
+      // A plan used once (one dosing cycle of a virtual subject) is marched by the action of
+      // the exponential where that is cheap; a plan that repeats keeps exact propagators.
+      if (plan.steps) apply(plan.steps[j - 1], from, n, to);
+      else if (this.matrixNorm * h <= FIRST_STEP_ACTION_LIMIT) this.act(from, h, input, to);
+      else apply(this.exactStep(h, this.keys[k]), from, n, to);
+    }
     const entry = { offsets: plan.offsets, states };
     this.knotStates.set(k, entry);
     return entry;
@@ -435,20 +452,21 @@ export class LinearTrajectory implements Trajectory {
     return step;
   }
 
-  private knotPlan(length: number, rateKey: number): { offsets: Float64Array; steps: SparsePropagator[] } {
+  private knotPlan(length: number, rateKey: number): KnotPlan {
     const key = `${rateKey}:${length.toPrecision(12)}`;
     const known = this.knotPlans.get(key);
-    if (known) return known;
+    if (known) {
+      // steps[j − 1] carries knot j − 1 to knot j by exactly its nominal step (the shared cache
+      // would hand out a propagator of a step up to 1e-12 shorter or longer, and knot states are
+      // where every evaluation between the grid points starts). The growing steps are the same
+      // doubles in every piece, so pieces of other lengths share all but their capped steps.
+      known.steps ??= Array.from(known.nominal, (h) => this.exactStep(h, rateKey));
+      return known;
+    }
     const list: number[] = [];
     const nominal: number[] = [];
     pieceKnotTimes(0, length, this.fastestRate, list, nominal);
-    const offsets = Float64Array.from(list);
-    // steps[j − 1] carries knot j − 1 to knot j by exactly its nominal step (the shared cache
-    // would hand out a propagator of a step up to 1e-12 shorter or longer, and knot states are
-    // where every evaluation between the grid points starts). The growing steps are the same
-    // doubles in every piece, so pieces of other lengths share all but their capped steps.
-    const steps = Array.from({ length: offsets.length - 1 }, (_, j) => this.exactStep(nominal[j], rateKey));
-    const plan = { offsets, steps };
+    const plan: KnotPlan = { offsets: Float64Array.from(list), nominal: Float64Array.from(nominal), steps: null };
     if (this.knotPlans.size >= KNOT_PIECES_KEPT) this.knotPlans.clear();
     this.knotPlans.set(key, plan);
     return plan;
