@@ -39,7 +39,7 @@ export interface FigureSpec {
   concentrationUnit: string;
 }
 
-interface Frame {
+export interface Frame {
   left: number;
   right: number;
   top: number;
@@ -91,6 +91,11 @@ function drawAxes(doc: PDFKit.PDFDocument, f: Frame, xAxis: Axis, yAxis: Axis, x
   for (const m of yAxis.minor) doc.moveTo(f.left, yOf(m)).lineTo(f.left + 3, yOf(m)).stroke();
   doc.restore();
   doc.save().lineWidth(0.7).strokeColor(palette.text).rect(f.left, f.top, f.right - f.left, f.bottom - f.top).stroke().restore();
+  drawTickMarks(doc, f, xAxis, yAxis, xOf, yOf);
+}
+
+/** Tick marks and their labels on the left and bottom edges (shared with the population bands). */
+export function drawTickMarks(doc: PDFKit.PDFDocument, f: Frame, xAxis: Axis, yAxis: Axis, xOf: (t: number) => number, yOf: (c: number) => number): void {
   doc.font(font.regular).fontSize(type.tiny).fillColor(palette.text);
   doc.save().lineWidth(0.6).strokeColor(palette.text);
   for (const t of yAxis.ticks) {

@@ -17,7 +17,7 @@ import type { Scenario } from '../../models/scenario/schema.ts';
 import { readShare } from '../../models/scenario/shares.ts';
 import { contentLeft, contentWidth, ensureSpace, font, heading, keyValues, palette, paragraph, type } from './document.ts';
 import { fmt, percent, unitText } from './format.ts';
-import { thinned } from './plot.ts';
+import { drawTickMarks, thinned, type Frame } from './plot.ts';
 import { doseMarks } from './regimen.ts';
 import { drawTable, type Cell, type TableSpec } from './table.ts';
 
@@ -225,35 +225,12 @@ interface BandSpec {
   concentrationUnit: string;
 }
 
-interface Frame {
-  left: number;
-  right: number;
-  top: number;
-  bottom: number;
-}
-
 function drawGridAndTicks(doc: PDFKit.PDFDocument, f: Frame, xAxis: Axis, yAxis: Axis, xOf: (t: number) => number, yOf: (c: number) => number): void {
   doc.save().lineWidth(0.35).strokeColor('#dde2e7');
   for (const t of yAxis.ticks) doc.moveTo(f.left, yOf(t.value)).lineTo(f.right, yOf(t.value)).stroke();
   for (const t of xAxis.ticks) doc.moveTo(xOf(t.value), f.top).lineTo(xOf(t.value), f.bottom).stroke();
   doc.restore();
-  doc.font(font.regular).fontSize(type.tiny).fillColor(palette.text);
-  doc.save().lineWidth(0.6).strokeColor(palette.text);
-  for (const t of yAxis.ticks) {
-    const y = yOf(t.value);
-    doc.moveTo(f.left - 3, y).lineTo(f.left, y).stroke();
-    doc.text(t.label, f.left - 46, y - type.tiny * 0.6, { width: 41, align: 'right', lineBreak: false });
-  }
-  let lastRight = -Infinity;
-  for (const t of xAxis.ticks) {
-    const x = xOf(t.value);
-    doc.moveTo(x, f.bottom).lineTo(x, f.bottom + 3).stroke();
-    const w = doc.widthOfString(t.label);
-    if (x - w / 2 < lastRight + 4) continue;
-    doc.text(t.label, x - w / 2, f.bottom + 5, { lineBreak: false });
-    lastRight = x + w / 2;
-  }
-  doc.restore();
+  drawTickMarks(doc, f, xAxis, yAxis, xOf, yOf);
 }
 
 /** A path through the thinned points of one series (clipped by the caller). */
