@@ -11,14 +11,9 @@ import { isNumberText, scenarioUnitOf, splitQuantity, unitSize, type Dim, type U
 import type { CompartmentDoc, ScenarioStore, TransferDoc } from './store.ts';
 import { UndoOffer } from './undo.ts';
 
-export interface FormHooks {
-  /** Re-render every form, keeping keyboard focus where it was. */
-  rerender(focusAfter?: string): void;
-  /** Say something in the polite status region. */
-  announce(message: string): void;
-  /** Forget field errors (their paths shift when rows are added or removed). */
-  clearErrors(): void;
-}
+import type { FormHooks } from './form-hooks.ts';
+
+export type { FormHooks };
 
 export type TransferKind = 'k' | 'cl' | 'mm';
 

@@ -4,7 +4,7 @@
  */
 import { h } from './dom.ts';
 import { button, compartmentField, numberField, quantityField, selectField } from './fields.ts';
-import type { FormHooks } from './model-form.ts';
+import type { FormHooks } from './form-hooks.ts';
 import { timeValue, type UnitSet } from './quantity.ts';
 import type { ScenarioDoc, ScenarioStore } from './store.ts';
 import { UndoOffer } from './undo.ts';

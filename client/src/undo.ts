@@ -6,7 +6,7 @@
  */
 import { h } from './dom.ts';
 import { button } from './fields.ts';
-import type { FormHooks } from './model-form.ts';
+import type { FormHooks } from './form-hooks.ts';
 import type { ScenarioDoc, ScenarioStore } from './store.ts';
 
 export interface Removal {
