@@ -61,9 +61,9 @@ export function adjustmentAt(path: string): Adjustment | null {
   return outcome?.subject.adjustments.find((a) => a.path === path) ?? null;
 }
 
-/** "4.87 L/h": an adjusted value in the scenario's unit of its dimension (the engine reports scenario units). */
-export function adjustedText(value: number, dim: Dim, units: UnitSet): string {
-  return `${fmt(value)} ${scenarioUnitOf(dim, units)}`;
+/** "4.87 L/h": an adjusted value in the scenario's unit of its dimension (the engine reports scenario units); a fraction (dim null, a bioavailability) has none. */
+export function adjustedText(value: number, dim: Dim | null, units: UnitSet): string {
+  return dim === null ? fmt(value) : `${fmt(value)} ${scenarioUnitOf(dim, units)}`;
 }
 
 /** Only the covariate relations' part of an adjustment (the words of a cv are about the population). */
@@ -148,10 +148,10 @@ function categoriesFor(store: ScenarioStore, on: string, factors: Record<string,
 const unfolded = new Set<string>();
 
 /**
- * The "depends on the subject" control for the quantity at `path` (dimension `dim`), to append
+ * The "depends on the subject" control for the quantity at `path` (dimension `dim`, null for a fraction), to append
  * to its field: the relations, and after a run the value the relations gave this subject.
  */
-export function relationsControl(store: ScenarioStore, path: string, dim: Dim, rerender: Rerender): HTMLElement {
+export function relationsControl(store: ScenarioStore, path: string, dim: Dim | null, rerender: Rerender): HTMLElement {
   const relations = relationsOf(store.get(path));
   const details = h('details', { class: 'relations', 'data-testid': `relations-${path}` });
   details.open = relations.length > 0 || unfolded.has(path);
@@ -181,7 +181,7 @@ export function relationsControl(store: ScenarioStore, path: string, dim: Dim, r
 }
 
 /** "typical 6 L/h → 4.87 L/h for this subject", with the relations in words; null before a run that adjusted it. */
-function adjustmentNote(path: string, dim: Dim): HTMLElement | null {
+function adjustmentNote(path: string, dim: Dim | null): HTMLElement | null {
   const a = adjustmentAt(path);
   if (!a || !outcome) return null;
   const u = outcome.units;

@@ -1,12 +1,14 @@
 /**
  * The population form: how many virtual subjects, the seed, the percentiles, the targets a
  * subject attains or not, and the covariate distributions the subjects are drawn from. It
- * edits `population` in the store by JSON path like the other forms; fields it does not show
- * (correlations, residual error, regimen grid, covariate table) are kept as they are.
+ * edits `population` in the store by JSON path like the other forms. Correlations, residual
+ * error, the regimen grid and the periods are folded sections of their own
+ * (population-extras.ts); the covariate table, which it does not show, is kept as it is.
  */
 import { fieldId, h } from './dom.ts';
 import { button, compartmentField, numberField, quantityField, selectField, textField } from './fields.ts';
 import type { FormHooks } from './model-form.ts';
+import { PopulationExtras } from './population-extras.ts';
 import { cvValue } from './population-variability.ts';
 import { isNumberText } from './quantity.ts';
 import type { ScenarioStore } from './store.ts';
@@ -104,6 +106,7 @@ export class PopulationForm {
       ),
       this.targetsGroup(),
       this.covariatesGroup(),
+      ...new PopulationExtras(this.store, this.hooks).render(),
       h('div', { class: 'row-actions' }, button('Remove the population', { class: 'quiet', 'data-focus-key': 'remove-population' }, () => this.remove())),
     );
   }

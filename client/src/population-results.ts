@@ -1,6 +1,7 @@
 /**
  * A population result on the page: the caution first; percentile bands over time for one
- * compartment (the outer percentiles shaded, the median drawn); each target's attainment as a
+ * compartment (the outer percentiles shaded, the median drawn, and with a residual error the
+ * outer percentiles of simulated observations as a dashed outline); each target's attainment as a
  * bar with its Monte Carlo standard error in words; histograms of the headline period's trough
  * and Cmax; and the regimen grid as a table coloured by attainment, the best row marked in text.
  * Styles are set through CSSOM only (the page's Content-Security-Policy allows no inline style).
@@ -15,6 +16,9 @@ Chart.register(LineController, LineElement, PointElement, LinearScale, Filler, T
 type XY = { x: number; y: number };
 
 const bandColour = '#1f6f8b';
+/** Simulated observations: a warm colour apart from the teal band, dashed so it reads in grey print too. */
+const observationColour = '#b4532a';
+export const observationLabel = 'simulated observations (with residual error)';
 
 /** The shaded band's edges and the median line, by percentile key. */
 export function bandKeys(percentiles: string[]): { low: string; mid: string; high: string } {
@@ -62,7 +66,13 @@ export class PopulationView {
     const keys = bandKeys(result.percentiles);
     this.host.append(
       h('p', { class: 'population-caution', role: 'note', 'data-testid': 'population-caution' }, result.caution),
-      h('p', { class: 'note' }, `${result.subjects} virtual subjects, seed ${result.seed}. `, `Shaded: ${keys.low}th to ${keys.high}th percentile; line: ${keys.mid === '50' ? 'median' : `${keys.mid}th percentile`}.`),
+      h(
+        'p',
+        { class: 'note' },
+        `${result.subjects} virtual subjects, seed ${result.seed}. `,
+        `Shaded: ${keys.low}th to ${keys.high}th percentile; line: ${keys.mid === '50' ? 'median' : `${keys.mid}th percentile`}.`,
+        result.observationBands ? ` Dashed: the ${keys.low}th and ${keys.high}th percentiles of simulated observations, the concentrations with the residual error added.` : '',
+      ),
       h('div', { class: 'field population-compartment-field' }, h('label', { for: 'population-compartment' }, 'Compartment'), select),
       bandsBox,
       figures,
@@ -81,6 +91,7 @@ export class PopulationView {
       // Filled down to the dataset before it: the area between the outer percentiles.
       { label: `${low}th to ${high}th percentile`, data: points(result.times, bands[high]), borderColor: 'rgba(31, 111, 139, 0.35)', backgroundColor: 'rgba(31, 111, 139, 0.18)', borderWidth: 1, pointRadius: 0, fill: '-1' },
       { label: mid === '50' ? 'median' : `${mid}th percentile`, data: points(result.times, bands[mid]), borderColor: bandColour, backgroundColor: bandColour, borderWidth: 2, pointRadius: 0, fill: false },
+      ...observationDatasets(result, this.compartment),
     ];
     if (this.chart) {
       this.chart.data.datasets = datasets;
@@ -100,8 +111,9 @@ export class PopulationView {
           x: { type: 'linear', min: result.times[0], max: result.times[result.times.length - 1], ticks: { includeBounds: false }, title: { display: true, text: `Time (${u.time})` } },
           y: { type: 'linear', beginAtZero: true, title: { display: true, text: `Concentration (${u.concentration})` } },
         },
-        // The band's lower edge has no legend entry of its own: the shaded entry names both ends.
-        plugins: { legend: { position: 'bottom', labels: { filter: (item) => item.datasetIndex !== 0 } }, tooltip: { callbacks: { label: (c) => `${c.dataset.label ?? ''}: ${fmt(c.parsed.y)} ${u.concentration}` } } },
+        // The band's lower edge has no legend entry of its own: the shaded entry names both ends;
+        // likewise the observations' outline is one entry for its two dashed edges.
+        plugins: { legend: { position: 'bottom', labels: { filter: (item, data) => item.datasetIndex !== 0 && !isObservationLow(data.datasets[item.datasetIndex ?? 0]?.label) } }, tooltip: { callbacks: { label: (c) => `${c.dataset.label ?? ''}: ${fmt(c.parsed.y)} ${u.concentration}` } } },
       },
     });
   }
@@ -178,6 +190,27 @@ export class PopulationView {
     if (w.length === 0) return null;
     return h('section', { class: 'population-block' }, h('h3', {}, 'Warnings'), h('ul', {}, ...w.map((x) => h('li', {}, x))));
   }
+}
+
+const observationLowSuffix = 'th percentile of simulated observations';
+
+function isObservationLow(label: string | undefined): boolean {
+  return label !== undefined && label.endsWith(observationLowSuffix);
+}
+
+/**
+ * The outer percentiles of simulated observations (present when the scenario has a residual
+ * error) as two dashed lines, unfilled, so the concentration band stays readable beneath.
+ */
+function observationDatasets(result: PopulationResult, compartment: string): ChartDataset<'line', XY[]>[] {
+  const bands = result.observationBands?.[compartment];
+  if (!bands) return [];
+  const { low, high } = bandKeys(result.percentiles);
+  const style = { borderColor: observationColour, backgroundColor: 'rgba(0, 0, 0, 0)', borderWidth: 1.5, pointRadius: 0, fill: false } as const;
+  return [
+    { ...style, borderDash: [6, 4], label: `${low}${observationLowSuffix}`, data: points(result.times, bands[low]) },
+    { ...style, borderDash: [6, 4], label: observationLabel, data: points(result.times, bands[high]) },
+  ];
 }
 
 /** Light to deep teal by share; white text on the deep end for contrast. */

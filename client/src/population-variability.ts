@@ -28,26 +28,35 @@ export function cvValue(text: string): string | number | undefined {
 }
 
 export function variableQuantityField(store: ScenarioStore, opts: QuantityOptions, rerender: Rerender): HTMLElement {
-  const value = store.get(opts.path);
+  return variableField(store, opts.path, (path) => quantityField(store, { ...opts, path }), rerender);
+}
+
+/**
+ * Any field that may vary between subjects: `makeField` draws the plain value's field at the
+ * path it is given (the quantity's own path, or `.typical` once it is an object), and the toggle
+ * with cv and name goes under it. `cvTitle` says how the quantity varies (log-normal unless told).
+ */
+export function variableField(store: ScenarioStore, path: string, makeField: (path: string) => HTMLElement, rerender: Rerender, cvTitle = 'Between-subject coefficient of variation: log-normal around the typical value'): HTMLElement {
+  const value = store.get(path);
   const adjusted = isObject(value);
   const varies = adjusted && value.cv !== undefined;
-  const field = quantityField(store, adjusted ? { ...opts, path: `${opts.path}.typical` } : opts);
-  const toggleId = `${fieldId(opts.path)}-varies`;
-  const toggle = h('input', { type: 'checkbox', id: toggleId, 'data-focus-key': `varies:${opts.path}`, 'data-testid': `varies-${opts.path}`, checked: varies });
+  const field = makeField(adjusted ? `${path}.typical` : path);
+  const toggleId = `${fieldId(path)}-varies`;
+  const toggle = h('input', { type: 'checkbox', id: toggleId, 'data-focus-key': `varies:${path}`, 'data-testid': `varies-${path}`, checked: varies });
   toggle.addEventListener('change', () => {
-    setVarying(store, opts.path, toggle.checked);
-    rerender(toggle.checked ? `path:${opts.path}.cv` : `key:varies:${opts.path}`);
+    setVarying(store, path, toggle.checked);
+    rerender(toggle.checked ? `path:${path}.cv` : `key:varies:${path}`);
   });
   const box = h('div', { class: 'varies' }, h('span', { class: 'varies-toggle' }, toggle, h('label', { for: toggleId }, 'varies between subjects')));
   if (varies) {
     const cv = textField(store, {
-      path: `${opts.path}.cv`,
+      path: `${path}.cv`,
       label: 'cv',
       placeholder: 'e.g. 30%',
-      onInput: (text) => store.set(`${opts.path}.cv`, cvValue(text) ?? ''),
+      onInput: (text) => store.set(`${path}.cv`, cvValue(text) ?? ''),
     });
-    const name = textField(store, { path: `${opts.path}.name`, label: 'Name', placeholder: 'e.g. CL', maxLength: 40 });
-    cv.querySelector('input')?.setAttribute('title', 'Between-subject coefficient of variation: log-normal around the typical value');
+    const name = textField(store, { path: `${path}.name`, label: 'Name', placeholder: 'e.g. CL', maxLength: 40 });
+    cv.querySelector('input')?.setAttribute('title', cvTitle);
     box.append(h('div', { class: 'varies-fields' }, cv, name));
   }
   field.append(box);

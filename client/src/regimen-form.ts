@@ -1,10 +1,14 @@
 /**
  * The regimen form: one card per dose line (compartment, amount, first time, bolus or
- * infusion, bioavailability, lag, repeats), and the loading-dose shortcut.
+ * infusion, bioavailability, lag, repeats), and the loading-dose shortcut. Bioavailability and
+ * lag may depend on the subject (covariate relations) and vary between subjects (a cv:
+ * logit-normal for the bioavailability, which stays within 0 and 1; log-normal for the lag).
  */
 import { h } from './dom.ts';
+import { relationsControl } from './covariate-relations.ts';
 import { button, compartmentField, numberField, quantityField, selectField, textField } from './fields.ts';
 import type { FormHooks } from './model-form.ts';
+import { variableField, variableQuantityField } from './population-variability.ts';
 import { addTime, quantityLabel, scaleQuantity } from './quantity.ts';
 import type { DoseDoc, ScenarioStore } from './store.ts';
 import { UndoOffer } from './undo.ts';
@@ -96,8 +100,8 @@ export class RegimenForm {
           onChange: (v) => this.setForm(i, v as DoseForm),
         }),
         infusionField,
-        numberField(this.store, { path: `${p}.bioavailability`, label: 'Bioavailability F', placeholder: '1', hint: '0 to 1 (or a percentage)', percent: true }),
-        quantityField(this.store, { path: `${p}.lag`, label: 'Lag time', dim: 'time', placeholder: '0' }),
+        this.bioavailabilityField(`${p}.bioavailability`),
+        this.lagField(`${p}.lag`),
       ),
       h(
         'div',
@@ -120,6 +124,27 @@ export class RegimenForm {
         h('div', { class: 'field remove' }, button('Remove', { 'data-focus-key': `remove-dose-${i}`, 'aria-label': `Remove dose line ${i + 1}`, class: 'quiet' }, () => this.removeDose(i))),
       ),
     );
+  }
+
+  /** F: a plain fraction, or { typical, covariates?, cv?, name? } (logit-normal between subjects). */
+  private bioavailabilityField(path: string): HTMLElement {
+    const rerender = (focusAfter?: string) => this.hooks.rerender(focusAfter);
+    const field = variableField(
+      this.store,
+      path,
+      (at) => numberField(this.store, { path: at, label: 'Bioavailability F', placeholder: '1', hint: '0 to 1 (or a percentage)', percent: true, required: at !== path }),
+      rerender,
+      'Between-subject coefficient of variation at the typical value: logit-normal, so F stays within 0 and 1',
+    );
+    field.append(relationsControl(this.store, path, null, rerender));
+    return field;
+  }
+
+  private lagField(path: string): HTMLElement {
+    const rerender = (focusAfter?: string) => this.hooks.rerender(focusAfter);
+    const field = variableQuantityField(this.store, { path, label: 'Lag time', dim: 'time', placeholder: '0' }, rerender);
+    field.append(relationsControl(this.store, path, 'time', rerender));
+    return field;
   }
 
   private setForm(i: number, form: DoseForm): void {

@@ -77,7 +77,7 @@ describe('the population panel in Chromium', () => {
     await subjects.fill('60');
     expect(await page.evaluate(() => (window.__tidemark.scenario.population as { subjects: number }).subjects)).toBe(60);
     await page.getByTestId('run-population').click();
-    await page.waitForFunction(() => window.__tidemarkPopulation.result !== null && (window.__tidemarkPopulation.chart?.data.datasets.length ?? 0) === 3, undefined, { timeout: stepTimeout });
+    await page.waitForFunction(() => window.__tidemarkPopulation.result !== null && (window.__tidemarkPopulation.chart?.data.datasets.length ?? 0) === 5, undefined, { timeout: stepTimeout });
     const shown = await page.evaluate(() => {
       const chart = window.__tidemarkPopulation.chart!;
       return {
@@ -88,9 +88,10 @@ describe('the population panel in Chromium', () => {
         result: window.__tidemarkPopulation.result,
       };
     });
-    expect(shown.labels).toEqual(['5th percentile', '5th to 95th percentile', 'median']);
+    // The sample has a residual error: the simulated observations' outer percentiles follow, unfilled.
+    expect(shown.labels).toEqual(['5th percentile', '5th to 95th percentile', 'median', '5th percentile of simulated observations', 'simulated observations (with residual error)']);
     // The shaded area lies between the outer percentiles (chart.js fill to the dataset before).
-    expect(shown.fills).toEqual([false, '-1', false]);
+    expect(shown.fills).toEqual([false, '-1', false, false, false]);
     expect((shown.sent as { population: { subjects: number } }).population.subjects).toBe(60);
     const api = await apiPopulation(shown.sent);
     expect(api.state).toBe('done');
