@@ -15,6 +15,7 @@ import { choosePath, solveSchedule, type Solution, type SolutionPath } from './s
 import { outputRows } from './result/output-rows.ts';
 import { formatNumber } from './result/format-number.ts';
 import { emptyStats, IntegrationFailure, type SolverStats } from './solving/numerics/ode-system.ts';
+import { releaseTrajectory } from './solving/numerics/dense-store.ts';
 import { realStabilityLimit } from './solving/numerics/stability.ts';
 import type { Outcome, Problem } from './scenario/problems.ts';
 import type { SolverMethod } from './scenario/schema.ts';
@@ -124,6 +125,8 @@ export function simulateModel(model: Model): Outcome<SimulationResult> {
   if (steady?.reached) warnings.push(...courseEndWarnings(model, steady));
 
   const units = resultUnits(model);
+  // Everything is read off the solution: its dense output goes back for the next run in this thread.
+  releaseTrajectory(solution.trajectory);
   return {
     ok: true,
     value: {

@@ -19,6 +19,7 @@ import type { Model } from '../building/model.ts';
 import type { SolverStats } from '../solving/numerics/ode-system.ts';
 import { formatNumber } from '../result/format-number.ts';
 import { solveSchedule } from '../solving/solve.ts';
+import { releaseTrajectory } from '../solving/numerics/dense-store.ts';
 import { iteratedApproach, type Approach, type Work } from './steady-state/approach.ts';
 import { capacityAccount, capacityProblem } from './steady-state/capacity.ts';
 import { cycleAdministrations, givenAdministrations, maintenanceLines, maintenancePeriod, reachableFrom, trappedCompartments } from './steady-state/cycle.ts';
@@ -130,7 +131,10 @@ function cycleMap(model: Model, system: CompartmentSystem, schedule: CycleMap['s
       map.runs++;
       work.cycles++;
       work.integrations++;
-      return solveSchedule(model, system, schedule, y, stats).final;
+      const run = solveSchedule(model, system, schedule, y, stats);
+      // Only the end state is kept: the cycle's dense output goes back for the next cycle.
+      releaseTrajectory(run.trajectory);
+      return run.final;
     },
   };
   return map;
@@ -265,6 +269,8 @@ export function steadyStateFigures(
       windows: f.overall.windows,
     };
   });
+  const profile = options.profile ? cycleProfile(cycleModel, run.trajectory, schedule, y0) : null;
+  releaseTrajectory(run.trajectory);
   const labels: (string | null)[] = [];
   for (const l of model.doseLines) labels[l.line] = l.label;
   const regimen = lines.map((l) => doseLineName(l.line, labels)).join(' and ');
@@ -279,7 +285,7 @@ export function steadyStateFigures(
     compartments,
     approachDefinition: APPROACH_DEFINITION,
     work: spent(),
-    profile: options.profile ? cycleProfile(cycleModel, run.trajectory, schedule, y0) : null,
+    profile,
   };
 }
 

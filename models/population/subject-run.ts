@@ -15,6 +15,7 @@ import type { Problem } from '../scenario/problems.ts';
 import type { Period, Scenario } from '../scenario/schema.ts';
 import { emptyStats, IntegrationFailure } from '../solving/numerics/ode-system.ts';
 import { solveSchedule } from '../solving/solve.ts';
+import { releaseTrajectory } from '../solving/numerics/dense-store.ts';
 import { correlate } from './correlation.ts';
 import { STREAMS, subjectCovariates } from './covariates.ts';
 import { FIGURES, type FigureLayout } from './layout.ts';
@@ -104,6 +105,8 @@ export function runSubject(
           writeWindow(layout, p, found, window, figures, plan.day);
         });
       }
+      // The next subject reuses the dense output's memory (nothing here holds the trajectory).
+      releaseTrajectory(solution.trajectory);
     }
     const steadyAt = layout.periods.indexOf('steady state');
     if (steadyAt >= 0) {

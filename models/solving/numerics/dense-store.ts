@@ -91,6 +91,31 @@ export function hermiteCoefficients(
 const chunkSize = 1 << 13;
 
 /**
+ * Chunks of released stores, kept for the next store in this thread (at most 32 MB): memory
+ * first touched costs about 3 ms per MB on these machines (the kernel maps and zero-fills each
+ * page), so a virtual population, which solves a new span for every subject, reuses the pages
+ * of the subject before. A released store is emptied, so evaluating it afterwards fails loudly.
+ */
+const freeChunks: Float64Array[] = [];
+const MAX_FREE_CHUNKS = (32 * 2 ** 20) / (8 * chunkSize);
+
+/** Step-record blocks of released stores, likewise (at most 64 blocks: 64k steps, 1.6 MB). */
+interface RecordBlock {
+  t0: Float64Array;
+  h: Float64Array;
+  chunk: Int32Array;
+  offset: Int32Array;
+  form: Uint8Array;
+}
+const freeBlocks: RecordBlock[] = [];
+const MAX_FREE_BLOCKS = 64;
+
+/** Gives a trajectory's storage back for reuse, when it has any (the dense store); the trajectory must not be used again. */
+export function releaseTrajectory(t: Trajectory): void {
+  if (t instanceof DenseStore) t.release();
+}
+
+/**
  * Step records (start, length, chunk, offset, form) live in blocks of this many steps, for
  * the same reason: a store that grew by doubling held up to twice the records it needed and,
  * while copying, three times.
@@ -251,7 +276,7 @@ export class DenseStore implements Trajectory {
     if (this.used + size > chunkSize) {
       const length = Math.max(chunkSize, size);
       this.claim(length * 8, t);
-      this.chunks.push(new Float64Array(length));
+      this.chunks.push(length === chunkSize && freeChunks.length > 0 ? (freeChunks.pop() as Float64Array) : new Float64Array(length));
       this.used = 0;
     }
     return this.used;
@@ -307,11 +332,12 @@ export class DenseStore implements Trajectory {
       grown.set(this.blockFirsts);
       this.blockFirsts = grown;
     }
-    this.t0Blocks.push(new Float64Array(blockSteps));
-    this.hBlocks.push(new Float64Array(blockSteps));
-    this.chunkBlocks.push(new Int32Array(blockSteps));
-    this.offsetBlocks.push(new Int32Array(blockSteps));
-    this.formBlocks.push(new Uint8Array(blockSteps));
+    const reused = freeBlocks.pop();
+    this.t0Blocks.push(reused?.t0 ?? new Float64Array(blockSteps));
+    this.hBlocks.push(reused?.h ?? new Float64Array(blockSteps));
+    this.chunkBlocks.push(reused?.chunk ?? new Int32Array(blockSteps));
+    this.offsetBlocks.push(reused?.offset ?? new Int32Array(blockSteps));
+    this.formBlocks.push(reused?.form ?? new Uint8Array(blockSteps));
   }
 
   stateAt(t: number, side: 'left' | 'right', out: Float64Array): void {
@@ -342,6 +368,23 @@ export class DenseStore implements Trajectory {
       this.evaluateStep(k, t, y);
       write(row, y);
     }
+  }
+
+  /** Hands the coefficient chunks to the next store and empties this one (any later evaluation throws). */
+  release(): void {
+    for (const c of this.chunks) if (c.length === chunkSize && freeChunks.length < MAX_FREE_CHUNKS) freeChunks.push(c);
+    for (let b = 0; b < this.t0Blocks.length && freeBlocks.length < MAX_FREE_BLOCKS; b++) {
+      freeBlocks.push({ t0: this.t0Blocks[b], h: this.hBlocks[b], chunk: this.chunkBlocks[b], offset: this.offsetBlocks[b], form: this.formBlocks[b] });
+    }
+    this.t0Blocks.length = 0;
+    this.hBlocks.length = 0;
+    this.chunkBlocks.length = 0;
+    this.offsetBlocks.length = 0;
+    this.formBlocks.length = 0;
+    this.chunks.length = 0;
+    this.count = 0;
+    this.used = chunkSize;
+    this.allocated = 0;
   }
 
   knots(from = -Infinity, to = Infinity): Float64Array {
