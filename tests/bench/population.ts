@@ -60,6 +60,12 @@ export interface PopulationRun {
   times: number;
   threads: number;
   seconds: number;
+  /** The parts of `seconds`: the plan, the threads (started, run, joined) and the summary. */
+  planSeconds: number;
+  threadSeconds: number;
+  summarySeconds: number;
+  /** From starting the threads until the first subject is done (engine load in the threads). */
+  firstSubjectSeconds: number;
   peakRssMb: number;
   subjectsWithoutSteadyState: number;
 }
@@ -120,17 +126,31 @@ async function runHere(saturable: boolean, subjects: number, step: number, end?:
   const start = performance.now();
   const plan = planPopulation(scenario);
   if (!plan.ok) throw new Error(JSON.stringify(plan.problems));
-  const options: ThreadOptions = { threads, worker: { kind: 'built', url: new URL(`file://${join(root, 'dist', 'server', 'population-worker.js')}`) } };
+  const planned = performance.now();
+  let firstDone = NaN;
+  const options: ThreadOptions = {
+    threads,
+    worker: { kind: 'built', url: new URL(`file://${join(root, 'dist', 'server', 'population-worker.js')}`) },
+    onProgress: (done) => {
+      if (done > 0 && Number.isNaN(firstDone)) firstDone = performance.now();
+    },
+  };
   const batches = await runThreads(scenario, {}, subjects, options);
   if (!batches.ok) throw new Error(JSON.stringify(batches.problems));
+  const ran = performance.now();
   const result = summarise(plan.value, batches.value);
   if (!result.ok) throw new Error(JSON.stringify(result.problems));
-  const seconds = (performance.now() - start) / 1000;
+  const finished = performance.now();
+  const seconds = (finished - start) / 1000;
   return {
     subjects,
     times: result.value.times.length,
     threads,
     seconds,
+    planSeconds: (planned - start) / 1000,
+    threadSeconds: (ran - planned) / 1000,
+    summarySeconds: (finished - ran) / 1000,
+    firstSubjectSeconds: (firstDone - planned) / 1000,
     peakRssMb: process.resourceUsage().maxRSS / 1024,
     subjectsWithoutSteadyState: result.value.diagnostics.subjectsWithoutSteadyState,
   };
@@ -162,7 +182,8 @@ export async function measurePopulation(): Promise<PopulationBench> {
 export function populationReport(b: PopulationBench): string {
   const f = (v: number, d = 2) => v.toFixed(d);
   const run = (name: string, r: PopulationRun, target: string) =>
-    `  ${name.padEnd(44)} ${f(r.seconds).padStart(7)} s  ${String(Math.round(r.peakRssMb)).padStart(5)} MB peak  (${r.subjects} subjects × ${r.times} times, ${r.threads} threads; ${target})`;
+    `  ${name.padEnd(44)} ${f(r.seconds).padStart(7)} s  ${String(Math.round(r.peakRssMb)).padStart(5)} MB peak  (${r.subjects} subjects × ${r.times} times, ${r.threads} threads; ${target})\n` +
+    `  ${''.padEnd(44)} plan ${f(r.planSeconds)} s, threads ${f(r.threadSeconds)} s (first subjects done after ${f(r.firstSubjectSeconds)} s), summary ${f(r.summarySeconds)} s`;
   return [
     `  per subject, one thread: population path ${f(b.perSubject.populationPathMs, 3)} ms, exact solve alone ${f(b.perSubject.exactSolveMs, 3)} ms: ${f(b.perSubject.ratio, 1)}×`,
     run('1,000 subjects, exact path, hourly bands', b.linear1000, `target < 1 s: ${b.linear1000.seconds < 1 ? 'PASS' : 'FAIL'}`),
