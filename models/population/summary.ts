@@ -130,7 +130,6 @@ export function summarise(plan: PopulationPlan, unordered: readonly Batch[]): Ou
   const N = plan.subjects;
   const layout = plan.layout;
   const model = plan.template;
-  const T = model.outputTimes.length;
   const B = layout.banded.length;
   const ids = layout.banded.map((c) => model.compartments[c].id);
   const column = new Float64Array(N);
@@ -143,7 +142,7 @@ export function summarise(plan: PopulationPlan, unordered: readonly Batch[]): Ou
   const bands = bandsOf(plan, batches, ids, null);
   const observationBands = plan.residual ? bandsOf(plan, batches, ids, plan.residual) : null;
 
-  const figureSummary = (l: FigureLayout, col: number, read: (batch: Batch, s: number, col: number) => number): FigureSummary => {
+  const figureSummary = (col: number, read: (batch: Batch, s: number, col: number) => number): FigureSummary => {
     gather((batch, s) => read(batch, s, col));
     return summarise1(column, N, plan);
   };
@@ -153,8 +152,8 @@ export function summarise(plan: PopulationPlan, unordered: readonly Batch[]): Ou
     const compartments: PeriodSummary['compartments'] = {};
     for (let b = 0; b < B; b++) {
       const figures = {} as Record<FigureName, FigureSummary>;
-      for (const f of FIGURES) figures[f] = figureSummary(layout, figureColumn(layout, p, b, f), mainRead);
-      const windows = layout.windows[b].map((k) => ({ label: windowLabel(layout.thresholds[k], plan), share: figureSummary(layout, windowColumn(layout, p, b, k), mainRead) }));
+      for (const f of FIGURES) figures[f] = figureSummary(figureColumn(layout, p, b, f), mainRead);
+      const windows = layout.windows[b].map((k) => ({ label: windowLabel(layout.thresholds[k], plan), share: figureSummary(windowColumn(layout, p, b, k), mainRead) }));
       compartments[ids[b]] = { ...figures, windows };
     }
     let undetermined = 0;

@@ -7,7 +7,7 @@ import type { Model } from '../building/model.ts';
 import type { Problem } from '../scenario/problems.ts';
 import type { Period, Population, Target } from '../scenario/schema.ts';
 import { readShare } from '../scenario/shares.ts';
-import { convertQuantity, convertToUnit, type UnitSystem } from '../scenario/units.ts';
+import { convertQuantity, convertToUnit } from '../scenario/units.ts';
 
 export type TargetMeasure = 'trough' | 'peak' | 'auc24' | 'above' | 'window';
 
@@ -137,4 +137,3 @@ export function meets(value: number, atLeast: number | null, atMost: number | nu
   return (atLeast === null || value >= atLeast) && (atMost === null || value <= atMost);
 }
 
-export type { UnitSystem };
