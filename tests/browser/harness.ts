@@ -12,7 +12,7 @@ import { fileURLToPath } from 'node:url';
 import { chromium, type Browser } from 'playwright-core';
 import { createApp, defaultServerLimits } from '../../server/app.ts';
 import { loadSamples } from '../../server/samples.ts';
-import { SimulationPool } from '../../server/worker-pool.ts';
+import { SimulationPool, type WorkerModule } from '../../server/worker-pool.ts';
 
 export const repoRoot = fileURLToPath(new URL('../../', import.meta.url));
 export const clientDir = join(repoRoot, 'dist/client');
@@ -85,9 +85,22 @@ export interface RunningServer {
 }
 
 /** The real app (API + built page) on 127.0.0.1 at a port the system chooses. */
+/**
+ * The population threads run the built worker, as the built server does (from the sources every
+ * thread would compile the engine through tsx first, seconds per run); built when stale, one
+ * build at a time.
+ */
+function builtPopulationWorker(): WorkerModule {
+  withBuildLock(() => {
+    const build = spawnSync('node', ['scripts/build-server.mjs', '--if-stale', '--quiet'], { cwd: repoRoot, encoding: 'utf8', timeout: 180_000 });
+    if (build.status !== 0) throw new Error(`building the server failed (status ${build.status}):\n${build.stderr}`);
+  });
+  return { kind: 'built', url: new URL(`file://${join(repoRoot, 'dist', 'server', 'population-worker.js')}`) };
+}
+
 export async function startServer(): Promise<RunningServer> {
   const pool = new SimulationPool({ size: 2, timeBudgetMs: 30_000, maxQueue: 16 });
-  const app = createApp({ pool, samples: loadSamples(), clientDir, limits: defaultServerLimits });
+  const app = createApp({ pool, samples: loadSamples(), clientDir, limits: defaultServerLimits, population: { worker: builtPopulationWorker() } });
   const server = await new Promise<Server>((resolve, reject) => {
     const s = app.listen(0, '127.0.0.1');
     s.once('listening', () => resolve(s));

@@ -2,6 +2,7 @@
 // small population's answer equals the engine's own single-thread run (same code, same
 // subjects' numbers, so equal, not merely close); progress moves; a cancel stops the threads;
 // the server's limits and the engine's problems answer 400 with the field's JSON path.
+import { spawnSync } from 'node:child_process';
 import { readFileSync } from 'node:fs';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -9,7 +10,9 @@ import { simulatePopulation } from '../../models/population/population.ts';
 import { createApp, defaultServerLimits, populationJobsOf } from '../../server/app.ts';
 import { defaultPopulationLimits } from '../../server/population-jobs.ts';
 import { loadSamples } from '../../server/samples.ts';
-import { SimulationPool } from '../../server/worker-pool.ts';
+import { SimulationPool, type WorkerModule } from '../../server/worker-pool.ts';
+
+const builtPopulationWorker: WorkerModule = { kind: 'built', url: new URL('../../dist/server/population-worker.js', import.meta.url) };
 
 type Scenario = Record<string, any>;
 const halvorin = JSON.parse(readFileSync('samples/halvorin-population-infusion.json', 'utf8')) as Scenario;
@@ -19,9 +22,13 @@ let pool: SimulationPool;
 let app: ReturnType<typeof createApp>;
 
 beforeAll(() => {
+  // The population threads run the built worker, as the built server does: from the sources
+  // every thread would compile the engine through tsx first, seconds per run. Built if stale.
+  const build = spawnSync('node', ['scripts/build-server.mjs', '--if-stale', '--quiet'], { encoding: 'utf8', timeout: 180_000 });
+  expect(build.status, build.stderr).toBe(0);
   pool = new SimulationPool({ size: 2, timeBudgetMs: 30_000, maxQueue: 8 });
-  app = createApp({ pool, samples: loadSamples(), clientDir: null, limits });
-});
+  app = createApp({ pool, samples: loadSamples(), clientDir: null, limits, population: { worker: builtPopulationWorker } });
+}, 180_000);
 afterAll(async () => {
   await populationJobsOf(app)?.close();
   await pool.close();
@@ -121,7 +128,7 @@ describe('POST /api/population: limits and problems', () => {
   });
 
   it('stops a run past its time budget and reports it as failed with the reason', async () => {
-    const hasty = createApp({ pool, samples: [], clientDir: null, limits, population: { limits: { timeBudgetMs: 1 } } });
+    const hasty = createApp({ pool, samples: [], clientDir: null, limits, population: { worker: builtPopulationWorker, limits: { timeBudgetMs: 1 } } });
     const res = await request(hasty).post('/api/population').send({ scenario: halvorin, subjects: 200 }).expect(202);
     const end = await until(hasty, res.body.id);
     expect(end).toEqual({ state: 'failed', problems: [{ path: 'population', message: expect.stringMatching(/longer than this server's budget of 0 s and was stopped/) }] });
