@@ -1,10 +1,10 @@
 /**
  * Covariate relations: each turns a quantity's typical value (its value at the reference
  * covariate) into the value for this subject by a multiplier —
- *   power        (c / ref)^θ            allometric scaling, e.g. θ = 0.75 on weight
- *   linear       1 + θ · (c − ref)
- *   exponential  exp(θ · (c − ref))
- *   factors      θ[category]            a multiplier per category (1 for one not listed)
+ *   power        (c / ref)^b            allometric scaling, e.g. b = 0.75 on weight
+ *   linear       1 + b · (c − ref)
+ *   exponential  exp(b · (c − ref))
+ *   factors      f[category]            a multiplier per category (1 for one not listed)
  * (the usual forms of covariate models; Mould & Upton 2012, CPT Pharmacometrics Syst Pharmacol 1:e6).
  */
 import type { Problem } from '../scenario/problems.ts';
@@ -48,20 +48,20 @@ export function applyRelation(relation: CovariateRelation, covariates: Covariate
   const c = covariate.value;
   const r = ref.value;
   const unit = covariate.unit ? ` ${covariate.unit}` : '';
-  const theta = relation[kind] as number;
+  const coefficient = relation[kind] as number;
   let multiplier: number;
   let words: string;
   if (kind === 'power') {
     if (!(r > 0)) return fail('.reference', 'must be positive for a power relation');
     if (!(c > 0)) return fail('.on', `${relation.on} is ${short(c)}; a power relation needs a positive covariate`);
-    multiplier = Math.pow(c / r, theta);
-    words = `× (${relation.on} / ${short(r)}${unit})^${short(theta)}`;
+    multiplier = Math.pow(c / r, coefficient);
+    words = `× (${relation.on} / ${short(r)}${unit})^${short(coefficient)}`;
   } else if (kind === 'linear') {
-    multiplier = 1 + theta * (c - r);
-    words = `× (1 + ${short(theta)} · (${relation.on} − ${short(r)}${unit}))`;
+    multiplier = 1 + coefficient * (c - r);
+    words = `× (1 + ${short(coefficient)} · (${relation.on} − ${short(r)}${unit}))`;
   } else {
-    multiplier = Math.exp(theta * (c - r));
-    words = `× exp(${short(theta)} · (${relation.on} − ${short(r)}${unit}))`;
+    multiplier = Math.exp(coefficient * (c - r));
+    words = `× exp(${short(coefficient)} · (${relation.on} − ${short(r)}${unit}))`;
   }
   if (!(multiplier > 0 && Number.isFinite(multiplier))) {
     return fail('', `gives a multiplier of ${short(multiplier)} for ${relation.on} = ${short(c)}${unit}; the quantity must stay positive and finite`);
