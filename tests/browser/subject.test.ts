@@ -9,33 +9,21 @@
 // The screenshot goes to tests/artifacts/subject.png (git-ignored).
 import { mkdirSync } from 'node:fs';
 import { join } from 'node:path';
-import type { Browser, BrowserContext, Page } from 'playwright-core';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { ensureClientBuilt, launchChromium, repoRoot, startServer, type RunningServer } from './harness.ts';
-import { afterNewResult, choose, field, openApp, runAndWait, typeInto, type PageRecord } from './page-helpers.ts';
+import type { Page } from 'playwright-core';
+import { describe, expect, it } from 'vitest';
+import { repoRoot } from './harness.ts';
+import { afterNewResult, choose, field, runAndWait, typeInto, type PageRecord } from './page-helpers.ts';
+import { useBrowserSession } from './session.ts';
 
 const stepTimeout = 120_000;
 const clPath = 'transfers[1].cl';
 
-let server: RunningServer | null = null;
-let browser: Browser | null = null;
-let context: BrowserContext;
 let page: Page;
 let record: PageRecord;
 
-beforeAll(async () => {
-  ensureClientBuilt();
-  browser = await launchChromium();
-  server = await startServer();
-  context = await browser.newContext({ viewport: { width: 1366, height: 900 }, deviceScaleFactor: 1, acceptDownloads: false });
+useBrowserSession(stepTimeout, async (s) => {
+  ({ page, record } = s);
   // The default sample (brennock, one compartment with an oral depot) is opened and run.
-  ({ page, record } = await openApp(context, server.baseUrl));
-}, stepTimeout);
-
-afterAll(async () => {
-  await context?.close();
-  await browser?.close();
-  await server?.close();
 });
 
 // The subject typed below.
