@@ -45,7 +45,7 @@ export const entries = {
   'population-worker': 'server/population-worker.ts',
 };
 /** Packages left to node's own loading (see above). */
-const external = ['pdfkit', 'express', 'helmet'];
+const external = ['pdfkit', 'express', 'helmet', 'better-sqlite3'];
 /** The program's file name, for the `bin` line. */
 const programEntry = 'cli';
 const infoFile = 'build-info.json';
