@@ -13,6 +13,9 @@ import { readReportRequest, reportFileNameOf } from './report/request.ts';
 import { defaultPopulationLimits, PopulationJobs, stateJson, type PopulationLimits } from './population-jobs.ts';
 import type { Sample } from './samples.ts';
 import type { SimulationPool, WorkerModule } from './worker-pool.ts';
+import type { StoreHandle } from './store/handle.ts';
+import { checkLink, linkOf, recordIssuedReport, recordSimulation } from './store/recording.ts';
+import { storeRouter, type Validate } from './store/routes.ts';
 
 export interface ServerLimits {
   /** Largest request body accepted, e.g. '2mb'. */
@@ -60,6 +63,11 @@ export interface AppOptions {
    * built one) and this server's limits (defaults: defaultPopulationLimits).
    */
   population?: { threads?: number; worker?: WorkerModule; limits?: Partial<PopulationLimits> };
+  /**
+   * The scenario store (server/store/): scenarios, versions, runs and issued reports. Without
+   * one, GET /api/store says so and the store's routes answer 503.
+   */
+  store?: StoreHandle;
 }
 
 const populationJobsOfApp = new WeakMap<express.Express, PopulationJobs>();
@@ -115,6 +123,22 @@ export function allowedHostsFor(listenHost: string, extra?: string): readonly st
 function quoted(text: string): string {
   const plain = text.replace(/[\u0000-\u001f\u007f]/g, '?');
   return `'${plain.length > 80 ? `${plain.slice(0, 80)}…` : plain}'`;
+}
+
+/** A header value: printable ASCII only (a message may hold any character), cut short. */
+function headerText(text: string): string {
+  const plain = text.replace(/[^\x20-\x7e]/g, '?');
+  return plain.length > 300 ? `${plain.slice(0, 300)}...` : plain;
+}
+
+/** A scenario to be saved is checked in the pool, as a run would read it. */
+function validator(options: AppOptions): Validate {
+  return async (scenario) => {
+    const reply = await options.pool.run({ kind: 'validate', scenario, maxOutputPoints: limits.outputPoints });
+    if (reply.status === 200) return null;
+    const body = typeof reply.body === 'string' ? (JSON.parse(reply.body) as { problems?: Problem[] }) : {};
+    return { status: reply.status === 422 ? 400 : reply.status, problems: body.problems ?? [{ path: '', message: 'the scenario could not be checked' }] };
+  };
 }
 
 function sendProblems(res: Response, status: number, problems: Problem[]): void {
@@ -205,8 +229,15 @@ export function createApp(options: AppOptions): express.Express {
   });
   populationJobsOfApp.set(app, population);
 
+  // ?scenario=ID&version=V records the run against that stored version (when the body is it).
   api.post('/simulate', json, async (req: Request, res: Response) => {
+    const link = linkOf(req.query);
+    const startedAt = new Date();
     const reply = await options.pool.run({ kind: 'simulate', scenario: req.body, ...answerLimits });
+    if (link !== null && reply.status === 200 && typeof reply.body === 'string') {
+      const recorded = 'problem' in link ? `not recorded; ${link.problem}` : options.store ? recordSimulation(options.store, link, req.body, reply.body, startedAt, Date.now() - startedAt.getTime()) : 'not recorded; this server has no store';
+      res.set('X-Tidemark-Run', headerText(recorded));
+    }
     res.status(reply.status).type(reply.contentType).send(reply.body);
   });
 
@@ -214,8 +245,20 @@ export function createApp(options: AppOptions): express.Express {
   // same JSON problems as /simulate otherwise (400 invalid, 422 numerical failure).
   api.post('/report', json, async (req: Request, res: Response) => {
     const request = readReportRequest(req.body);
+    // ?scenario=ID&version=V&by=NAME records the issued report; it must be that version.
+    const link = linkOf(req.query);
+    if (link !== null && 'problem' in link) return sendProblems(res, 400, [{ path: 'scenario', message: link.problem }]);
+    if (link !== null && !options.store) return sendProblems(res, 503, [{ path: '', message: 'this server has no store, so the report cannot be recorded' }]);
+    const check = link !== null && options.store ? checkLink(options.store, link, request.scenario) : null;
+    if (check && !check.ok) return sendProblems(res, check.status, [{ path: check.status === 409 ? 'scenario' : '', message: check.message }]);
     const reply = await options.pool.run({ kind: 'report', scenario: request.scenario, reference: request.reference, maxOutputPoints: options.limits.maxOutputPoints });
     if (reply.status === 200 && typeof reply.body !== 'string') {
+      if (link !== null && check?.ok && options.store) {
+        const issued = recordIssuedReport(options.store, link, check.fingerprint, reply.body);
+        // The PDF is not sent unrecorded: the page promises every issued report a stored version.
+        if (!issued.ok) return sendProblems(res, 503, [{ path: '', message: `the report was made but could not be recorded: ${issued.message}` }]);
+        res.set('X-Tidemark-Report', String(issued.id));
+      }
       res
         .status(200)
         .type('application/pdf')
@@ -290,6 +333,17 @@ export function createApp(options: AppOptions): express.Express {
     }
     res.json(sample.scenario);
   });
+
+  if (options.store) {
+    api.use(storeRouter({ handle: options.store, validate: validator(options), json, sameOrigin }));
+  } else {
+    api.get('/store', (_req, res) => {
+      res.json({ available: false, file: '', schemaVersion: 0, readOnly: false, message: 'this server was started without a store' });
+    });
+    api.use(['/scenarios', '/runs', '/reports'], (_req, res) => {
+      sendProblems(res, 503, [{ path: '', message: 'this server was started without a store' }]);
+    });
+  }
 
   api.use((req, res) => {
     sendProblems(res, 404, [{ path: '', message: `no API route ${req.method} ${req.originalUrl}` }]);

@@ -16,6 +16,8 @@ import { fileURLToPath } from 'node:url';
 import { allowedHostsFor, createApp, defaultServerLimits, populationJobsOf } from './app.ts';
 import { loadSamples } from './samples.ts';
 import { defaultPoolMemory, SimulationPool, type WorkerModule } from './worker-pool.ts';
+import { StoreHandle } from './store/handle.ts';
+import { storeFileOf } from './store/location.ts';
 
 // The build keeps this module's own URL (its other modules see their sources' URLs), so
 // the extension says which form is running.
@@ -59,10 +61,16 @@ function main(): void {
   });
   // Populations run on as many threads as the pool has workers, in the same form as the server.
   const population = { threads: pool.options.size, ...(populationWorker ? { worker: populationWorker } : {}) };
-  const app = createApp({ pool, samples: loadSamples(), clientDir, limits: defaultServerLimits, allowedHosts, population });
+  // The scenario store: a file that cannot be used turns saving off with a message; the rest serves on.
+  const store = new StoreHandle(storeFileOf(process.env, root));
+  const storeStatus = store.status();
+  if (!storeStatus.available) console.error(`Saving is off: ${storeStatus.message}`);
+  else if (storeStatus.message) console.error(storeStatus.message);
+  const app = createApp({ pool, samples: loadSamples(), clientDir, limits: defaultServerLimits, allowedHosts, population, store });
   const server = app.listen(port, host, () => {
     const shown = host.includes(':') ? `[${host}]` : host;
     console.log(`Tidemark is serving on http://${shown}:${port}/ (Ctrl-C to stop)`);
+    if (storeStatus.available) console.log(`Scenarios are kept in ${store.file}`);
     console.log('Results are model simulations for review, not dosing advice.');
     if (allowedHosts === 'any') console.log('Answering for any Host name; set ALLOWED_HOSTS to the names this server is reached by.');
   });
@@ -72,6 +80,7 @@ function main(): void {
   });
   const stop = () => {
     server.close();
+    store.close();
     void Promise.all([pool.close(), populationJobsOf(app)?.close()]).then(() => process.exit(0));
   };
   process.on('SIGINT', stop);
