@@ -251,7 +251,8 @@ export function createApp(options: AppOptions): express.Express {
     if (link !== null && !options.store) return sendProblems(res, 503, [{ path: '', message: 'this server has no store, so the report cannot be recorded' }]);
     const check = link !== null && options.store ? checkLink(options.store, link, request.scenario) : null;
     if (check && !check.ok) return sendProblems(res, check.status, [{ path: check.status === 409 ? 'scenario' : '', message: check.message }]);
-    const reply = await options.pool.run({ kind: 'report', scenario: request.scenario, reference: request.reference, maxOutputPoints: options.limits.maxOutputPoints });
+    const stored = link !== null && check?.ok ? { name: check.name, id: link.id, version: link.version, by: link.by } : undefined;
+    const reply = await options.pool.run({ kind: 'report', scenario: request.scenario, reference: request.reference, maxOutputPoints: options.limits.maxOutputPoints, ...(stored ? { stored } : {}) });
     if (reply.status === 200 && typeof reply.body !== 'string') {
       if (link !== null && check?.ok && options.store) {
         const issued = recordIssuedReport(options.store, link, check.fingerprint, reply.body);

@@ -9,6 +9,17 @@ export interface JobRequest {
   maxResponseBytes?: number;
   /** Report only: a reference scenario drawn dashed over the first. */
   reference?: unknown;
+  /** Report only: the stored version it is issued for, printed in its title block. */
+  stored?: StoredVersion;
+}
+
+/** A scenario version in the store, as a report names it. */
+export interface StoredVersion {
+  name: string;
+  id: number;
+  version: number;
+  /** Who asked for the report, as typed ('' when not given). */
+  by: string;
 }
 
 export interface JobReply {

@@ -81,7 +81,7 @@ export function answerSizeProblem(model: Model, maxBytes: number): Problem | nul
 export async function runJob(job: Omit<JobRequest, 'id'>): Promise<Omit<JobReply, 'id'>> {
   if (job.kind === 'report') {
     reportModule ??= await import('./report/report.ts');
-    const report = reportModule.buildReport(job.reference === undefined ? { scenario: job.scenario } : { scenario: job.scenario, reference: job.reference }, { maxOutputPoints: job.maxOutputPoints });
+    const report = reportModule.buildReport(job.reference === undefined ? { scenario: job.scenario } : { scenario: job.scenario, reference: job.reference }, { maxOutputPoints: job.maxOutputPoints, ...(job.stored ? { stored: job.stored } : {}) });
     if (!report.ok) return problems(report.status, report.problems);
     return { status: 200, contentType: 'application/pdf', body: report.bytes };
   }

@@ -23,6 +23,8 @@ export interface TitleBlock {
   version: string;
   fingerprint: string;
   reference: { title: string; fingerprint: string } | null;
+  /** The stored version this report was issued for, when it came from the store. */
+  stored?: { name: string; id: number; version: number; by: string } | null;
 }
 
 export function drawTitleBlock(doc: PDFKit.PDFDocument, block: TitleBlock): void {
@@ -42,6 +44,10 @@ export function drawTitleBlock(doc: PDFKit.PDFDocument, block: TitleBlock): void
     ['Tidemark version', block.version],
     ['Scenario fingerprint', `${block.fingerprint}  (first 12 hex digits of SHA-256 of the scenario's JSON with keys sorted)`],
   ];
+  if (block.stored) {
+    const s = block.stored;
+    rows.push(['Stored as', `“${s.name}”, scenario ${s.id} version ${s.version} in the Tidemark store${s.by ? `; issued to ${s.by}` : ''}`]);
+  }
   if (block.reference) rows.push(['Reference scenario', `${block.reference.title} — fingerprint ${block.reference.fingerprint}; drawn dashed`]);
   keyValues(doc, rows, 108, type.small + 0.4);
   doc.moveDown(0.4);

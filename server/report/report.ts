@@ -27,6 +27,8 @@ import { drawTable, type Cell } from './table.ts';
 import { drawPopulationSection, reportPopulationCap, runReportPopulation, type PopulationCap, type PopulationRun } from './population.ts';
 import type { ReportRequest } from './request.ts';
 
+import type { StoredVersion } from '../jobs.ts';
+
 export { readReportRequest, type ReportRequest } from './request.ts';
 
 export const tidemarkVersion: string = (JSON.parse(readFileSync(new URL('../../package.json', import.meta.url), 'utf8')) as { version: string }).version;
@@ -38,6 +40,8 @@ export interface ReportOptions {
   maxOutputPoints?: number;
   /** Limits on the virtual population a report runs (tests lower them); reportPopulationCap when absent. */
   populationCap?: Partial<PopulationCap>;
+  /** The stored version the report is issued for (the server's store), printed in the title block. */
+  stored?: StoredVersion;
 }
 
 export type ReportOutcome =
@@ -86,7 +90,7 @@ export function buildReport(request: ReportRequest, options: ReportOptions = {})
   const population = runReportPopulation(request.scenario, { ...reportPopulationCap, ...options.populationCap });
   if (population && !population.ok) return population;
   const now = options.now ?? new Date();
-  const { bytes, pages } = renderReport({ model, result, fingerprint, reference, check, now, description: descriptionOf(request.scenario), population: population?.value ?? null });
+  const { bytes, pages } = renderReport({ model, result, fingerprint, reference, check, now, description: descriptionOf(request.scenario), population: population?.value ?? null, stored: options.stored ?? null });
   return { ok: true, bytes, fileName: reportFileName(model.title, fingerprint), fingerprint, pages };
 }
 
@@ -104,6 +108,7 @@ interface Parts {
   now: Date;
   description: string | null;
   population: PopulationRun | null;
+  stored: StoredVersion | null;
 }
 
 function renderReport(parts: Parts): { bytes: Uint8Array; pages: number } {
@@ -125,6 +130,7 @@ function renderReport(parts: Parts): { bytes: Uint8Array; pages: number } {
     version: author,
     fingerprint,
     reference: reference ? { title: reference.model.title, fingerprint: reference.fingerprint } : null,
+    stored: parts.stored,
   });
   drawCautionBox(doc);
 

@@ -10,7 +10,7 @@ import type { StoreHandle } from './handle.ts';
 import { storeLimits } from './records.ts';
 import { recordReport } from './reports.ts';
 import { recordRun } from './runs.ts';
-import { readVersion } from './scenarios.ts';
+import { readVersion, scenarioSummary } from './scenarios.ts';
 
 export interface StoredLink {
   id: number;
@@ -31,7 +31,7 @@ export function linkOf(query: Record<string, unknown>): StoredLink | null | { pr
   return { id, version, by };
 }
 
-export type LinkCheck = { ok: true; fingerprint: string } | { ok: false; status: 404 | 409 | 503; message: string };
+export type LinkCheck = { ok: true; fingerprint: string; name: string } | { ok: false; status: 404 | 409 | 503; message: string };
 
 /** Whether `scenario` is exactly the stored version the link names. */
 export function checkLink(handle: StoreHandle, link: StoredLink, scenario: unknown): LinkCheck {
@@ -44,7 +44,7 @@ export function checkLink(handle: StoreHandle, link: StoredLink, scenario: unkno
     if (fingerprint !== stored.fingerprint) {
       return { ok: false, status: 409, message: `the scenario sent (fingerprint ${fingerprint}) is not scenario ${link.id} version ${link.version} (fingerprint ${stored.fingerprint}); save it first` };
     }
-    return { ok: true, fingerprint };
+    return { ok: true, fingerprint, name: scenarioSummary(access.db, link.id)?.name ?? '' };
   } catch (e) {
     return { ok: false, status: 503, message: handle.failed(e) };
   }
