@@ -46,7 +46,9 @@ export function drawTitleBlock(doc: PDFKit.PDFDocument, block: TitleBlock): void
   ];
   if (block.stored) {
     const s = block.stored;
-    rows.push(['Stored as', `“${s.name}”, scenario ${s.id} version ${s.version} in the Tidemark store${s.by ? `; issued to ${s.by}` : ''}`]);
+    // Names are kept exactly as typed; on paper a control character would only break the line.
+    const printable = (t: string) => t.replace(/[\u0000-\u001f\u007f]/g, ' ');
+    rows.push(['Stored as', `“${printable(s.name)}”, scenario ${s.id} version ${s.version} in the Tidemark store${s.by ? `; issued to ${printable(s.by)}` : ''}`]);
   }
   if (block.reference) rows.push(['Reference scenario', `${block.reference.title} — fingerprint ${block.reference.fingerprint}; drawn dashed`]);
   keyValues(doc, rows, 108, type.small + 0.4);
