@@ -99,11 +99,8 @@ export function openStore(file: string, options: OpenOptions = {}): StoreOpening
   try {
     db = new Database(file, { readonly: readOnly, fileMustExist: readOnly, timeout: options.busyTimeoutMs ?? 5000 });
     db.pragma('foreign_keys = ON');
-    if (!readOnly) {
-      db.pragma('journal_mode = WAL');
-      // FULL: an acknowledged save survives a power cut, not only a killed process.
-      db.pragma('synchronous = FULL');
-    }
+    // The checks come before anything that writes: switching a rollback-journal file to WAL
+    // rewrites its header, which a damaged or newer file must not have done to it.
     const quick = db.pragma('quick_check', { simple: true });
     if (quick !== 'ok') {
       db.close();
@@ -113,6 +110,11 @@ export function openStore(file: string, options: OpenOptions = {}): StoreOpening
     if (recorded > latestSchemaVersion) {
       db.close();
       return { ok: false, file, message: `the store ${file} was written by a newer Tidemark (schema ${recorded}; this one knows up to ${latestSchemaVersion}). It was left untouched: use the newer Tidemark, or set TIDEMARK_DATA to another folder.`, transient: false };
+    }
+    if (!readOnly) {
+      db.pragma('journal_mode = WAL');
+      // FULL: an acknowledged save survives a power cut, not only a killed process.
+      db.pragma('synchronous = FULL');
     }
     if (recorded < latestSchemaVersion) {
       if (readOnly) {
