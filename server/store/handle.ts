@@ -10,7 +10,10 @@ import type { StoreStatus } from './records.ts';
 
 export type StoreAccess = { ok: true; db: Db; readOnly: boolean } | { ok: false; message: string };
 
-const retryAfterMs = 3000;
+export interface HandleOptions extends OpenOptions {
+  /** How long after a failed opening the next request may try again, in milliseconds (default 3000; tests shorten it). */
+  retryAfterMs?: number;
+}
 
 export class StoreHandle {
   private opening: StoreOpening;
@@ -18,14 +21,14 @@ export class StoreHandle {
 
   constructor(
     readonly file: string,
-    private readonly options: OpenOptions = {},
+    private readonly options: HandleOptions = {},
   ) {
     this.opening = openStore(file, options);
     this.triedAt = Date.now();
   }
 
   private retryIfWorthIt(): void {
-    if (this.opening.ok || !this.opening.transient || Date.now() - this.triedAt < retryAfterMs) return;
+    if (this.opening.ok || !this.opening.transient || Date.now() - this.triedAt < (this.options.retryAfterMs ?? 3000)) return;
     this.opening = openStore(this.file, this.options);
     this.triedAt = Date.now();
   }
