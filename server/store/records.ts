@@ -18,7 +18,13 @@ export const storeLimits = {
   listPage: 1000,
 } as const;
 
-const text = (max: number, what: string) => z.string({ error: `${what} must be text` }).max(max, { error: `${what} is longer than ${max} characters` });
+// A lone surrogate (half of a UTF-16 pair, which JSON's \u escapes can carry) has no UTF-8
+// form: SQLite would keep replacement characters instead, so it is refused, not changed.
+const text = (max: number, what: string) =>
+  z
+    .string({ error: `${what} must be text` })
+    .max(max, { error: `${what} is longer than ${max} characters` })
+    .refine((s) => !/\p{Cs}/u.test(s), { error: `${what} holds half of a UTF-16 character pair (a lone surrogate), which cannot be stored` });
 
 export const metadataSchema = z.object({
   name: text(storeLimits.name, 'the name').refine((s) => s.trim().length > 0, { error: 'the name is empty' }).optional(),
