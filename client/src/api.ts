@@ -10,7 +10,7 @@ export interface Problem {
 }
 
 export type SimulateOutcome =
-  | { kind: 'ok'; result: SimulationResultJson }
+  | { kind: 'ok'; result: SimulationResultJson; recorded: string | null }
   | { kind: 'invalid'; problems: Problem[] }
   | { kind: 'failed'; problems: Problem[] }
   | { kind: 'message'; text: string }
@@ -68,10 +68,15 @@ async function readJson(res: Response): Promise<unknown> {
 
 const unreachable = 'The Tidemark server could not be reached. Check that it is running, then try again.';
 
-export async function simulate(scenario: unknown, signal: AbortSignal): Promise<SimulateOutcome> {
+/**
+ * Posts a run. With `record` (the stored scenario and version the scenario on screen equals
+ * exactly) the library records the run; `recorded` is the server's X-Tidemark-Run answer.
+ */
+export async function simulate(scenario: unknown, signal: AbortSignal, record?: { id: number; version: number }): Promise<SimulateOutcome> {
   let res: Response;
+  const query = record ? `?${new URLSearchParams({ scenario: String(record.id), version: String(record.version) })}` : '';
   try {
-    res = await fetch('api/simulate', {
+    res = await fetch(`api/simulate${query}`, {
       method: 'POST',
       headers: { 'content-type': 'application/json', accept: 'application/json' },
       body: JSON.stringify(scenario),
@@ -83,7 +88,7 @@ export async function simulate(scenario: unknown, signal: AbortSignal): Promise<
   const body = await readJson(res);
   if (signal.aborted) return { kind: 'aborted' };
   if (res.status === 200) {
-    return isResult(body) ? { kind: 'ok', result: body } : { kind: 'message', text: 'The server sent an answer the page could not read. Try again; if it persists, restart the server.' };
+    return isResult(body) ? { kind: 'ok', result: body, recorded: res.headers.get('x-tidemark-run') } : { kind: 'message', text: 'The server sent an answer the page could not read. Try again; if it persists, restart the server.' };
   }
   return failureOf(res.status, body, 'run');
 }

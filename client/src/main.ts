@@ -21,7 +21,7 @@ import { manyPointsWarning, OutputForm } from './output-form.ts';
 import { PlotControls } from './plot-controls.ts';
 import { PlotView } from './plot.ts';
 import { RegimenForm } from './regimen-form.ts';
-import { addReportButton } from './report.ts';
+import { addReportButton, type IssueTarget } from './report.ts';
 import { emptyScenario, formProblem, ScenarioStore, type ScenarioDoc } from './store.ts';
 import { renderPrintSummary } from './print-summary.ts';
 import { setUpPopulation } from './population-panel.ts';
@@ -29,6 +29,13 @@ import { setSubjectOutcome, subjectOutcome } from './covariate-relations.ts';
 import { SubjectForm } from './subject-form.ts';
 import '../subject.css';
 import { renderTimeline } from './timeline.ts';
+import { browserStorage, readDraft, showDraftBanner, WorkTracker, type Draft, type Origin } from './draft.ts';
+import { LibraryPanel } from './library.ts';
+import { recordQuery } from './library-api.ts';
+import { setUpLibraryHeader, StoreAccess } from './library-header.ts';
+import { Saver, type PageShell } from './library-save.ts';
+import { rememberedAuthor } from './save-dialog.ts';
+import '../library.css';
 
 const defaultSample = 'brennock-oral-bid';
 
@@ -43,6 +50,13 @@ const fileInput = byId<HTMLInputElement>('open-json');
 const exportButton = byId<HTMLButtonElement>('export-csv');
 const figuresHost = byId('figures');
 const errors = new ErrorPresenter(formRoot, byId('error-summary'), store);
+
+// A draft kept from an earlier visit is read before anything is opened, and held (nothing is
+// written over it) until the user restores or discards it.
+const storage = browserStorage();
+const tracker = new WorkTracker(store, storage, (message) => announce(message));
+tracker.held = readDraft(storage);
+tracker.opened({ kind: 'new' });
 
 /** The last successful run, the scenario exactly as sent, and the store revision it matches. */
 let lastResult: SimulationResultJson | null = null;
@@ -192,7 +206,10 @@ async function run(): Promise<void> {
   notice.textContent = '';
   runButton.setAttribute('aria-busy', 'true');
   const started = performance.now();
-  const outcome = await simulate(sent, controller.signal);
+  // A run of exactly a stored version is recorded in the library.
+  const link = tracker.stored;
+  const record = link && !tracker.isDirty() ? { id: link.id, version: link.version } : undefined;
+  const outcome = await simulate(sent, controller.signal, record);
   if (inFlight !== controller) return; // a newer run took over
   inFlight = null;
   runButton.removeAttribute('aria-busy');
@@ -214,6 +231,7 @@ async function run(): Promise<void> {
       runStatus.textContent = `Done in ${fmt(ms)} ms: ${lastResult.times.length} reported times, ${d.path === 'exact' ? 'exact solution' : d.path === 'adaptive' ? 'adaptive integration' : 'fixed-step integration'}.${warn}`;
       // The report of this run carries the same fingerprint, so a reader can match the two.
       runStatus.append(' Scenario fingerprint ', h('code', { 'data-testid': 'run-fingerprint' }, scenarioFingerprint(sent)), '.');
+      if (record && outcome.recorded && !outcome.recorded.startsWith('not recorded')) runStatus.append(` Recorded in the library as a run of version ${record.version}.`);
       break;
     }
     case 'invalid':
@@ -240,33 +258,53 @@ formRoot.addEventListener('submit', (ev) => {
 });
 
 // ---- loading scenarios ----
-function load(doc: ScenarioDoc): void {
+/** `base`: the fingerprint the scenario counts as saved against (default: its own). */
+function load(doc: ScenarioDoc, origin: Origin, base?: string): void {
   errors.clear();
   store.replace(doc);
+  tracker.opened(origin, base);
   lastRevision = -1;
   markStale();
 }
 
-async function loadSample(id: string): Promise<void> {
+/** Opening something over unsaved changes asks first. */
+function confirmReplace(what: string): boolean {
+  if (!tracker.isDirty()) return true;
+  return confirm(`${what} replaces the scenario on screen, which has unsaved changes. They will be lost unless you save them first.\n\nReplace it?`);
+}
+
+/** `beforeRun` is called once the sample is on screen, before its run (the start offers kept work there). */
+async function loadSample(id: string, beforeRun?: () => void): Promise<void> {
   const value = await fetchSample(id);
   const problem = value === null ? 'it could not be fetched from the server' : formProblem(value);
   if (problem) {
     errors.showMessage(`The sample “${id}” could not be opened: ${problem}.`, 'Sample not loaded');
     return;
   }
-  load(value as ScenarioDoc);
+  load(value as ScenarioDoc, { kind: 'sample', id });
   sampleSelect.value = id;
+  shownSample = id;
   announce(`Loaded the sample “${store.scenario.title ?? id}”.`);
+  beforeRun?.();
   await run();
 }
 
+/** The sample the select shows, put back when the user keeps the screen instead of opening another. */
+let shownSample = '';
 sampleSelect.addEventListener('change', () => {
-  if (sampleSelect.value) void loadSample(sampleSelect.value);
+  if (!sampleSelect.value) return;
+  if (!confirmReplace('Opening this sample')) {
+    sampleSelect.value = shownSample;
+    return;
+  }
+  void loadSample(sampleSelect.value);
 });
 
 byId('new-model').addEventListener('click', () => {
-  load(emptyScenario());
+  if (!confirmReplace('A new model')) return;
+  load(emptyScenario(), { kind: 'new' });
   sampleSelect.value = '';
+  shownSample = '';
   lastResult = null;
   lastScenario = null;
   controls.setResult(null);
@@ -286,8 +324,10 @@ fileInput.addEventListener('change', async () => {
     errors.showMessage(opened.message, 'File not opened');
     return;
   }
-  load(opened.doc);
+  if (!confirmReplace(`Opening “${opened.name}”`)) return;
+  load(opened.doc, { kind: 'file', name: opened.name });
   sampleSelect.value = '';
+  shownSample = '';
   announce(`Opened “${opened.name}”.`);
   await run();
 });
@@ -311,6 +351,70 @@ async function scenarioForReport(): Promise<{ scenario: unknown; rerun: boolean 
   return { scenario: lastScenario, rerun: true };
 }
 
+// ---- the library: drafts, saving, the panel ----
+function offerHeldDraft(): void {
+  const draft = tracker.held;
+  if (draft) showDraftBanner(byId('draft-banner'), draft, { restore: (d) => void restoreDraft(d), discard: discardDraft });
+}
+
+async function restoreDraft(draft: Draft): Promise<void> {
+  if (!confirmReplace('Restoring the kept work')) {
+    offerHeldDraft();
+    return;
+  }
+  // Writing resumes with the restored scenario itself, still unsaved against its origin.
+  tracker.held = null;
+  load(structuredClone(draft.scenario), draft.origin, draft.baseFingerprint);
+  sampleSelect.value = draft.origin.kind === 'sample' ? draft.origin.id : '';
+  shownSample = sampleSelect.value;
+  announce(`Restored the unsaved work “${store.scenario.title ?? 'untitled'}”.`);
+  await run();
+}
+
+function discardDraft(): void {
+  tracker.release(true);
+  announce('Discarded the kept work.');
+}
+
+const storeAccess = new StoreAccess();
+const shell: PageShell = {
+  store,
+  tracker,
+  errors,
+  announce,
+  unavailable: () => storeAccess.message,
+  async open(doc, origin, base, ask, message) {
+    if (ask && !confirmReplace(`Opening “${origin.name}”`)) return false;
+    load(doc, origin, base);
+    sampleSelect.value = '';
+    shownSample = '';
+    announce(message);
+    await run();
+    return true;
+  },
+  offerHeldDraft,
+};
+const saver = new Saver(shell);
+setUpLibraryHeader(shell, saver, storeAccess, new LibraryPanel(shell));
+
+/**
+ * A report is issued for a stored version: unsaved changes (or a scenario never stored) are
+ * saved first. Without a library the report is made as before, unrecorded.
+ */
+async function issueFor(scenario: unknown): Promise<IssueTarget | null | 'stop'> {
+  if (storeAccess.message !== null) return null;
+  let link = tracker.stored;
+  let fingerprint = tracker.base;
+  if (link === null || tracker.isDirty()) {
+    const saved = await saver.save('report');
+    if (saved === null) return 'stop';
+    link = saved;
+    fingerprint = saved.fingerprint;
+  }
+  if (scenarioFingerprint(scenario) !== fingerprint) return null;
+  return { name: link.name, version: link.version, fingerprint, query: recordQuery(link, rememberedAuthor()) };
+}
+
 addReportButton(exportButton, {
   scenario: scenarioForReport,
   reference: () => compare.reference?.scenario ?? null,
@@ -318,6 +422,7 @@ addReportButton(exportButton, {
   showInvalid: (problems) => errors.showInvalid(problems),
   showFailure: (problems) => errors.showFailure(problems),
   showMessage: (text, title) => errors.showMessage(text, title),
+  issueFor,
 });
 
 exportButton.addEventListener('click', () => {
@@ -354,11 +459,20 @@ async function start(): Promise<void> {
   const samples = await fetchSamples();
   if (!samples) {
     errors.showMessage('The Tidemark server could not be reached, so the samples are not listed. Check that it is running, then reload the page.', 'Server not reachable');
-    return;
+  } else {
+    for (const s of samples) sampleSelect.append(h('option', { value: s.id, title: s.description }, s.title));
+    const first = samples.find((s) => s.id === defaultSample) ?? samples[0];
+    if (first) await loadSample(first.id, offerKept);
   }
-  for (const s of samples) sampleSelect.append(h('option', { value: s.id, title: s.description }, s.title));
-  const first = samples.find((s) => s.id === defaultSample) ?? samples[0];
-  if (first) await loadSample(first.id);
+  offerKept();
+}
+
+/** Work kept from before is offered back (once) unless it is exactly what the page just opened. */
+function offerKept(): void {
+  const kept = tracker.held;
+  if (kept === null || byId('draft-banner').hidden === false) return;
+  if (scenarioFingerprint(kept.scenario) === scenarioFingerprint(store.scenario) && kept.origin.kind !== 'stored') tracker.release(true);
+  else offerHeldDraft();
 }
 
 void start();

@@ -3,7 +3,8 @@
  * when there is one) to /api/report and saves the PDF the server answers. When the form has
  * changed since that run, the page runs it first (see main.ts), so the report and the screen
  * always show the same run. Problems come back as for a run: beside their fields (400) or in
- * the summary (422, busy, unreachable).
+ * the summary (422, busy, unreachable). When the library is available the report is issued for
+ * a stored version (the page saves first if needed) and recorded there with who asked for it.
  */
 import type { Problem } from './api.ts';
 import { failureOf, unreachable } from './api.ts';
@@ -22,10 +23,11 @@ export function filenameFrom(header: string | null, fallback: string): string {
 }
 
 
-export async function requestReport(scenario: unknown, reference: unknown | null): Promise<ReportOutcome> {
+/** `query` (scenario, version, by) makes the library record the issued report. */
+export async function requestReport(scenario: unknown, reference: unknown | null, query = ''): Promise<ReportOutcome> {
   let res: Response;
   try {
-    res = await fetch('api/report', {
+    res = await fetch(query ? `api/report?${query}` : 'api/report', {
       method: 'POST',
       headers: { 'content-type': 'application/json', accept: 'application/pdf, application/json' },
       body: JSON.stringify(reference === null ? scenario : { scenario, reference }),
@@ -67,6 +69,19 @@ export interface ReportHooks {
   showInvalid: (problems: Problem[]) => void;
   showFailure: (problems: Problem[]) => void;
   showMessage: (text: string, title: string) => void;
+  /**
+   * The stored version to issue the report for (saving first when the screen has unsaved
+   * changes); null to make it without recording (no library); 'stop' when the user cancelled.
+   */
+  issueFor: (scenario: unknown) => Promise<IssueTarget | null | 'stop'>;
+}
+
+export interface IssueTarget {
+  name: string;
+  version: number;
+  fingerprint: string;
+  /** scenario=ID&version=V&by=AUTHOR */
+  query: string;
 }
 
 /** Adds the button after `anchor` (the CSV export) and wires it. */
@@ -87,18 +102,25 @@ export function addReportButton(anchor: HTMLElement, hooks: ReportHooks): HTMLBu
         hooks.announce('No report: the changed form did not run; the problems are listed with the run.');
         return;
       }
+      const target = await hooks.issueFor(shown.scenario);
+      if (target === 'stop') {
+        hooks.announce('No report: the scenario was not saved.');
+        return;
+      }
       const reference = hooks.reference();
       hooks.announce(reference === null ? 'Making the report…' : 'Making the report, with the kept reference drawn dashed…');
-      const outcome = await requestReport(structuredClone(shown.scenario), reference);
+      const outcome = await requestReport(structuredClone(shown.scenario), reference, target?.query ?? '');
       switch (outcome.kind) {
-        case 'ok':
+        case 'ok': {
           save(outcome.blob, outcome.filename);
+          const issued = target ? `Report issued for “${target.name}” version ${target.version} (fingerprint ${target.fingerprint}), saved as ${outcome.filename}.` : null;
           hooks.announce(
             shown.rerun
-              ? `The form had changed since the last run, so it was run first; downloaded the report of that run (now on screen) as ${outcome.filename}.`
-              : `Downloaded the report of the run on screen as ${outcome.filename}.`,
+              ? `The form had changed since the last run, so it was run first. ${issued ?? `Downloaded the report of that run (now on screen) as ${outcome.filename}.`}`
+              : (issued ?? `Downloaded the report of the run on screen as ${outcome.filename}.`),
           );
           break;
+        }
         case 'invalid':
           hooks.showInvalid(outcome.problems);
           hooks.announce('No report: the scenario has problems, listed with the fields.');
