@@ -1,5 +1,5 @@
 /**
- * What each command computes and says: simulate, report, validate, schema, verify. Returns the exit
+ * What each command computes and says: simulate, report, validate, schema, verify, store. Returns the exit
  * code, the text for stdout and stderr, and the file to write; writing it, and running the
  * computation under the time limit, is the program's part (cli.ts). Exit 0 on success, 1
  * when the scenario is invalid or the computation fails, 2 on a usage error. Errors are
@@ -22,19 +22,21 @@ import type { ReferenceCase } from './verify/cases.ts';
 
 type ReportModule = typeof import('./report/report.ts');
 type VerifyModule = typeof import('./verify/run.ts');
+type StoreModule = typeof import('./store/cli.ts');
 
 /**
  * What only one command needs, loaded for it alone: the report writer (pdfkit and its fonts)
  * and the reference cases (mathjs's matrix functions). A simulate never pays for either.
  * loadCommandModules loads them before runCli, which stays synchronous.
  */
-const onDemand: { report: ReportModule | null; verify: VerifyModule | null } = { report: null, verify: null };
+const onDemand: { report: ReportModule | null; verify: VerifyModule | null; store: StoreModule | null } = { report: null, verify: null, store: null };
 
 /** Loads what the command in `args` needs beyond the engine (all of it when `args` is null, for importers). */
 export async function loadCommandModules(args: string[] | null): Promise<void> {
   const command = args === null ? null : args[0];
   if (command === null || command === 'report') onDemand.report ??= await import('./report/report.ts');
   if (command === null || command === 'verify') onDemand.verify ??= await import('./verify/run.ts');
+  if (command === null || command === 'store') onDemand.store ??= await import('./store/cli.ts');
 }
 
 function loaded<T>(module: T | null, command: string): T {
@@ -266,6 +268,8 @@ export interface CliContext {
   folder?: string;
   /** The reference cases of verify (default: all of server/verify/cases.ts); tests pass a broken one. */
   cases?: ReferenceCase[];
+  /** The environment the store command reads TIDEMARK_DATA from (default: process.env). */
+  env?: Record<string, string | undefined>;
 }
 
 export function runCli(args: string[], context: CliContext = {}): CliOutcome {
@@ -273,6 +277,8 @@ export function runCli(args: string[], context: CliContext = {}): CliOutcome {
 }
 
 function run(args: string[], context: CliContext): CliOutcome {
+  // The store command has actions, options and a help of its own (store/cli.ts).
+  if (args[0] === 'store') return loaded(onDemand.store, 'store').runStoreCli(args.slice(1), { folder: context.folder ?? process.cwd(), env: context.env ?? process.env });
   // --help (or -h) anywhere asks for the summary, not for a command.
   if (args.includes('--help') || args.includes('-h')) return { code: 0, stdout: usage + '\n', stderr: '' };
   const [command, ...rest] = args;

@@ -32,6 +32,9 @@ commands:
   verify           check this installation: run published reference cases and print
                    case, source, expected, got, error, tolerance and verdict; exit 1 if any fails
                    options: [--out record.json] (the record as JSON, for a validation file)
+  store ACTION     the scenario store (the server's, or --data DIR): list, show ID (a version's
+                   scenario as JSON, --history, --diff A B), export FILE, import FILE, backup FILE;
+                   \`store --help\` for its options
   help             this summary
 
 options:

@@ -1,5 +1,5 @@
 /**
- * Command line: simulate, report, population, merge, validate, schema, verify (the commands are in cli-commands.ts).
+ * Command line: simulate, report, population, merge, validate, schema, verify, store (the commands are in cli-commands.ts; store in store/cli.ts).
  * Exit 0 on success, 1 when the scenario is invalid, the computation fails or exceeds its
  * time limit, or the output cannot be written; 2 on a usage error. Errors go to stderr as
  * "path: message" lines, never as stack traces.
@@ -20,7 +20,7 @@ import { isMainThread } from 'node:worker_threads';
 import type { CliContext, CliOutcome } from './cli-commands.ts';
 import { parseOptions, parseTimeLimit, timeLimitMessage } from './cli-options.ts';
 import type { CliWorkerData, WorkerOutcome } from './cli-worker.ts';
-import { visibleText } from './terminal-text.ts';
+import { visibleLines, visibleText } from './terminal-text.ts';
 import { userFolder } from './user-folder.ts';
 import { populationWorkerFor, runThreads } from './population-threads.ts';
 import { startWorker, type WorkerModule } from './worker-pool.ts';
@@ -129,6 +129,13 @@ async function runPopulation(args: string[], folder: string): Promise<Finished> 
   }
 }
 
+/** store: the store's actions need neither the engine nor a worker thread, so they load neither (store/cli.ts). */
+async function runStore(args: string[], folder: string): Promise<Finished> {
+  const { runStoreCli } = await import('./store/cli.ts');
+  const o = runStoreCli(args.slice(1), { folder, env: process.env });
+  return toFinished({ ...o, stdout: visibleLines(o.stdout), stderr: visibleLines(o.stderr) });
+}
+
 function toFinished(o: CliOutcome): Finished {
   const file = o.file ? { path: o.file.path, data: o.file.text } : o.binaryFile ? { path: o.binaryFile.path, data: o.binaryFile.bytes } : undefined;
   return { code: o.code, stdout: o.stdout, stderr: o.stderr, ...(file ? { file } : {}) };
@@ -166,7 +173,7 @@ async function main(): Promise<void> {
   try {
     const seconds = timeLimitOf(args);
     const population = args[0] === 'population' && !args.includes('--help') && !args.includes('-h');
-    finished = population ? await runPopulation(args, folder) : seconds === null ? await runInThread(args, folder) : await runInWorker(args, folder, seconds);
+    finished = args[0] === 'store' ? await runStore(args, folder) : population ? await runPopulation(args, folder) : seconds === null ? await runInThread(args, folder) : await runInWorker(args, folder, seconds);
   } catch (e) {
     // A defect, not a user error: say so plainly, without a stack trace.
     process.stderr.write(`internal error: ${visibleText(e instanceof Error ? e.message : String(e))}\nPlease report this with the scenario file.\n`);
