@@ -7,6 +7,7 @@ import { createServer } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
+import Database from 'better-sqlite3';
 import type { Db } from '../../server/store/open.ts';
 import { openStore } from '../../server/store/open.ts';
 import { storeFileName } from '../../server/store/location.ts';
@@ -129,4 +130,144 @@ export async function sendJson(base: string, method: string, path: string, body:
     /* not JSON */
   }
   return { status: res.status, body: parsed };
+}
+
+/** Mulberry32: a small seeded generator, so a kill check's delays can be repeated (common practice). */
+export function seededRandom(seed: number): () => number {
+  let a = seed >>> 0;
+  return () => {
+    a = (a + 0x6d2b79f5) >>> 0;
+    let t = a;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
+
+/** A version the server acknowledged (200 or 201), with the JSON text it must keep. */
+export interface Acknowledged {
+  id: number;
+  version: number;
+  json: string;
+}
+
+export interface BurstOutcome {
+  acknowledged: Acknowledged[];
+  /** Requests sent but not answered when the server died. */
+  unanswered: number;
+  /** Answers other than 200/201 (a 409 after an unanswered save, say). */
+  refused: number;
+}
+
+/**
+ * Saves as fast as `clients` loops can, each creating a scenario and then saving new versions
+ * of it (a new scenario every few saves), until the server dies: `kill` is called after
+ * `killAfterMs`. Every 200/201 is recorded with the JSON text sent.
+ */
+export async function saveUntilKilled(base: string, clients: number, killAfterMs: number, kill: () => void, tag: string): Promise<BurstOutcome> {
+  const outcome: BurstOutcome = { acknowledged: [], unanswered: 0, refused: 0 };
+  let dead = false;
+  /** One save; false when the server did not answer. */
+  const save = async (c: number, k: number, current: { id: number; version: number } | null): Promise<{ id: number; version: number } | null | false> => {
+    const scenario = variant(k, `${tag}-${c}-`);
+    let answer: { status: number; body: any };
+    try {
+      answer = current ? await sendJson(base, 'PUT', `/api/scenarios/${current.id}`, { scenario, baseVersion: current.version, note: `k ${k}` }) : await sendJson(base, 'POST', '/api/scenarios', { scenario, name: `${tag} ${c} ${k}` });
+    } catch {
+      outcome.unanswered++;
+      return false;
+    }
+    if (answer.status !== 200 && answer.status !== 201) {
+      outcome.refused++;
+      return null;
+    }
+    const saved = answer.body as { id: number; version: number };
+    outcome.acknowledged.push({ id: saved.id, version: saved.version, json: JSON.stringify(scenario) });
+    return { id: saved.id, version: saved.version };
+  };
+  // Each client's first save warms the server's validation workers; the clock starts after them.
+  const first = await Promise.all(Array.from({ length: clients }, (_, c) => save(c, 0, null)));
+  const loop = async (c: number) => {
+    let current = first[c] || null;
+    for (let k = 1; !dead; k++) {
+      // A new scenario every fifth save, else the next version of the current one.
+      const next = await save(c, k, k % 5 === 0 ? null : current);
+      if (next === false) return;
+      current = next;
+    }
+  };
+  const timer = setTimeout(() => {
+    dead = true;
+    kill();
+  }, killAfterMs);
+  await Promise.all(Array.from({ length: clients }, (_, c) => loop(c)));
+  clearTimeout(timer);
+  return outcome;
+}
+
+/** What a check of the file finds: acknowledged versions missing or changed, and SQLite's integrity check. */
+export function checkAcknowledged(file: string, acknowledged: readonly Acknowledged[]): { missing: string[]; integrity: string; inconsistent: number } {
+  const db = new Database(file, { readonly: true, fileMustExist: true });
+  try {
+    const read = db.prepare('SELECT scenario_json FROM versions WHERE scenario_id = ? AND version = ?');
+    const missing: string[] = [];
+    for (const a of acknowledged) {
+      const row = read.get(a.id, a.version) as { scenario_json: string } | undefined;
+      if (!row) missing.push(`${a.id}/${a.version} missing`);
+      else if (row.scenario_json !== a.json) missing.push(`${a.id}/${a.version} changed`);
+    }
+    const integrity = String(db.pragma('integrity_check', { simple: true }));
+    // Each save updates the scenario's row in the same transaction as its version: they must agree.
+    const inconsistent = (db.prepare('SELECT count(*) AS n FROM scenarios s WHERE s.latest_version <> (SELECT max(version) FROM versions v WHERE v.scenario_id = s.id)').get() as { n: number }).n;
+    return { missing, integrity, inconsistent };
+  } finally {
+    db.close();
+  }
+}
+
+export interface KillRound {
+  round: number;
+  killAfterMs: number;
+  acknowledged: number;
+  unanswered: number;
+  refused: number;
+  /** Acknowledged versions (of every round so far) missing or changed after the restart. */
+  missing: string[];
+  integrity: string;
+  inconsistent: number;
+  /** What GET /api/store said after the restart. */
+  availableAfterRestart: boolean;
+}
+
+/**
+ * Rounds of: saves from `clients` loops, SIGKILL of the built server after a random 50–400 ms,
+ * a restart on the same file, and a check that every version acknowledged so far is there
+ * with the JSON text sent, that SQLite's integrity check says ok, and that the server says
+ * the store is available. One data folder for all rounds, so each restart recovers the last.
+ */
+export async function killRounds(main: string, folder: string, rounds: number, seed: number, onRound?: (r: KillRound) => void): Promise<KillRound[]> {
+  const random = seededRandom(seed);
+  const file = join(folder, storeFileName);
+  const all: Acknowledged[] = [];
+  const results: KillRound[] = [];
+  let server = await startServer(main, folder);
+  try {
+    for (let round = 1; round <= rounds; round++) {
+      const killAfterMs = 50 + Math.floor(random() * 351);
+      const victim = server;
+      const burst = await saveUntilKilled(victim.base, 3, killAfterMs, () => victim.child.kill('SIGKILL'), `r${round}`);
+      const ended = await victim.exited;
+      if (ended !== 'SIGKILL') throw new Error(`the server ended with ${ended}, not by the kill: ${victim.log()}`);
+      all.push(...burst.acknowledged);
+      server = await startServer(main, folder);
+      const status = (await (await fetch(`${server.base}/api/store`)).json()) as { available: boolean };
+      const check = checkAcknowledged(file, all);
+      const result: KillRound = { round, killAfterMs, acknowledged: burst.acknowledged.length, unanswered: burst.unanswered, refused: burst.refused, ...check, availableAfterRestart: status.available };
+      results.push(result);
+      onRound?.(result);
+    }
+  } finally {
+    await server.stop('SIGTERM');
+  }
+  return results;
 }
