@@ -27,6 +27,7 @@ import { GridSeries, prepare, readModel, runEngine, runOdex, type EngineRun, typ
 import { phaseNames, simulatePhases, type PhaseName } from './phases.ts';
 import { measureStartup, startupReport } from './startup.ts';
 import { measurePopulation, populationReport } from './population.ts';
+import { measureStore, storeReport, storeTargets } from './store.ts';
 import { AMOUNT_SCALE, halvexin, linearScenario, saturableScenario, type SolverBlock } from './scenario.ts';
 import { summarise, timeBlocks, type Job, type Timing } from './timing.ts';
 
@@ -470,6 +471,11 @@ section('Virtual populations: the population path per subject, 1,000 and 10,000 
 const population = await measurePopulation();
 console.log(populationReport(population));
 
+// ---------- scenario store ----------
+section('Scenario store: save, list, search and history on a fresh SQLite store (store.ts)');
+const store = measureStore();
+console.log(storeReport(store));
+
 // ---------- summary ----------
 section('Summary (markdown)');
 const best = (method: string) => pairings.filter((p) => p.method === method);
@@ -517,6 +523,24 @@ const summaryRows: string[][] = [
     '',
   ],
   [
+    'Store: save a version (saveVersion, synchronous = FULL), median',
+    `${ms(store.save.ours.median)} ms (p95 ${ms(store.save.ours.p95)}); ${ratio(store.save.ratio)} a plain INSERT of the same bytes (${ms(store.save.plainInsert.median)} ms)`,
+    `< ${storeTargets.saveMs} ms`,
+    passFail(store.pass.save),
+  ],
+  [
+    `Store: list the first 100 of ${store.listFirst100.total.toLocaleString('en')} scenarios, with the total`,
+    `${ms(store.listFirst100.ours.median)} ms; ${ratio(store.listFirst100.ratio)} the raw SELECTs; all of them ${ms(store.listAll.ours.median)} ms; a search ${ms(store.search.ours.median)} ms`,
+    `< ${storeTargets.listMs} ms`,
+    passFail(store.pass.list),
+  ],
+  [
+    `Store: history of ${store.history.versions.toLocaleString('en')} versions`,
+    `${ms(store.history.ours.median)} ms; ${ratio(store.history.ratio)} the raw SELECT`,
+    `< ${storeTargets.historyMs} ms`,
+    passFail(store.pass.history),
+  ],
+  [
     'Memory, 1e6 output times, + resultToJsonText()',
     memoryPrimary.jsonPeakMB === null ? '-' : `process peak ${memoryPrimary.jsonPeakMB.toFixed(0)} MB, ${((memoryPrimary.jsonMs ?? 0) / 1000).toFixed(1)} s`,
     '(context)',
@@ -553,6 +577,7 @@ const artifact = {
   memory: { runs: memory, primaryIncreaseMB: memoryIncrease, pass: memoryPass },
   startup,
   population,
+  store,
   targets: {
     odexRatio: TARGET_ODEX_RATIO,
     odexRatioAim: AIM_ODEX_RATIO,
