@@ -312,6 +312,7 @@ function backupTo(db: Db, store: string, positional: string[]): StoreOutcome {
   const [target] = positional;
   if (sameFile(target, store)) return usageError(`refusing to write the backup to '${target}': it is the store itself`);
   if (existsSync(target)) return refused(`'${visibleText(target)}' already exists; a backup is never written over a file: choose a new name`);
+  if (!existsSync(dirname(target))) return refused(`cannot write the backup '${visibleText(target)}': the folder ${visibleText(dirname(target))} does not exist`);
   const temporary = join(dirname(target), `.${basename(target)}.${process.pid}-${randomBytes(6).toString('hex')}.tmp`);
   const fail = (what: string, e: unknown): StoreOutcome => {
     try {
