@@ -7,7 +7,7 @@ import type { SimulationResultJson } from '../../models/result/result-format.ts'
 import { keyFiguresOf } from '../../models/result/key-figures.ts';
 import { scenarioFingerprint } from '../../models/scenario/fingerprint.ts';
 import type { StoreHandle } from './handle.ts';
-import { storeLimits } from './records.ts';
+import { clipText, storeLimits } from './records.ts';
 import { recordReport } from './reports.ts';
 import { recordRun } from './runs.ts';
 import { readVersion, scenarioSummary } from './scenarios.ts';
@@ -27,7 +27,7 @@ export function linkOf(query: Record<string, unknown>): StoredLink | null | { pr
   if (!Number.isSafeInteger(id) || id < 1 || !Number.isSafeInteger(version) || version < 1) {
     return { problem: 'give both scenario= and version= as whole numbers to record against a stored version' };
   }
-  const by = typeof query.by === 'string' ? query.by.slice(0, storeLimits.author) : '';
+  const by = typeof query.by === 'string' ? clipText(query.by, storeLimits.author) : '';
   return { id, version, by };
 }
 

@@ -18,6 +18,12 @@ export const storeLimits = {
   listPage: 1000,
 } as const;
 
+/** Text cut to at most `max` UTF-16 units without splitting a character pair (half of one could not be stored). */
+export function clipText(text: string, max: number): string {
+  const cut = text.slice(0, max);
+  return cut.length > 0 && /[\ud800-\udbff]$/.test(cut) && text.length > max ? cut.slice(0, -1) : cut;
+}
+
 // A lone surrogate (half of a UTF-16 pair, which JSON's \u escapes can carry) has no UTF-8
 // form: SQLite would keep replacement characters instead, so it is refused, not changed.
 const text = (max: number, what: string) =>

@@ -7,7 +7,7 @@
 import { scenarioFingerprint } from '../../models/scenario/fingerprint.ts';
 import type { Db } from './open.ts';
 import type { Metadata, ScenarioSummary, VersionInfo } from './records.ts';
-import { storeLimits } from './records.ts';
+import { clipText, storeLimits } from './records.ts';
 
 export type StoreOutcome<T> = { ok: true; value: T } | { ok: false; status: 404 | 409 | 413; path: string; message: string; latestVersion?: number };
 
@@ -72,7 +72,7 @@ function jsonTextOf(scenario: unknown): StoreOutcome<string> {
 
 const titleOf = (scenario: unknown): string => {
   const t = typeof scenario === 'object' && scenario !== null ? (scenario as { title?: unknown }).title : undefined;
-  return typeof t === 'string' && t.trim() ? t.trim().slice(0, storeLimits.name) : 'Untitled scenario';
+  return typeof t === 'string' && t.trim() ? clipText(t.trim(), storeLimits.name) : 'Untitled scenario';
 };
 
 export interface SaveInput {
