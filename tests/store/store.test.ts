@@ -17,7 +17,8 @@ import { simulate } from '../../models/simulate.ts';
 import { latestSchemaVersion } from '../../server/store/migrations.ts';
 import type { Db } from '../../server/store/open.ts';
 import { openStore } from '../../server/store/open.ts';
-import { metadataSchema, newScenarioSchema, newVersionSchema, storeLimits } from '../../server/store/records.ts';
+import { clipText, metadataSchema, newScenarioSchema, newVersionSchema, storeLimits } from '../../server/store/records.ts';
+import { linkOf } from '../../server/store/recording.ts';
 import { recordReport, reportPdf, reportsOfScenario, reportsWithFingerprint } from '../../server/store/reports.ts';
 import { listRuns, readRun, recordRun } from '../../server/store/runs.ts';
 import {
@@ -178,6 +179,15 @@ describe('text round-trips exactly', () => {
     const raw = created({ scenario: brennock, name: 'x\ud800y' });
     expect(scenarioSummary(db, raw)?.name).not.toBe('x\ud800y');
     expect(scenarioSummary(db, raw)?.name).toMatch(/^x\ufffd+y$/);
+  });
+
+  it('cuts a long title (the default name) and a requester over the limit without splitting a character pair', () => {
+    const id = created({ scenario: { ...brennock, title: `${'x'.repeat(storeLimits.name - 1)}🧪 and more` } });
+    expect(scenarioSummary(db, id)?.name).toBe('x'.repeat(storeLimits.name - 1));
+    const fits = created({ scenario: { ...brennock, title: `${'x'.repeat(storeLimits.name - 2)}🧪 and more` } });
+    expect(scenarioSummary(db, fits)?.name).toBe(`${'x'.repeat(storeLimits.name - 2)}🧪`);
+    expect(linkOf({ scenario: '1', version: '2', by: `${'y'.repeat(storeLimits.author - 1)}🧪` })).toEqual({ id: 1, version: 2, by: 'y'.repeat(storeLimits.author - 1) });
+    expect([clipText('ab🧪', 3), clipText('ab🧪', 4), clipText('abc', 2), clipText('', 5)]).toEqual(['ab', 'ab🧪', 'ab', '']);
   });
 
   it('stores an SQL-injection-looking name as text, and the tables survive', () => {
