@@ -4,7 +4,7 @@
 // server keeps serving the rest, never crashes, and never changes the file it refused.
 // SQLite's promises relied on: an acknowledged (committed) transaction in WAL mode survives the
 // process's death (sqlite.org "Write-Ahead Logging", "Atomic Commit"); PRAGMA integrity_check
-// answers 'ok' for a sound file. `npm run store:kill-check` runs many more kill rounds.
+// answers 'ok' for a sound file. `npx tsx scripts/store-kill-check.ts [rounds]` runs many more kill rounds.
 import Database from 'better-sqlite3';
 import { randomFillSync } from 'node:crypto';
 import { chmodSync, closeSync, openSync, writeFileSync, writeSync } from 'node:fs';
