@@ -254,6 +254,6 @@ export function showDraftBanner(host: HTMLElement, draft: Draft, actions: DraftB
     ),
     h('div', { class: 'draft-actions' }, restore, discard),
   );
+  // Shown without taking the focus: the page opened behind it is usable as it is.
   host.hidden = false;
-  restore.focus();
 }

@@ -9,14 +9,27 @@ import { storeStatus } from './library-api.ts';
 import type { LibraryPanel } from './library.ts';
 import type { PageShell, Saver } from './library-save.ts';
 
-/** Whether the server's store can be used; `message` says why not. */
+/** A server message as a sentence: "the file is locked" → "the file is locked." */
+export function sentence(text: string): string {
+  const t = text.trim();
+  return /[.!?]$/.test(t) ? t : `${t}.`;
+}
+
+/** Whether the server's store can be used; `message` says why not (a sentence). */
 export class StoreAccess {
   message: string | null = null;
+  private first: Promise<void> | null = null;
+
+  /** The first answer of the server (asked once); later calls return at once. */
+  settled(): Promise<void> {
+    this.first ??= this.check();
+    return this.first;
+  }
 
   async check(): Promise<void> {
     const answer = await storeStatus();
-    if (!answer.ok) this.message = answer.status === 404 ? 'this server has no scenario library.' : answer.message;
-    else if (!answer.value.available) this.message = answer.value.message ?? 'the scenario library is not available on this server.';
+    if (!answer.ok) this.message = answer.status === 404 ? 'this server has no scenario library.' : sentence(answer.message);
+    else if (!answer.value.available) this.message = sentence(answer.value.message ?? 'the scenario library is not available on this server');
     else this.message = null;
   }
 }
@@ -40,7 +53,8 @@ export function setUpLibraryHeader(shell: PageShell, saver: Saver, access: Store
     libraryButton.title = off ? `The library is not available: ${off}` : 'Stored scenarios, their versions, runs and reports';
     const parts: (Node | string)[] = [];
     if (link) {
-      const open = h('button', { type: 'button', class: 'link-button', 'data-testid': 'work-link' }, dirty ? `“${link.name}” v${link.version}` : `saved as “${link.name}” v${link.version}`);
+      // The name may be shortened on screen; the version never is.
+      const open = h('button', { type: 'button', class: 'link-button', 'data-testid': 'work-link', title: `Open the history of “${link.name}”` }, dirty ? '“' : 'saved as “', h('span', { class: 'work-name' }, link.name), `” v${link.version}`);
       open.addEventListener('click', () => void showPanel(link.id));
       parts.push(open);
       if (dirty) parts.push(h('span', { class: 'unsaved' }, ' · unsaved changes'));
@@ -84,7 +98,7 @@ export function setUpLibraryHeader(shell: PageShell, saver: Saver, access: Store
     // Older browsers ask only when returnValue is set.
     ev.returnValue = '';
   });
-  void access.check().then(render);
+  void access.settled().then(render);
   render();
   return { render };
 }

@@ -402,6 +402,7 @@ setUpLibraryHeader(shell, saver, storeAccess, new LibraryPanel(shell));
  * saved first. Without a library the report is made as before, unrecorded.
  */
 async function issueFor(scenario: unknown): Promise<IssueTarget | null | 'stop'> {
+  await storeAccess.settled();
   if (storeAccess.message !== null) return null;
   let link = tracker.stored;
   let fingerprint = tracker.base;

@@ -169,6 +169,23 @@ describe('the scenario library in Chromium', () => {
     expect(await field(page, 'title').inputValue()).toBe('Brennock, reviewed');
   }, stepTimeout);
 
+  it('a full storage does not break editing: the page says once that no draft is kept', async () => {
+    await page.evaluate(() => {
+      Storage.prototype.setItem = () => {
+        throw new DOMException('full', 'QuotaExceededError');
+      };
+    });
+    await typeInto(page, 'doses[0].amount', '650');
+    await expect.poll(() => page.locator('#notice').innerText()).toMatch(/would not keep a draft/);
+    await page.evaluate(() => (document.getElementById('notice')!.textContent = ''));
+    await typeInto(page, 'doses[0].amount', '700');
+    // pagehide writes at once; the announcement would land in the next frame.
+    await page.evaluate(() => new Promise((r) => (dispatchEvent(new Event('pagehide')), requestAnimationFrame(() => requestAnimationFrame(r)))));
+    expect(await page.locator('#notice').innerText()).toBe('');
+    expect(await state()).toMatch(/unsaved changes$/);
+    expect(await page.evaluate(() => window.__tidemark.scenario.doses?.[0].amount)).toBe('700 mg');
+  }, stepTimeout);
+
   it('made no console errors, page errors or CSP violations', async () => {
     await expectCleanRecord(record, 0);
   });
