@@ -158,7 +158,7 @@ export class HistoryView {
         h('td', {}, r.method),
         h('td', { class: 'num' }, `${num(r.durationMs)} ms`),
         h('td', { class: 'figures-cell' }, keyFigureWords(r.figures)),
-        h('td', {}, r.warnings.length ? h('ul', { class: 'warnings' }, ...r.warnings.map((w) => h('li', {}, w))) : 'none'),
+        h('td', {}, r.warnings.length ? h('ul', { class: 'run-warnings' }, ...r.warnings.map((w) => h('li', {}, w))) : 'none'),
       ),
     );
     return table('Runs, newest first', ['Started', 'Version', 'Method', 'Took', 'Key figures', 'Warnings'], rows, 'library-runs');

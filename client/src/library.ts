@@ -117,7 +117,7 @@ export class LibraryPanel {
       h('td', { class: 'num' }, `v${s.latestVersion}`),
       h('td', {}, h('time', { datetime: s.updated }, localDateTime(s.updated))),
       h('td', {}, s.author || '—'),
-      h('td', { class: 'row-actions' }, ...actions),
+      h('td', {}, h('div', { class: 'library-actions' }, ...actions)),
     );
   }
 
