@@ -17,8 +17,14 @@ export type StoreOpening =
   | { ok: false; file: string; message: string; /** the cause may pass (a lock): worth trying again later */ transient: boolean };
 
 export interface OpenOptions {
-  /** How long a write waits for another program's lock before giving up, in milliseconds. */
+  /**
+   * How long a statement waits for another program's lock before giving up, in milliseconds
+   * (default 1000). better-sqlite3 waits synchronously, so the server's HTTP thread stands
+   * still that long: a short wait and a 503 that says why beats a server that stalls.
+   */
   busyTimeoutMs?: number;
+  /** The same wait while opening (default 250): a locked file at start-up must not hold up the server. */
+  openTimeoutMs?: number;
   /** Open without writing anything (the command line's list, show and export). */
   readOnly?: boolean;
 }
@@ -97,7 +103,7 @@ export function openStore(file: string, options: OpenOptions = {}): StoreOpening
   if (readOnly && !exists) return { ok: false, file, message: `there is no store at ${file}`, transient: false };
   let db: Db | null = null;
   try {
-    db = new Database(file, { readonly: readOnly, fileMustExist: readOnly, timeout: options.busyTimeoutMs ?? 5000 });
+    db = new Database(file, { readonly: readOnly, fileMustExist: readOnly, timeout: options.openTimeoutMs ?? Math.min(250, options.busyTimeoutMs ?? 250) });
     db.pragma('foreign_keys = ON');
     // The checks come before anything that writes: switching a rollback-journal file to WAL
     // rewrites its header, which a damaged or newer file must not have done to it.
@@ -123,6 +129,7 @@ export function openStore(file: string, options: OpenOptions = {}): StoreOpening
       }
       migrate(db, recorded);
     }
+    db.pragma(`busy_timeout = ${Math.max(0, Math.round(options.busyTimeoutMs ?? 1000))}`);
     return { ok: true, db, file, schemaVersion: latestSchemaVersion, readOnly, ...(note ? { note } : {}) };
   } catch (e) {
     try {
