@@ -9,9 +9,10 @@
  * exits non-zero when the light p99 is 1 s or more or a light request failed.
  */
 import { spawn } from 'node:child_process';
-import { readFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync } from 'node:fs';
 import { createServer } from 'node:net';
-import { availableParallelism, loadavg } from 'node:os';
+import { availableParallelism, loadavg, tmpdir } from 'node:os';
+import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 
 const root = fileURLToPath(new URL('..', import.meta.url));
@@ -105,7 +106,7 @@ async function main(): Promise<number> {
   const base = `http://${host}:${port}/`;
   const server = spawn(process.execPath, ['--import', 'tsx', 'server/main.ts'], {
     cwd: root,
-    env: { ...process.env, HOST: host, PORT: String(port) },
+    env: { ...process.env, HOST: host, PORT: String(port), TIDEMARK_DATA: mkdtempSync(join(tmpdir(), 'tidemark-load-data-')) },
     stdio: ['ignore', 'pipe', 'pipe'],
   });
   let serverLog = '';

@@ -16,9 +16,9 @@
  * and at the end.
  */
 import { spawn, spawnSync } from 'node:child_process';
-import { existsSync, readFileSync } from 'node:fs';
+import { existsSync, mkdtempSync, readFileSync } from 'node:fs';
 import { createServer } from 'node:net';
-import { loadavg } from 'node:os';
+import { loadavg, tmpdir } from 'node:os';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 
@@ -148,7 +148,7 @@ async function serverRun(args: string[]): Promise<ServerRun> {
   const port = await freePort();
   const body = readFileSync(join(root, 'samples', 'brennock-oral-bid.json'), 'utf8');
   const t0 = performance.now();
-  const child = spawn(process.execPath, args, { cwd: root, env: { ...process.env, PORT: String(port), HOST: '127.0.0.1' }, stdio: ['ignore', 'ignore', 'pipe'] });
+  const child = spawn(process.execPath, args, { cwd: root, env: { ...process.env, PORT: String(port), HOST: '127.0.0.1', TIDEMARK_DATA: mkdtempSync(join(tmpdir(), 'tidemark-bench-data-')) }, stdio: ['ignore', 'ignore', 'pipe'] });
   let stderr = '';
   child.stderr.on('data', (d: Buffer) => (stderr += d.toString()));
   let exited = false;

@@ -117,7 +117,7 @@ describe('the built server', () => {
   it('answers a simulation as the engine does, and a report, from its built workers', async () => {
     ensureClientBuilt(); // else the server would build the page itself
     const port = await freePort();
-    const server = spawn(process.execPath, [out('main.js')], { cwd: root, env: { ...process.env, PORT: String(port), HOST: '127.0.0.1' }, stdio: ['ignore', 'pipe', 'pipe'] });
+    const server = spawn(process.execPath, [out('main.js')], { cwd: root, env: { ...process.env, PORT: String(port), HOST: '127.0.0.1', TIDEMARK_DATA: mkdtempSync(join(tmpdir(), 'tidemark-built-data-')) }, stdio: ['ignore', 'pipe', 'pipe'] });
     let log = '';
     server.stdout.on('data', (d: Buffer) => (log += d.toString()));
     server.stderr.on('data', (d: Buffer) => (log += d.toString()));
