@@ -23,6 +23,10 @@ import { APPROACH_DEFINITION, steadyStateFigures, type SteadyStateFigures } from
 import { CompartmentSystem, type StateLayout } from './building/system.ts';
 import { displayUnit } from './scenario/units.ts';
 import { limits } from './scenario/limits.ts';
+import { predictObservations, type ResultClock } from './levels/predictions.ts';
+import type { ObservationFit } from './levels/observation.ts';
+import { isoDateTime, formatOffset } from './levels/clock.ts';
+import { unitsPerHour } from './scenario/instants.ts';
 
 // Re-exported for the server and the tests, which take them from the entry point.
 export { choosePath, solveSchedule, type Solution, type SolutionPath } from './solving/solve.ts';
@@ -89,6 +93,10 @@ export interface SimulationResult {
   events: SimulationEvent[];
   metrics: { compartments: CompartmentFigures[]; steadyState: SteadyStateFigures | null };
   diagnostics: Diagnostics;
+  /** The clock, when the scenario writes date-times; null otherwise. */
+  clock: ResultClock | null;
+  /** Measured levels with the model's prediction at each time and the residual (observed − predicted). */
+  observations: ObservationFit[];
 }
 
 export function simulate(input: unknown): Outcome<SimulationResult> {
@@ -125,6 +133,7 @@ export function simulateModel(model: Model): Outcome<SimulationResult> {
   if (steady?.reached) warnings.push(...courseEndWarnings(model, steady));
 
   const units = resultUnits(model);
+  const observations = predictObservations(model, solution.trajectory);
   // Everything is read off the solution: its dense output goes back for the next run in this thread.
   releaseTrajectory(solution.trajectory);
   return {
@@ -151,7 +160,23 @@ export function simulateModel(model: Model): Outcome<SimulationResult> {
         massBalance: balance,
         warnings,
       },
+      clock: resultClock(model),
+      observations,
     },
+  };
+}
+
+function resultClock(model: Model): ResultClock | null {
+  const c = model.clock;
+  if (c === null) return null;
+  return {
+    origin: isoDateTime(c.originMs, c.zoneMinutes),
+    zone: formatOffset(c.zoneMinutes),
+    zoneGiven: c.zoneGiven,
+    originFrom: c.originFrom,
+    originMs: c.originMs,
+    zoneMinutes: c.zoneMinutes,
+    hoursPerTimeUnit: 1 / unitsPerHour(model.units),
   };
 }
 

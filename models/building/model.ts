@@ -6,6 +6,8 @@
 import type { SolverMethod } from '../scenario/schema.ts';
 import type { Covariates } from '../subject/subject.ts';
 import type { UnitSystem } from '../scenario/units.ts';
+import type { Clock } from '../levels/clock.ts';
+import type { Observation } from '../levels/observation.ts';
 
 export interface ModelCompartment {
   id: string;
@@ -99,6 +101,10 @@ export interface Model {
   linear: boolean;
   /** The subject's covariates and the quantities they changed; null when the scenario describes no subject. */
   subject: { covariates: Covariates; adjustments: Adjustment[] } | null;
+  /** Where elapsed time 0 sits on the calendar; null when the scenario writes no date-time. */
+  clock: Clock | null;
+  /** Measured levels, ascending as written; times in the scenario's time unit. */
+  observations: Observation[];
 }
 
 /** A model quantity that covariate relations changed for this subject, for tables and reports. */

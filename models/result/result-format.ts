@@ -25,6 +25,10 @@ export interface SimulationResultJson {
     steadyState: SteadyStateFigures | null;
   };
   diagnostics: Diagnostics;
+  /** Present when the scenario writes date-times (older results have no such field). */
+  clock?: SimulationResult['clock'];
+  /** Present when the scenario has measured levels. */
+  observations?: SimulationResult['observations'];
 }
 
 export function resultToJson(result: SimulationResult): SimulationResultJson {
@@ -48,6 +52,8 @@ export function resultToJson(result: SimulationResult): SimulationResultJson {
     events: result.events,
     metrics: { compartments: figures, steadyState: result.metrics.steadyState },
     diagnostics: result.diagnostics,
+    ...(result.clock ? { clock: result.clock } : {}),
+    ...(result.observations.length > 0 ? { observations: result.observations } : {}),
   };
 }
 

@@ -19,6 +19,9 @@ import { formatPath, type Outcome, type Problem } from './problems.ts';
 import { scenarioSchema, type AdjustedQuantity, type ModelQuantity, type Quantity, type Scenario, type Subject } from './schema.ts';
 import { logitNormalSpread, logNormalSpread } from '../subject/variability.ts';
 import { readShare } from './shares.ts';
+import { readClock, readInstant, refuseDateTime } from './instants.ts';
+import { readObservations } from './observations.ts';
+import type { Clock } from '../levels/clock.ts';
 
 type VariationKind = NonNullable<AdjustedQuantity['variation']>;
 import { applyRelation } from '../subject/relations.ts';
@@ -159,8 +162,19 @@ function cachedLogitSpread(typical: number, cv: number): ReturnType<typeof logit
   return found;
 }
 
+/**
+ * A list or an object given where either is allowed (`observations`): that option's own problems,
+ * each at its own path, rather than one "must be a list or …" for the whole field.
+ */
+function listOptionIssues(issue: z.core.$ZodIssue): z.core.$ZodIssue[] | null {
+  if (issue.code !== 'invalid_union' || typeof issue.input !== 'object' || issue.input === null || issue.path[0] !== 'observations') return null;
+  const list = Array.isArray(issue.input);
+  const inside = issue.errors.find((option) => option.length > 0 && option.every((i) => (list ? typeof i.path[0] === 'number' : i.path.length > 0)));
+  return inside ? inside.map((i) => ({ ...i, path: [...issue.path, ...i.path] }) as z.core.$ZodIssue) : null;
+}
+
 function zodProblems(error: z.ZodError): Problem[] {
-  return error.issues.map((issue) => {
+  return error.issues.flatMap((issue) => listOptionIssues(issue) ?? [issue]).map((issue) => {
     const path = formatPath(issue.path);
     if (issue.code === 'unrecognized_keys') {
       // A field renamed in this version is named with its new spelling.
@@ -250,8 +264,9 @@ export function buildModel(s: Scenario, variant?: SubjectVariant): Outcome<Model
   const index = new Map(compartments.map((c, i) => [c.id, i]));
   const transfers = readTransfers(s, r, compartments, index);
 
-  const start = r.read(s.output.start, 'time', 'output.start', 'any') ?? 0;
-  const end = r.read(s.output.end, 'time', 'output.end', 'any');
+  const clock = readClock(s, r);
+  const start = readInstant(s.output.start, 'output.start', clock, r) ?? 0;
+  const end = readInstant(s.output.end, 'output.end', clock, r);
   if (end !== null && !(end > start)) r.fail('output.end', 'must be after output.start');
   const longest = longestSpan(r.units);
   const spanOk = end !== null && end > start && end - start <= longest;
@@ -260,8 +275,9 @@ export function buildModel(s: Scenario, variant?: SubjectVariant): Outcome<Model
   }
   const span = spanOk && end !== null ? { start, end } : null;
 
-  const doses = span ? readDoses(s, r, compartments, index, span) : null;
-  const outputTimes = span ? (variant?.outputTimes ?? readOutputTimes(s, r, span)) : null;
+  const doses = span ? readDoses(s, r, compartments, index, span, clock) : null;
+  const outputTimes = span ? (variant?.outputTimes ?? readOutputTimes(s, r, span, clock)) : null;
+  const observations = span ? readObservations(s, r, compartments, span, clock) : [];
   const thresholds = readThresholds(s, r, compartments, index);
   const solver = readSolver(s, r);
 
@@ -284,6 +300,8 @@ export function buildModel(s: Scenario, variant?: SubjectVariant): Outcome<Model
       solver,
       linear: transfers.every((t) => t.kinetics.kind === 'first-order'),
       subject: subjectGiven === undefined ? null : { covariates: subject.covariates, adjustments: r.adjustments },
+      clock,
+      observations,
     },
   };
 }
@@ -419,6 +437,7 @@ function readDoses(
   compartments: ModelCompartment[],
   index: Map<string, number>,
   span: { start: number; end: number },
+  clock: Clock | null,
 ): { administrations: Administration[]; lines: DoseLineSummary[] } | null {
   const administrations: Administration[] = [];
   const lines: DoseLineSummary[] = [];
@@ -428,10 +447,10 @@ function readDoses(
     const into = index.get(d.into);
     if (into === undefined) r.fail(`${path}.into`, noSuchCompartment(d.into, compartments));
     const amount = readDoseAmount(d.amount, `${path}.amount`, r);
-    const at = r.read(d.at, 'time', `${path}.at`, 'any');
+    const at = readInstant(d.at, `${path}.at`, clock, r);
     if (at !== null && at < span.start) r.fail(`${path}.at`, 'is before output.start; the simulation starts empty at output.start');
-    const lag = r.read(d.lag, 'time', `${path}.lag`, 'non-negative') ?? 0;
-    let duration = r.read(d.duration, 'time', `${path}.duration`);
+    const lag = refuseDateTime(d.lag, `${path}.lag`, r) ? 0 : (r.read(d.lag, 'time', `${path}.lag`, 'non-negative') ?? 0);
+    let duration = refuseDateTime(d.duration, `${path}.duration`, r) ? null : r.read(d.duration, 'time', `${path}.duration`);
     const rate = r.read(d.rate, 'amountRate', `${path}.rate`);
     if (rate !== null && amount !== null) {
       const fromRate = amount / rate;
@@ -440,8 +459,8 @@ function readDoses(
       }
       duration = fromRate;
     }
-    const every = r.read(d.every, 'time', `${path}.every`);
-    const through = r.read(d.through, 'time', `${path}.through`, 'any');
+    const every = refuseDateTime(d.every, `${path}.every`, r) ? null : r.read(d.every, 'time', `${path}.every`);
+    const through = readInstant(d.through, `${path}.through`, clock, r);
     if (d.every === undefined && d.count !== undefined && d.count > 1) r.fail(`${path}.count`, 'needs `every` (the dosing interval)');
     if (d.every === undefined && d.through !== undefined) r.fail(`${path}.through`, 'needs `every` (the dosing interval)');
     if (d.count !== undefined && d.through !== undefined) r.fail(`${path}.through`, 'give `count` or `through`, not both');
@@ -506,9 +525,9 @@ function readDoses(
   return { administrations, lines };
 }
 
-function readOutputTimes(s: Scenario, r: Reader, span: { start: number; end: number }): Float64Array | null {
+function readOutputTimes(s: Scenario, r: Reader, span: { start: number; end: number }, clock: Clock | null): Float64Array | null {
   const width = span.end - span.start;
-  const step = s.output.step === undefined ? null : r.read(s.output.step, 'time', 'output.step');
+  const step = s.output.step === undefined || refuseDateTime(s.output.step, 'output.step', r) ? null : r.read(s.output.step, 'time', 'output.step');
   if (s.output.step !== undefined && step === null) return null;
   const gridStep = step ?? (s.output.times === undefined ? width / 500 : null);
   const gridCount = gridStep === null ? 0 : Math.floor(width / gridStep + 1e-9) + 1;
@@ -523,7 +542,7 @@ function readOutputTimes(s: Scenario, r: Reader, span: { start: number; end: num
   for (let i = 0; i < gridCount; i++) times[n++] = Math.min(span.end, span.start + i * (gridStep as number));
   let bad = false;
   s.output.times?.forEach((q, i) => {
-    const t = r.read(q, 'time', `output.times[${i}]`, 'any');
+    const t = readInstant(q, `output.times[${i}]`, clock, r);
     if (t === null) bad = true;
     else if (t < span.start || t > span.end) {
       r.fail(`output.times[${i}]`, `must lie within the simulated span ${span.start} to ${span.end}`);
@@ -575,7 +594,7 @@ function readThresholds(
 }
 
 function readSolver(s: Scenario, r: Reader): Model['solver'] | null {
-  const step = r.read(s.solver.step, 'time', 'solver.step');
+  const step = refuseDateTime(s.solver.step, 'solver.step', r) ? null : r.read(s.solver.step, 'time', 'solver.step');
   if (fixedStepMethods.has(s.solver.method) && s.solver.step === undefined) {
     r.fail('solver.step', `is required by the fixed-step method '${s.solver.method}'`);
     return null;

@@ -10,6 +10,14 @@ export const quantity = z
   .union([z.number(), z.string().trim().min(1, 'must not be empty')], 'must be a number, or a string with a unit such as "12 L"')
   .describe('A number in the scenario units, or a string with a unit, e.g. "12 L", "3.5 L/h", "30 min", "0.2 1/h".');
 
+/**
+ * An instant: a quantity (elapsed time, e.g. 36 or "36 h"), or an ISO 8601 date-time counted from
+ * the clock origin. Durations (lag, duration, every, step) stay plain quantities.
+ */
+export const instant = z
+  .union([z.number(), z.string().trim().min(1, 'must not be empty')], 'must be a number, a string with a unit such as "36 h", or a date-time such as "2026-03-04T08:00"')
+  .describe('A time: a number in the scenario time unit, a string with a unit ("36 h"), or an ISO 8601 date-time ("2026-03-04T08:00", "2026-03-04T08:00+01:00"), counted from the clock origin.');
+
 /** The sexes the published covariate formulas distinguish (Cockcroft–Gault, Devine, Janmahasatian). */
 export const sexes = ['female', 'male'] as const;
 
@@ -111,7 +119,7 @@ export const doseSchema = z
   .strictObject({
     into: identifier.describe('Compartment that receives the dose (a depot for oral doses).'),
     amount: quantity.describe('Amount given per dose (before bioavailability); per body size as "5 mg/kg" (subject weight) or "100 mg/m2" (body surface area).'),
-    at: quantity.default(0).describe('Time of the first administration.'),
+    at: instant.default(0).describe('Time of the first administration: elapsed time or a date-time.'),
     duration: quantity.optional().describe('Infusion duration: makes the dose a zero-order infusion.'),
     rate: quantity.optional().describe('Infusion rate (amount/time): the duration is amount/rate.'),
     bioavailability: z
@@ -121,7 +129,7 @@ export const doseSchema = z
     lag: modelQuantity.optional().describe('Delay between administration and arrival.'),
     every: quantity.optional().describe('Dosing interval for repeated doses.'),
     count: z.number().int().min(1).max(100000).optional().describe('Number of doses in the series (with every).'),
-    through: quantity.optional().describe('Repeat while the administration time is at or before this time (with every): the last dose is given at or before it.'),
+    through: instant.optional().describe('Repeat while the administration time is at or before this time (with every): the last dose is given at or before it.'),
     label: z.string().max(80).optional().describe('Name for this dose line, e.g. "loading".'),
   })
   .describe('One dose or a repeated series of doses.');
@@ -136,10 +144,10 @@ export const thresholdSchema = z
 
 export const outputSchema = z
   .strictObject({
-    end: quantity.describe('End of the simulated span.'),
-    start: quantity.default(0).describe('Start of the simulated span.'),
+    end: instant.describe('End of the simulated span: elapsed time or a date-time.'),
+    start: instant.default(0).describe('Start of the simulated span: elapsed time or a date-time.'),
     step: quantity.optional().describe('Spacing of reported times.'),
-    times: z.array(quantity).max(2_000_000).optional().describe('Explicit reported times (added to the step grid).'),
+    times: z.array(instant).max(2_000_000).optional().describe('Explicit reported times (added to the step grid).'),
     thresholds: z.array(thresholdSchema).max(20).default([]),
   })
   .describe('What to report.');
@@ -235,6 +243,46 @@ export const populationSchema = z
   })
   .describe('A virtual population: subjects drawn from covariate distributions and between-subject variability.');
 
+export const clockSchema = z
+  .strictObject({
+    origin: z.string().trim().min(1, 'must not be empty').optional().describe('The date-time elapsed time 0 stands for, e.g. "2026-03-04T08:00" or "2026-03-04T08:00+01:00". Without it, the earliest dose date-time.'),
+    zone: z.string().trim().min(1, 'must not be empty').optional().describe('The UTC offset of date-times written without one, and the one clock times are shown in, e.g. "+01:00" (default UTC). A fixed offset: named zones are not read.'),
+  })
+  .describe('Clock times: where elapsed time 0 sits on the calendar, so instants may be written as ISO 8601 date-times.');
+
+export const observationSchema = z
+  .strictObject({
+    time: instant.describe('When the sample was drawn: elapsed time ("23.75 h") or a date-time ("2026-03-05T07:45").'),
+    compartment: identifier.describe('The compartment the level was measured in; it must have a volume.'),
+    concentration: quantity.optional().describe('The measured level, e.g. "4.1 mg/L" (a plain number is in the scenario\'s concentration unit). May be left out for a level below the limit.'),
+    subject: z.string().trim().min(1).max(80).optional().describe('Whose level, e.g. "P-017".'),
+    belowLimit: z.boolean().optional().describe('true when the laboratory reported the level below its limit of quantification (give `limit`).'),
+    limit: quantity.optional().describe('The limit of quantification, e.g. "0.5 mg/L".'),
+    label: z.string().max(120).optional().describe('A note, e.g. "trough before dose 3".'),
+    source: z.string().max(600).optional().describe('Where the row came from, e.g. "levels.csv line 7"; set by the command line when it reads an observations file.'),
+  })
+  .describe('A measured concentration.');
+
+/** The mapping of a CSV's own headers onto the observation fields. */
+export const observationMappingSchema = z
+  .strictObject({
+    time: z.string().min(1).max(120).optional(),
+    compartment: z.string().min(1).max(120).optional(),
+    concentration: z.string().min(1).max(120).optional(),
+    subject: z.string().min(1).max(120).optional(),
+    belowLimit: z.string().min(1).max(120).optional(),
+    limit: z.string().min(1).max(120).optional(),
+    label: z.string().min(1).max(120).optional(),
+  })
+  .describe('Which header of the file holds each field, when it is not the default name, e.g. { "time": "Sample drawn", "concentration": "Level" }.');
+
+export const observationsFileSchema = z
+  .strictObject({
+    file: z.string().min(1).max(500).describe('A CSV file of observations (headers time, compartment, concentration, subject, below limit, limit, label; a unit may follow in brackets, e.g. "concentration [mg/L]"), read by the command line relative to the scenario file.'),
+    mapping: observationMappingSchema.optional(),
+  })
+  .describe('Observations read from a CSV file.');
+
 export const scenarioSchema = z
   .strictObject({
     title: z.string().min(1).max(200),
@@ -247,6 +295,11 @@ export const scenarioSchema = z
     output: outputSchema,
     solver: solverSchema.default({ method: 'auto', rtol: 1e-8, atol: 1e-10, maxSteps: 5_000_000 }),
     population: populationSchema.optional(),
+    clock: clockSchema.optional(),
+    observations: z
+      .union([z.array(observationSchema).max(10_000), observationsFileSchema], 'must be a list of observations, or { "file": "levels.csv" }')
+      .optional()
+      .describe('Measured levels, shown beside the model\'s curve with its prediction at each time: a list, or a CSV file read by the command line.'),
   })
   .describe('A Tidemark scenario: a compartment model, a dose schedule and what to report.');
 
@@ -264,4 +317,8 @@ export type CovariateDistribution = z.output<typeof covariateDistributionSchema>
 export type Sex = (typeof sexes)[number];
 export type DoseLine = z.output<typeof doseSchema>;
 export type TransferLine = z.output<typeof transferSchema>;
+export type Instant = z.output<typeof instant>;
+export type ObservationLine = z.output<typeof observationSchema>;
+export type ObservationMapping = z.output<typeof observationMappingSchema>;
+export type ClockLine = z.output<typeof clockSchema>;
 export type SolverMethod = (typeof solverMethods)[number];
