@@ -35,6 +35,10 @@ commands:
   store ACTION     the scenario store (the server's, or --data DIR): list, show ID (a version's
                    scenario as JSON, --history, --diff A B), export FILE, import FILE, backup FILE;
                    \`store --help\` for its options
+  nca FILE         non-compartmental figures of measured levels in a CSV (subject, time,
+                   concentration, below limit), per subject and summarised; \`nca --help\` for its options
+                   options: [--dose AMOUNT] [--dose-time T] [--route intravascular|extravascular|infusion]
+                   [--duration D] [--interval TAU] [--rule linear|log-down] [--format text|json|csv]
   help             this summary
 
 options:

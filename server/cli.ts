@@ -1,5 +1,5 @@
 /**
- * Command line: simulate, report, population, merge, validate, schema, verify, store (the commands are in cli-commands.ts; store in store/cli.ts).
+ * Command line: simulate, report, population, merge, validate, schema, verify, store, nca (the commands are in cli-commands.ts; store in store/cli.ts, nca in nca-cli.ts).
  * Exit 0 on success, 1 when the scenario is invalid, the computation fails or exceeds its
  * time limit, or the output cannot be written; 2 on a usage error. Errors go to stderr as
  * "path: message" lines, never as stack traces.
@@ -136,6 +136,12 @@ async function runStore(args: string[], folder: string): Promise<Finished> {
   return toFinished({ ...o, stdout: visibleLines(o.stdout), stderr: visibleLines(o.stderr) });
 }
 
+/** nca: non-compartmental figures of a levels CSV, pure arithmetic: neither the engine nor a worker thread (nca-cli.ts). */
+async function runNca(args: string[], folder: string): Promise<Finished> {
+  const { runNcaCli } = await import('./nca-cli.ts');
+  return toFinished(runNcaCli(args.slice(1), { folder }));
+}
+
 function toFinished(o: CliOutcome): Finished {
   const file = o.file ? { path: o.file.path, data: o.file.text } : o.binaryFile ? { path: o.binaryFile.path, data: o.binaryFile.bytes } : undefined;
   return { code: o.code, stdout: o.stdout, stderr: o.stderr, ...(file ? { file } : {}) };
@@ -173,7 +179,7 @@ async function main(): Promise<void> {
   try {
     const seconds = timeLimitOf(args);
     const population = args[0] === 'population' && !args.includes('--help') && !args.includes('-h');
-    finished = args[0] === 'store' ? await runStore(args, folder) : population ? await runPopulation(args, folder) : seconds === null ? await runInThread(args, folder) : await runInWorker(args, folder, seconds);
+    finished = args[0] === 'store' ? await runStore(args, folder) : args[0] === 'nca' ? await runNca(args, folder) : population ? await runPopulation(args, folder) : seconds === null ? await runInThread(args, folder) : await runInWorker(args, folder, seconds);
   } catch (e) {
     // A defect, not a user error: say so plainly, without a stack trace.
     process.stderr.write(`internal error: ${visibleText(e instanceof Error ? e.message : String(e))}\nPlease report this with the scenario file.\n`);
