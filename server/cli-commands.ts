@@ -13,6 +13,7 @@ import { describeProblems, normaliseScenario, resultToCsv, resultToJsonText, sce
 import { hasPopulation, planPopulation, runBatch, summarise, shardRange, type Batch, type PopulationPlan, type PopulationResult } from '../models/population/population.ts';
 import { parseOptions, parseShard, parseTimeLimit, parseWhole, usage } from './cli-options.ts';
 import { withCovariateFile } from './covariate-csv.ts';
+import { withObservationsFile } from './observations-csv.ts';
 import { checkParts, decodeBatch, makePart, readPart, type PartFile } from './population-parts.ts';
 import { populationToCsv, populationToText } from './population-text.ts';
 import { sameFile } from './same-file.ts';
@@ -132,8 +133,10 @@ export function preparePopulation(args: string[], context: CliContext & { cores?
     const clash = overwritesInput(out, [['scenario file', file]]);
     if (clash) return fail(clash);
   }
-  const input = readScenario(file);
-  if (!input.ok) return fail(input.message);
+  const read = readScenario(file);
+  if (!read.ok) return fail(read.message);
+  const input = withObservationsFile(read.value, file, parsed.positional[0]);
+  if (!input.ok) return { outcome: finish({ code: 1, stdout: '', stderr: input.errors.join('\n') + '\n' }) };
   const withTable = withCovariateFile(input.value, file, parsed.positional[0]);
   if (!withTable.ok) return { outcome: finish({ code: 1, stdout: '', stderr: withTable.errors.join('\n') + '\n' }) };
   const plan = planPopulation(withTable.value, { subjects: subjects.value, seed: seed.value });
@@ -308,8 +311,11 @@ function run(args: string[], context: CliContext): CliOutcome {
     case 'validate': {
       const wrong = unknownOption([]);
       if (wrong) return wrong;
-      const input = readScenario(positional[0]);
-      if (!input.ok) return fail(input.message);
+      const read = readScenario(positional[0]);
+      if (!read.ok) return fail(read.message);
+      // An observations file is checked as simulate reads it.
+      const input = withObservationsFile(read.value, positional[0] as string, parsed.positional[0]);
+      if (!input.ok) return { code: 1, stdout: '', stderr: input.errors.join('\n') + '\n' };
       const model = normaliseScenario(input.value);
       if (!model.ok) return problems(model.problems, parsed.positional[0]);
       const m = model.value;
@@ -322,10 +328,11 @@ function run(args: string[], context: CliContext): CliOutcome {
         if (!plan.ok) return problems(plan.problems, parsed.positional[0]);
         population = `; a population of ${plan.value.subjects} with ${plan.value.varying.length} varying quantities, ${plan.value.targets.length} targets and ${plan.value.regimens.length} regimens`;
       }
+      const levels = m.observations.length > 0 ? `; ${m.observations.length} observation${m.observations.length === 1 ? '' : 's'}` : '';
       return {
         code: 0,
-        stdout: `${visibleText(parsed.positional[0])}: valid — ${m.compartments.length} compartments, ${m.transfers.length} transfers, ${m.administrations.length} administrations, ${m.linear ? 'linear' : 'saturable'} model${population}\n`,
-        stderr: '',
+        stdout: `${visibleText(parsed.positional[0])}: valid — ${m.compartments.length} compartments, ${m.transfers.length} transfers, ${m.administrations.length} administrations, ${m.linear ? 'linear' : 'saturable'} model${levels}${population}\n`,
+        stderr: input.notes.map((n) => `note: ${n}\n`).join(''),
       };
     }
     case 'simulate': {
@@ -339,8 +346,10 @@ function run(args: string[], context: CliContext): CliOutcome {
         const clash = overwritesInput(out, [['scenario file', positional[0]]]);
         if (clash) return fail(clash);
       }
-      const input = readScenario(positional[0]);
-      if (!input.ok) return fail(input.message);
+      const read = readScenario(positional[0]);
+      if (!read.ok) return fail(read.message);
+      const input = withObservationsFile(read.value, positional[0] as string, parsed.positional[0]);
+      if (!input.ok) return { code: 1, stdout: '', stderr: input.errors.join('\n') + '\n' };
       const result = simulate(input.value);
       if (!result.ok) return problems(result.problems, parsed.positional[0]);
       const r = result.value;
@@ -351,7 +360,7 @@ function run(args: string[], context: CliContext): CliOutcome {
           : format === 'text'
             ? summaryText({ ...r, title: visibleText(r.title), diagnostics: { ...r.diagnostics, warnings: r.diagnostics.warnings.map(visibleText) } })
             : resultToJsonText(r, 2) + '\n';
-      const warnings = format === 'text' ? '' : r.diagnostics.warnings.map((w) => `warning: ${visibleText(w)}\n`).join('');
+      const warnings = input.notes.map((n) => `note: ${n}\n`).join('') + (format === 'text' ? '' : r.diagnostics.warnings.map((w) => `warning: ${visibleText(w)}\n`).join(''));
       return out !== undefined
         ? { code: 0, stdout: '', stderr: warnings + `wrote result to ${visibleText(out)}\n`, file: { path: out, text } }
         : { code: 0, stdout: text, stderr: warnings };
@@ -393,8 +402,10 @@ function run(args: string[], context: CliContext): CliOutcome {
         const clash = overwritesInput(chosen, inputs);
         if (clash) return fail(clash);
       }
-      const input = readScenario(positional[0]);
-      if (!input.ok) return fail(input.message);
+      const read = readScenario(positional[0]);
+      if (!read.ok) return fail(read.message);
+      const input = withObservationsFile(read.value, positional[0] as string, parsed.positional[0]);
+      if (!input.ok) return { code: 1, stdout: '', stderr: input.errors.join('\n') + '\n' };
       let reference: unknown;
       if (referenceFile !== undefined) {
         const read = readScenario(referenceFile);

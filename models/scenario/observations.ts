@@ -12,6 +12,7 @@ import type { Quantity, Scenario } from './schema.ts';
 import type { Dimension } from './units.ts';
 
 interface ObservationReader extends InstantReader {
+  readonly problems: { path: string; message: string }[];
   read(q: Quantity | undefined, dimension: Dimension, path: string, range?: 'positive' | 'non-negative' | 'any'): number | null;
 }
 
@@ -33,24 +34,38 @@ export function readObservations(
     const path = `observations[${i}]`;
     // A row read from a file is named by its line too, so the user finds it in the file.
     const where = (field: string) => `${path}.${field}`;
-    const fail = (field: string, message: string) => r.fail(where(field), o.source ? `${message} (${o.source})` : message);
-    const c = compartments.findIndex((x) => x.id === o.compartment);
+    const tell = (at: string, message: string) => r.fail(at, o.source ? `${message} (${o.source})` : message);
+    const fail = (field: string, message: string) => tell(where(field), message);
+    // Problems found while reading a value are told with the source too.
+    const read: ObservationReader = {
+      units: r.units,
+      fail: tell,
+      read: (q, dimension, at, range) => {
+        const before = r.problems.length;
+        const value = r.read(q, dimension, at, range);
+        for (let k = before; k < r.problems.length; k++) if (o.source) r.problems[k] = { ...r.problems[k], message: `${r.problems[k].message} (${o.source})` };
+        return value;
+      },
+      problems: r.problems,
+    };
+    // Without a compartment: the first with a volume, as for targets.
+    const c = o.compartment === undefined ? s.compartments.findIndex((x) => x.volume !== undefined) : compartments.findIndex((x) => x.id === o.compartment);
     let ok = true;
     if (c < 0) {
-      fail('compartment', `no compartment named '${o.compartment}' (compartments are ${compartments.map((x) => `'${x.id}'`).join(', ')})`);
+      fail('compartment', o.compartment === undefined ? 'is required: no compartment has a volume' : `no compartment named '${o.compartment}' (compartments are ${compartments.map((x) => `'${x.id}'`).join(', ')})`);
       ok = false;
     } else if (compartments[c].volume === null && s.compartments[c].volume === undefined) {
       fail('compartment', `'${o.compartment}' has no volume, so it has no concentration to compare a measured level with`);
       ok = false;
     }
-    const time = readInstant(o.time, where('time'), clock, r);
+    const time = readInstant(o.time, where('time'), clock, read);
     if (time !== null && (time < span.start || time > span.end)) {
       fail('time', `is at ${formatNumber(time)} ${r.units.time}, outside the simulated span ${formatNumber(span.start)} to ${formatNumber(span.end)} ${r.units.time}; widen output.start or output.end to compare it with the model`);
       ok = false;
     }
     const belowLimit = o.belowLimit === true;
-    const concentration = o.concentration === undefined ? null : r.read(o.concentration, 'concentration', where('concentration'), 'non-negative');
-    const limit = o.limit === undefined ? null : r.read(o.limit, 'concentration', where('limit'), 'positive');
+    const concentration = o.concentration === undefined ? null : read.read(o.concentration, 'concentration', where('concentration'), 'non-negative');
+    const limit = o.limit === undefined ? null : read.read(o.limit, 'concentration', where('limit'), 'positive');
     if (o.concentration === undefined && !belowLimit) {
       fail('concentration', 'is required (it may be left out only for a level marked belowLimit: true)');
       ok = false;
@@ -66,7 +81,7 @@ export function readObservations(
     if (!ok || time === null || (o.concentration !== undefined && concentration === null) || (o.limit !== undefined && limit === null)) return;
     out.push({
       time,
-      compartment: o.compartment,
+      compartment: compartments[c].id,
       concentration,
       subject: o.subject ?? null,
       belowLimit,

@@ -253,7 +253,7 @@ export const clockSchema = z
 export const observationSchema = z
   .strictObject({
     time: instant.describe('When the sample was drawn: elapsed time ("23.75 h") or a date-time ("2026-03-05T07:45").'),
-    compartment: identifier.describe('The compartment the level was measured in; it must have a volume.'),
+    compartment: identifier.optional().describe('The compartment the level was measured in; it must have a volume. Default: the first compartment with a volume.'),
     concentration: quantity.optional().describe('The measured level, e.g. "4.1 mg/L" (a plain number is in the scenario\'s concentration unit). May be left out for a level below the limit.'),
     subject: z.string().trim().min(1).max(80).optional().describe('Whose level, e.g. "P-017".'),
     belowLimit: z.boolean().optional().describe('true when the laboratory reported the level below its limit of quantification (give `limit`).'),
