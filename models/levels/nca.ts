@@ -310,8 +310,11 @@ export function ncaProfile(input: NcaInput): NcaResult {
         flag('aucTau', `no pre-dose level: the level at the end of the interval (${times[endLevel]}) is taken as the level at the dose time (steady state)`);
       } else {
         const inInterval = post.filter((i) => times[i] <= doseTime + tau).map((i) => concentrations[i]);
-        start = Math.min(...inInterval);
-        flag('aucTau', `no pre-dose level and none at the end of the interval: the lowest level in the interval (${start}) is taken as the level at the dose time`);
+        if (inInterval.length === 0) flag('aucTau', 'no level inside the interval: no steady-state figures');
+        else {
+          start = inInterval.reduce((a, b) => Math.min(a, b), Infinity);
+          flag('aucTau', `no pre-dose level and none at the end of the interval: the lowest level in the interval (${start}) is taken as the level at the dose time`);
+        }
       }
     }
   }
@@ -396,7 +399,8 @@ export function ncaProfile(input: NcaInput): NcaResult {
 
   // The interval at steady state: from the dose time to dose time + τ.
   let aucTau: number | null = null;
-  if (tau !== null) {
+  // The interval's figures need the level at the dose time (p.t[0] = 0); without it they are left out, as flagged above.
+  if (tau !== null && p.t[0] === 0) {
     const end = tau;
     const lastT = p.t[m - 1];
     if (end <= lastT) aucTau = areaTo(p, end, rule);
@@ -413,8 +417,9 @@ export function ncaProfile(input: NcaInput): NcaResult {
     const levels: number[] = [];
     for (let j = 0; j < m; j++) if (p.source[j] >= 0 && p.t[j] <= end) levels.push(p.c[j]);
     if (lastPre !== null) levels.push(concentrations[lastPre]);
-    figures.cminTau = Math.min(...levels);
-    figures.cmaxTau = Math.max(...levels);
+    // Reduced, not spread: a long profile would overflow the argument list.
+    figures.cminTau = levels.reduce((a, b) => Math.min(a, b), Infinity);
+    figures.cmaxTau = levels.reduce((a, b) => Math.max(a, b), -Infinity);
     if (figures.cavg !== null && figures.cavg > 0) figures.fluctuationPercent = (100 * (figures.cmaxTau - figures.cminTau)) / figures.cavg;
     if (figures.cminTau > 0) figures.swingPercent = (100 * (figures.cmaxTau - figures.cminTau)) / figures.cminTau;
     else flag('swingPercent', 'Cmin is zero: no swing');

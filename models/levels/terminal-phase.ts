@@ -101,7 +101,7 @@ export function selectTerminalPhase(t: ArrayLike<number>, c: ArrayLike<number>, 
   }
   if (fits.length === 0) return { ok: false, reason: 'no line through the last 3 or more levels after Cmax falls' };
   // The best adjusted R², then the most points among the fits within the tie distance of it.
-  const top = Math.max(...fits.map((f) => f.fit.adjustedR2 ?? -Infinity));
+  const top = fits.reduce((a, f) => Math.max(a, f.fit.adjustedR2 ?? -Infinity), -Infinity);
   let chosen = fits[0];
   for (const f of fits) if ((f.fit.adjustedR2 ?? -Infinity) >= top - adjustedR2Tie) chosen = f;
   return { ok: true, fit: chosen.fit, indices: chosen.indices, chosenBy: 'best adjusted R²' };

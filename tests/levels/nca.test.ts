@@ -325,6 +325,36 @@ describe('steady state over an interval (Gibaldi & Perrier ch. 3, from memory)',
   });
 });
 
+describe('an infusion (Gibaldi & Perrier ch. 11, from memory: the infusion adds half its duration to AUMC/AUC)', () => {
+  it('one compartment, 2 h infusion: MRT = AUMC0–∞/AUC0–∞ − 1 = 1/k within the rising limb\'s trapezoid error, AUC0–∞ = dose/(V·k)', () => {
+    const [dose, V, k, D] = [100, 25, 0.2, 2];
+    const R = dose / D;
+    // Rising while the infusion runs, C = R/(V·k)·(1 − e^(−kt)); after it an exact exponential from C(D).
+    const c = (t: number) => (t <= D ? (R / (V * k)) * -Math.expm1(-k * t) : (R / (V * k)) * -Math.expm1(-k * D) * Math.exp(-k * (t - D)));
+    const rising = grid(0, D, 0.01);
+    const times = [...rising, 3, 4, 6, 8, 12, 16, 24, 36, 48];
+    const r = ncaProfile({ times, concentrations: times.map(c), dose: { amount: dose, time: 0, route: 'infusion', duration: D } });
+    expect(rel(r.figures.terminalRate, k)).toBeLessThan(1e-12);
+    // Only the rising limb is inexact (linear trapezoids): f'' = C'' for AUC and (tC)'' = 2C' + tC'' for AUMC there.
+    const C1 = (t: number) => (R / V) * Math.exp(-k * t);
+    const C2 = (t: number) => -k * (R / V) * Math.exp(-k * t);
+    const aucError = trapezoidBound(rising, c, C1, C2, 'linear');
+    const aumcError = trapezoidBound(rising, (t) => t * c(t), (t) => c(t) + t * C1(t), (t) => 2 * C1(t) + t * C2(t), 'linear');
+    const auc = dose / (V * k);
+    expect(Math.abs((r.figures.aucInf ?? NaN) - auc)).toBeLessThanOrEqual(aucError);
+    expect(Math.abs((r.figures.mrt ?? NaN) - 1 / k)).toBeLessThanOrEqual((aumcError + (1 / k + D / 2) * aucError) / (auc - aucError));
+    expect(aumcError / (auc / k)).toBeLessThan(1e-4);
+  });
+});
+
+describe('steady-state figures need the level at the dose time', () => {
+  it('with no level inside the interval they are left out, and said', () => {
+    const r = ncaProfile({ times: [30, 31, 32, 34], concentrations: [5, 4, 3, 2], dose: { amount: 1, time: 0, route: 'extravascular' }, interval: 12 });
+    expect([r.figures.aucTau, r.figures.cavg, r.figures.cminTau, r.figures.clearance]).toEqual([null, null, null, null]);
+    expect(r.flags.some((f) => f.figure === 'aucTau' && /no level inside the interval/.test(f.message))).toBe(true);
+  });
+});
+
 describe('summaries over subjects', () => {
   it('geometric mean and CV of 10, 20, 40, 80 by hand; arithmetic figures as mathjs gives them', () => {
     // ln x = ln 10 + (0, 1, 2, 3)·ln 2: mean ln 10 + 1.5 ln 2, so the geometric mean is 10·2^1.5 = 28.284271.
