@@ -209,7 +209,7 @@ function profileText(p: Profiled, units: NcaUnits, route: NcaRoute | null, shown
   const r = p.result;
   const rows = [['figure', 'value', 'unit', 'rule']];
   for (const name of shownFigures) rows.push([ncaLabel(name, route), fmt(r.figures[name]), figureUnit(name, units), ncaFigureInfo[name].rule]);
-  const lines = [`subject ${p.subject || '(one profile)'}`, ...pad(rows).map((l) => '  ' + l)];
+  const lines = [`subject ${p.subject ? visibleText(p.subject) : '(one profile)'}`, ...pad(rows).map((l) => '  ' + l)];
   if (r.terminal) {
     const t = r.terminal;
     lines.push(`  terminal line: ${t.times.length} levels at ${t.times.map(fmt).join(', ')} (${t.chosenBy}), R² ${t.r2.toFixed(4)}`);

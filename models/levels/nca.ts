@@ -7,6 +7,10 @@
  *
  * Every figure is a number or null; a null or a doubtful value carries a flag saying why.
  * Figures describe the levels given; they are not dosing advice.
+ *
+ * Chapter references are to Gibaldi & Perrier, Pharmacokinetics, 2nd ed. (Marcel Dekker, 1982),
+ * recalled from memory: ch. 1 one compartment, ch. 2 several, ch. 3 multiple dosing, ch. 11
+ * non-compartmental (moment) analysis, app. D the estimation of areas.
  */
 import { selectTerminalPhase, type LogLinearFit } from './terminal-phase.ts';
 
