@@ -283,6 +283,25 @@ export const observationsFileSchema = z
   })
   .describe('Observations read from a CSV file.');
 
+/**
+ * Regimen proposals: which amounts (from the strengths or as listed), intervals and infusion
+ * durations of one dose line to try, and the targets (written as population.targets) the
+ * steady state is judged against. Read by models/regimen/settings.ts.
+ */
+export const proposeSchema = z
+  .strictObject({
+    line: z.number().int().min(0).default(0).describe('The dose line (index into doses) whose route, bioavailability and lag the proposals keep; its amount, interval and duration are proposed.'),
+    strengths: z.array(quantity).min(1).max(10).optional().describe('The strengths available, e.g. ["250 mg", "500 mg"]: amounts are sums of at most maxUnits of them.'),
+    amounts: z.array(quantity).min(1).max(60).optional().describe('The amounts to try, as given (instead of strengths).'),
+    maxUnits: z.number().int().min(1).max(20).default(20).describe('With strengths: the most units (tablets, vials) in one dose.'),
+    intervals: z.array(quantity).min(1).max(12).describe('The dosing intervals allowed, e.g. ["8 h", "12 h", "24 h"].'),
+    durations: z.array(quantity).min(1).max(6).optional().describe('Infusion durations to try, e.g. ["30 min", "1 h"]; without them, the line\'s own duration (or a bolus).'),
+    loading: z.boolean().default(false).describe('Propose a loading dose too: one dose, rounded to the strengths, that brings the first interval into the targets.'),
+    targets: z.array(targetSchema).max(20).default([]).describe('What the regimen must attain, written as population.targets.'),
+    rounding: z.enum(['nearest', 'up', 'down']).default('nearest').describe('How a computed loading dose is rounded to the amounts the strengths make.'),
+  })
+  .describe('Regimen proposals for review: amounts, intervals and durations ranked by how their steady state meets the targets.');
+
 export const scenarioSchema = z
   .strictObject({
     title: z.string().min(1).max(200),
@@ -300,6 +319,7 @@ export const scenarioSchema = z
       .union([z.array(observationSchema).max(10_000), observationsFileSchema], 'must be a list of observations, or { "file": "levels.csv" }')
       .optional()
       .describe('Measured levels, shown beside the model\'s curve with its prediction at each time: a list, or a CSV file read by the command line.'),
+    propose: proposeSchema.optional(),
   })
   .describe('A Tidemark scenario: a compartment model, a dose schedule and what to report.');
 
@@ -312,6 +332,7 @@ export type CovariateRelation = z.output<typeof covariateRelationSchema>;
 export type Subject = z.output<typeof subjectSchema>;
 export type Population = z.output<typeof populationSchema>;
 export type Target = z.output<typeof targetSchema>;
+export type Propose = z.output<typeof proposeSchema>;
 export type Period = z.output<typeof periodSchema>;
 export type CovariateDistribution = z.output<typeof covariateDistributionSchema>;
 export type Sex = (typeof sexes)[number];
