@@ -39,6 +39,10 @@ commands:
                    concentration, below limit), per subject and summarised; \`nca --help\` for its options
                    options: [--dose AMOUNT] [--dose-time T] [--route intravascular|extravascular|infusion]
                    [--duration D] [--interval TAU] [--rule linear|log-down] [--format text|json|csv]
+  propose FILE     regimen proposals from the scenario's \`propose\` block: amounts from the strengths,
+                   intervals and infusion durations solved to steady state, judged against the
+                   targets and ranked, with the time to the window and an optional loading dose
+                   options: [--format text|json] [--top N] [--time-limit SECONDS]
   help             this summary
 
 options:
