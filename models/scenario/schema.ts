@@ -302,6 +302,19 @@ export const proposeSchema = z
   })
   .describe('Regimen proposals for review: amounts, intervals and durations ranked by how their steady state meets the targets.');
 
+/** Individual parameters from measured levels: which quantities to estimate, and how. */
+export const fitSchema = z
+  .strictObject({
+    estimate: z
+      .array(z.string().trim().min(1, 'must not be empty').max(200))
+      .min(1)
+      .max(20)
+      .describe('The quantities to estimate: a quantity object\'s `name` ("CL") or the JSON path of any model quantity ("compartments[1].volume", "transfers[0].k", "doses[0].bioavailability", "doses[0].lag").'),
+    objective: z.enum(['wls', 'map']).optional().describe('wls: weighted least squares; map: maximum a posteriori with the population\'s typical values and variability as the prior. Default: map when every estimated quantity has a cv and the population gives a residual error, else wls.'),
+    weighting: z.enum(['none', '1/y', '1/y2', 'residual']).optional().describe('Weights of the levels in wls: none, 1/y, 1/y² or from population.residual (1/variance at the prediction). Default: residual when population.residual is given, else 1/y2 (a proportional error, common for concentrations). map always weighs by population.residual.'),
+  })
+  .describe('Fitting the model to the observations: the individual\'s own values of chosen quantities.');
+
 export const scenarioSchema = z
   .strictObject({
     title: z.string().min(1).max(200),
@@ -319,6 +332,7 @@ export const scenarioSchema = z
       .union([z.array(observationSchema).max(10_000), observationsFileSchema], 'must be a list of observations, or { "file": "levels.csv" }')
       .optional()
       .describe('Measured levels, shown beside the model\'s curve with its prediction at each time: a list, or a CSV file read by the command line.'),
+    fit: fitSchema.optional(),
     propose: proposeSchema.optional(),
   })
   .describe('A Tidemark scenario: a compartment model, a dose schedule and what to report.');
@@ -342,4 +356,5 @@ export type Instant = z.output<typeof instant>;
 export type ObservationLine = z.output<typeof observationSchema>;
 export type ObservationMapping = z.output<typeof observationMappingSchema>;
 export type ClockLine = z.output<typeof clockSchema>;
+export type FitSettings = z.output<typeof fitSchema>;
 export type SolverMethod = (typeof solverMethods)[number];
