@@ -3,9 +3,10 @@
  * trough to the steady-state trough of the maintenance regimen, so the first interval starts
  * where the regimen ends up.
  * - Linear model: the closed form, loading = maintenance × accumulation ratio R (Gibaldi & Perrier,
- *   Pharmacokinetics, from memory; R = 1/(1 − e^{−kτ}) for one compartment with bolus doses),
- *   R here AUCτ at steady state over the first interval's AUC, which is that ratio for one
- *   compartment and its AUC analogue otherwise; verified by simulation.
+ *   Pharmacokinetics, from memory; R = 1/(1 − e^{−kτ}) for one compartment), R taken as the
+ *   steady-state trough over the first trough from empty — that ratio for one compartment, with
+ *   bolus doses or infusions, and for any linear model the amount whose first trough is the
+ *   steady-state trough, since the first trough is proportional to the first dose; verified by simulation.
  * - Saturable model: no such ratio holds, so the first trough is bisected on simulation: it
  *   rises with the dose (compartment systems are cooperative), so the root is bracketed by
  *   doubling and halved down to LOADING_RTOL.

@@ -289,14 +289,9 @@ function loadingDose(cx: Context, p: Proposal): LoadingDose | null {
   let computed: number;
   let method: LoadingDose['method'];
   if (cx.base.linear) {
-    // The accumulation ratio as AUCτ at steady state over the first interval's AUC from empty.
-    let firstAuc = NaN;
-    cx.counts.intervals += walkIntervals(setupFor(cx, spec, null), 1, (_, read) => {
-      firstAuc = read(cx.settings.targets[0].compartment)?.auc ?? NaN;
-      return true;
-    });
-    const steadyAuc = (p.steadyState as SteadyStateSummary).cavg * p.interval;
-    computed = closedFormLoading(p.amount, steadyAuc / firstAuc);
+    // The accumulation ratio as the steady-state trough over the first trough from empty: the first
+    // trough is linear in the first dose, so this lands it on the steady-state trough exactly.
+    computed = closedFormLoading(p.amount, target / firstTrough(cx, spec, p.amount));
     method = 'closed form';
   } else {
     const found = bisectLoading((a) => firstTrough(cx, spec, a), target, p.amount);
