@@ -1,5 +1,5 @@
 /**
- * What each command computes and says: simulate, report, validate, schema, verify, store, nca, propose. Returns the exit
+ * What each command computes and says: simulate, report, validate, schema, verify, store, nca, propose, fit. Returns the exit
  * code, the text for stdout and stderr, and the file to write; writing it, and running the
  * computation under the time limit, is the program's part (cli.ts). Exit 0 on success, 1
  * when the scenario is invalid or the computation fails, 2 on a usage error. Errors are
@@ -26,13 +26,14 @@ type VerifyModule = typeof import('./verify/run.ts');
 type StoreModule = typeof import('./store/cli.ts');
 type NcaModule = typeof import('./nca-cli.ts');
 type ProposeModule = typeof import('./propose-cli.ts');
+type FitModule = typeof import('./fit-cli.ts');
 
 /**
  * What only one command needs, loaded for it alone: the report writer (pdfkit and its fonts)
  * and the reference cases (mathjs's matrix functions). A simulate never pays for either.
  * loadCommandModules loads them before runCli, which stays synchronous.
  */
-const onDemand: { report: ReportModule | null; verify: VerifyModule | null; store: StoreModule | null; nca: NcaModule | null; propose: ProposeModule | null } = { report: null, verify: null, store: null, nca: null, propose: null };
+const onDemand: { report: ReportModule | null; verify: VerifyModule | null; store: StoreModule | null; nca: NcaModule | null; propose: ProposeModule | null; fit: FitModule | null } = { report: null, verify: null, store: null, nca: null, propose: null, fit: null };
 
 /** Loads what the command in `args` needs beyond the engine (all of it when `args` is null, for importers). */
 export async function loadCommandModules(args: string[] | null): Promise<void> {
@@ -42,6 +43,7 @@ export async function loadCommandModules(args: string[] | null): Promise<void> {
   if (command === null || command === 'store') onDemand.store ??= await import('./store/cli.ts');
   if (command === null || command === 'nca') onDemand.nca ??= await import('./nca-cli.ts');
   if (command === null || command === 'propose') onDemand.propose ??= await import('./propose-cli.ts');
+  if (command === null || command === 'fit') onDemand.fit ??= await import('./fit-cli.ts');
 }
 
 function loaded<T>(module: T | null, command: string): T {
@@ -290,6 +292,8 @@ function run(args: string[], context: CliContext): CliOutcome {
   if (args[0] === 'nca') return loaded(onDemand.nca, 'nca').runNcaCli(args.slice(1), { folder: context.folder ?? process.cwd() });
   // And propose (propose-cli.ts): regimen proposals, run like simulate in the worker under the time limit.
   if (args[0] === 'propose') return finish(loaded(onDemand.propose, 'propose').runProposeCli(args.slice(1), { folder: context.folder ?? process.cwd() }));
+  // And fit (fit-cli.ts): individual parameters from the levels, run like simulate; --out writes the fitted scenario.
+  if (args[0] === 'fit') return finish(loaded(onDemand.fit, 'fit').runFitCli(args.slice(1), { folder: context.folder ?? process.cwd() }));
   // --help (or -h) anywhere asks for the summary, not for a command.
   if (args.includes('--help') || args.includes('-h')) return { code: 0, stdout: usage + '\n', stderr: '' };
   const [command, ...rest] = args;

@@ -43,6 +43,9 @@ commands:
                    intervals and infusion durations solved to steady state, judged against the
                    targets and ranked, with the time to the window and an optional loading dose
                    options: [--format text|json] [--top N] [--time-limit SECONDS]
+  fit FILE         the individual's own values of the quantities the scenario's \`fit\` section
+                   names, from its measured levels (weighted least squares or maximum a posteriori)
+                   options: [--objective wls|map] [--format text|json] [--out fitted.json]
   help             this summary
 
 options:

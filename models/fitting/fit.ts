@@ -283,16 +283,17 @@ export function fitScenario(input: unknown, options: FitOptions = {}): Outcome<F
   if (params.map && plan.others.length > 0) notes.push(`not estimated, at their conditional mean given the estimated ones (typical when uncorrelated): ${plan.others.join(', ')}`);
   if (starts > 1) notes.push(`the run from the typical values did not converge; ${starts} starts were tried (×/÷ 2 on each quantity) and the best kept`);
 
+  const evaluations = predictor.evaluations;
   const curves = options.band === false ? [] : predictedCurves(predictor, template, x, covariance);
   const converged = outcome.converged;
-  const stopped = `${converged ? 'Converged' : 'Did not converge'} after ${iterations} iteration${iterations === 1 ? '' : 's'} and ${predictor.evaluations} model evaluations: ${reasonWords[outcome.reason]}; gradient norm ${outcome.gradientNorm.toExponential(2)}.`;
+  const stopped = `${converged ? 'Converged' : 'Did not converge'} after ${iterations} iteration${iterations === 1 ? '' : 's'} and ${evaluations} model evaluations: ${reasonWords[outcome.reason]}; gradient norm ${outcome.gradientNorm.toExponential(2)}.`;
   const message = ident.lines.length > 0 ? `${stopped} ${ident.lines.map((l) => l[0].toUpperCase() + l.slice(1)).join('. ')}.` : `${stopped} Every estimated quantity is identified by the levels.`;
   const fitted = fittedScenario(s, input, plan, params, estimates);
   return {
     ok: true,
     value: {
       settings: { objective: plan.objective, weighting: plan.objective === 'map' ? 'residual' : plan.weighting, estimate: labels },
-      estimates, correlation, objective: outcome.cost, converged, iterations, evaluations: predictor.evaluations,
+      estimates, correlation, objective: outcome.cost, converged, iterations, evaluations,
       stopReason: outcome.reason, gradientNorm: outcome.gradientNorm, message, identifiability: ident.lines, conditionNumber: ident.condition,
       predictions, curves,
       units: { time: template.units.time, concentration: displayUnit('concentration', template.units) },

@@ -3,7 +3,8 @@
  * quantity's typical value (the subject's value divided by its covariate relations, which are
  * kept) and its cv dropped — for map the individual's values, no longer a population's — so
  * it can be saved and simulated further. The `fit` section is removed (its quantities no longer
- * vary, so a map fit of the copy would have no prior), and the description says what was done.
+ * vary, so a map fit of the copy would have no prior), so are the population's correlations
+ * that name an estimated quantity, and the description says what was done.
  */
 import type { ModelQuantity, Scenario } from '../scenario/schema.ts';
 import type { Parameters } from './parameters.ts';
@@ -27,6 +28,10 @@ export function fittedScenario(s: Scenario, input: unknown, plan: FitPlan, param
     rows[index][field] = writtenWith(raw, shown(params.written(i, estimate.value), estimate.unit));
   });
   delete copy.fit;
+  // A correlation needs both quantities to vary; the estimated ones no longer do.
+  const names = new Set(plan.estimated.flatMap((e) => (e.slot.name ? [e.slot.name] : [])));
+  const population = copy.population as { correlations?: { between: [string, string] }[] } | undefined;
+  if (population?.correlations) population.correlations = population.correlations.filter((c) => !c.between.some((n) => names.has(n)));
   const how = plan.objective === 'map' ? 'maximum a posteriori (the population as the prior)' : `weighted least squares (weights ${plan.weighting})`;
   const note = `Fitted by ${how} to ${plan.usable.length} measured level${plan.usable.length === 1 ? '' : 's'}: ${plan.estimated.map((e) => e.label).join(', ')} written in as this subject's values, their between-subject variability removed. Model outputs for review by a clinician, not dosing advice.`;
   const before = typeof s.description === 'string' ? `${s.description} ` : '';
