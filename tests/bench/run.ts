@@ -14,7 +14,8 @@
  * Last, the start-up of the built command line (the demo's own process against a bare
  * `node -e 0` in the same run, as a ratio; target ≤ 4×) and of a fresh built server
  * (first answer, idle memory), each beside the sources run through tsx (startup.ts; alone:
- * `npm run bench:startup`).
+ * `npm run bench:startup`). Then the scenario store (store.ts) and a regimen-proposal search on a
+ * saturable model (propose.ts; alone: `npm run bench:propose`).
  */
 import { spawnSync } from 'node:child_process';
 import { mkdirSync, writeFileSync } from 'node:fs';
@@ -28,6 +29,7 @@ import { phaseNames, simulatePhases, type PhaseName } from './phases.ts';
 import { measureStartup, startupReport } from './startup.ts';
 import { measurePopulation, populationReport } from './population.ts';
 import { measureStore, storeReport, storeTargets } from './store.ts';
+import { measurePropose, proposeReport, proposeTargets } from './propose.ts';
 import { AMOUNT_SCALE, halvexin, linearScenario, saturableScenario, type SolverBlock } from './scenario.ts';
 import { summarise, timeBlocks, type Job, type Timing } from './timing.ts';
 
@@ -476,6 +478,11 @@ section('Scenario store: save, list, search and history on a fresh SQLite store 
 const store = measureStore();
 console.log(storeReport(store));
 
+// ---------- regimen proposals ----------
+section('Regimen proposals: 10 amounts × 4 intervals on a saturable model, beside plain simulate() of each (propose.ts)');
+const propose = measurePropose();
+console.log(proposeReport(propose));
+
 // ---------- summary ----------
 section('Summary (markdown)');
 const best = (method: string) => pairings.filter((p) => p.method === method);
@@ -541,6 +548,12 @@ const summaryRows: string[][] = [
     passFail(store.pass.history),
   ],
   [
+    `Regimen proposals: ${propose.regimens} regimens (10 amounts × 4 intervals), saturable model, median`,
+    `${ms(propose.search.median)} ms; ${ratio(propose.ratio)} plain simulate() of each over 100 intervals (${ms(propose.reference.median)} ms)`,
+    `< ${proposeTargets.searchMs} ms`,
+    passFail(propose.pass),
+  ],
+  [
     'Memory, 1e6 output times, + resultToJsonText()',
     memoryPrimary.jsonPeakMB === null ? '-' : `process peak ${memoryPrimary.jsonPeakMB.toFixed(0)} MB, ${((memoryPrimary.jsonMs ?? 0) / 1000).toFixed(1)} s`,
     '(context)',
@@ -578,6 +591,7 @@ const artifact = {
   startup,
   population,
   store,
+  propose,
   targets: {
     odexRatio: TARGET_ODEX_RATIO,
     odexRatioAim: AIM_ODEX_RATIO,
