@@ -30,6 +30,7 @@ import { measureStartup, startupReport } from './startup.ts';
 import { measurePopulation, populationReport } from './population.ts';
 import { measureStore, storeReport, storeTargets } from './store.ts';
 import { measurePropose, proposeReport, proposeTargets } from './propose.ts';
+import { fitReport, fitTargets, measureFit } from './fit.ts';
 import { AMOUNT_SCALE, halvexin, linearScenario, saturableScenario, type SolverBlock } from './scenario.ts';
 import { summarise, timeBlocks, type Job, type Timing } from './timing.ts';
 
@@ -483,6 +484,11 @@ section('Regimen proposals: 10 amounts × 4 intervals on a saturable model, besi
 const propose = measurePropose();
 console.log(proposeReport(propose));
 
+// ---------- fitting ----------
+section('Fitting individual parameters: MAP, two compartments, 6 levels over 10 days, four quantities; the saturable variant (fit.ts)');
+const fitting = measureFit();
+console.log(fitReport(fitting));
+
 // ---------- summary ----------
 section('Summary (markdown)');
 const best = (method: string) => pairings.filter((p) => p.method === method);
@@ -554,6 +560,18 @@ const summaryRows: string[][] = [
     passFail(propose.pass),
   ],
   [
+    'Fit: MAP, two compartments, 6 levels, 4 quantities, median (no band)',
+    `${ms(fitting.linear.fit.median)} ms; ${ratio(fitting.linear.ratio)} one simulate() of the model (${ms(fitting.linear.evaluation.median)} ms)`,
+    `< ${fitTargets.linearMs} ms`,
+    passFail(fitting.linear.pass),
+  ],
+  [
+    'Fit: the same, saturable elimination (Vmax, Km, V1, V2), median (no band)',
+    `${ms(fitting.saturable.fit.median)} ms; ${ratio(fitting.saturable.ratio)} one simulate() of the model (${ms(fitting.saturable.evaluation.median)} ms)`,
+    `< ${fitTargets.saturableMs} ms`,
+    passFail(fitting.saturable.pass),
+  ],
+  [
     'Memory, 1e6 output times, + resultToJsonText()',
     memoryPrimary.jsonPeakMB === null ? '-' : `process peak ${memoryPrimary.jsonPeakMB.toFixed(0)} MB, ${((memoryPrimary.jsonMs ?? 0) / 1000).toFixed(1)} s`,
     '(context)',
@@ -592,6 +610,7 @@ const artifact = {
   population,
   store,
   propose,
+  fitting,
   targets: {
     odexRatio: TARGET_ODEX_RATIO,
     odexRatioAim: AIM_ODEX_RATIO,
