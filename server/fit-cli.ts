@@ -105,7 +105,7 @@ export function fitText(r: FitResult): string {
   lines.push('', `Levels (${r.units.concentration}, time in ${r.units.time})`);
   lines.push(table([
     ['level', 'time', 'observed', 'predicted', 'residual', 'weighted'],
-    ...r.predictions.map((p) => [p.label ? `${p.path} ${p.label}` : p.path, short(p.time), p.used ? short(p.observed) : 'below limit', short(p.predicted), short(p.residual), short(p.weightedResidual)]),
+    ...r.predictions.map((p) => [p.label ? `${p.path} ${p.label}` : p.path, short(p.time), p.censored ? `< ${short(p.limit)} (censored)` : p.used ? short(p.observed) : 'below limit', short(p.predicted), short(p.residual), short(p.weightedResidual)]),
   ]));
   if (r.notes.length > 0) lines.push('', ...r.notes.map((n) => `Note: ${n}`));
   lines.push('', fitCaution, '');

@@ -14,7 +14,8 @@
  * Weighting in Regression, 1988, ch. 2). The log-variance term of extended least squares is
  * left out on purpose: it is constant within a run, and without it a misstated error model
  * cannot pull the predictions up to shrink the weights (the known bias of extended least squares).
- * Levels below the limit are left out of the fit, and said so.
+ * Levels below the limit are left out of the fit and said so (fit.belowLimit "exclude", the
+ * default), or counted as censored: the probability of a level below the limit (censored.ts).
  */
 import type { Model } from '../building/model.ts';
 import { buildModel, parseScenario } from '../scenario/normalize.ts';
@@ -27,6 +28,7 @@ import { fittedScenario } from './fitted-scenario.ts';
 import { defaultLmOptions, levenbergMarquardt, type LeastSquares, type LeastSquaresOutcome } from './levenberg-marquardt.ts';
 import { Parameters } from './parameters.ts';
 import { FIT_RTOL, Predictor } from './predictor.ts';
+import { censoredResidual } from './censored.ts';
 import { residualSd } from './residual-error.ts';
 import type { FitEstimate, FitPrediction, FitResult } from './result.ts';
 import { readFitPlan, type FitPlan, type Objective } from './settings.ts';
@@ -57,15 +59,22 @@ class Objectives implements LeastSquares {
   /** Weights' square roots, one per usable level, fixed during one optimiser run. */
   readonly roots: Float64Array;
   readonly all: Float64Array;
+  /** For each censored level: 1/SD, fixed like `roots`. */
+  readonly censoredRoots: Float64Array;
   private readonly used: number[];
+  private readonly censoredAt: number[];
+  private readonly limits: Float64Array;
   private readonly observed: Float64Array;
   private readonly stepFloor: number;
 
   constructor(readonly plan: FitPlan, readonly params: Parameters, readonly predictor: Predictor, template: Model) {
     this.used = plan.usable.map((o) => template.observations.indexOf(o));
     this.observed = Float64Array.from(plan.usable.map((o) => o.concentration as number));
+    this.censoredAt = plan.censored.map((o) => template.observations.indexOf(o));
+    this.limits = Float64Array.from(plan.censored.map((o) => o.limit as number));
+    this.censoredRoots = new Float64Array(this.censoredAt.length);
     this.unknowns = params.count;
-    this.residualCount = this.used.length + (params.map ? params.count : 0);
+    this.residualCount = this.used.length + this.censoredAt.length + (params.map ? params.count : 0);
     this.lower = params.lower;
     this.upper = params.upper;
     this.roots = new Float64Array(this.used.length);
@@ -93,6 +102,12 @@ class Objectives implements LeastSquares {
       if (this.roots[i] !== 0) change = Math.max(change, Math.abs(root / this.roots[i] - 1));
       this.roots[i] = root;
     });
+    this.censoredAt.forEach((at, i) => {
+      // The SD at the prediction (at the limit before any): censoring needs the residual error.
+      const root = 1 / residualSd(this.plan.residual as NonNullable<FitPlan['residual']>, f ? f[at] : this.limits[i]);
+      if (this.censoredRoots[i] !== 0) change = Math.max(change, Math.abs(root / this.censoredRoots[i] - 1));
+      this.censoredRoots[i] = root;
+    });
     return change;
   }
 
@@ -101,13 +116,18 @@ class Objectives implements LeastSquares {
     this.used.forEach((at, i) => {
       out[i] = this.roots[i] * (this.all[at] - this.observed[i]);
     });
-    if (this.params.map) for (let k = 0; k < this.unknowns; k++) out[this.used.length + k] = x[k];
+    const m = this.used.length;
+    this.censoredAt.forEach((at, i) => {
+      out[m + i] = censoredResidual(this.censoredRoots[i] * (this.limits[i] - this.all[at]));
+    });
+    const c = m + this.censoredAt.length;
+    if (this.params.map) for (let k = 0; k < this.unknowns; k++) out[c + k] = x[k];
     return true;
   }
 
-  /** The usable levels' count (the rows before the prior's). */
+  /** The levels' count (quantified and censored: the rows before the prior's). */
   get levels(): number {
-    return this.used.length;
+    return this.used.length + this.censoredAt.length;
   }
 }
 
@@ -117,7 +137,7 @@ function minimise(problem: Objectives, start: Float64Array): { outcome: LeastSqu
   let iterations = 0;
   let outcome = levenbergMarquardt(problem, x, defaultLmOptions);
   iterations += outcome.iterations;
-  const varying = problem.plan.residual !== null && problem.plan.residual.proportional > 0 && (problem.plan.objective === 'map' || problem.plan.weighting === 'residual');
+  const varying = problem.plan.residual !== null && problem.plan.residual.proportional > 0 && (problem.plan.objective === 'map' || problem.plan.weighting === 'residual' || problem.plan.censored.length > 0);
   for (let pass = 1; varying && pass < MAX_WEIGHT_PASSES && outcome.reason !== 'failed'; pass++) {
     x = outcome.x;
     if (!problem.predictor.predict(x, problem.all)) break;
@@ -271,15 +291,18 @@ export function fitScenario(input: unknown, options: FitOptions = {}): Outcome<F
   const predicted = new Float64Array(template.observations.length);
   predictor.predict(x, predicted);
   const usedIndex = new Map(plan.usable.map((o, i) => [template.observations.indexOf(o), i]));
+  const censoredIndex = new Set(plan.censored.map((o) => template.observations.indexOf(o)));
   const predictions: FitPrediction[] = template.observations.map((o, i) => {
     const used = usedIndex.get(i);
     const residual = used === undefined || o.concentration === null ? null : o.concentration - predicted[i];
     return {
       path: o.path, time: o.time, compartment: o.compartment, label: o.label, observed: o.concentration,
-      predicted: predicted[i], residual, weightedResidual: residual === null || used === undefined ? null : problem.roots[used] * residual, used: used !== undefined,
+      predicted: predicted[i], residual, weightedResidual: residual === null || used === undefined ? null : problem.roots[used] * residual,
+      used: used !== undefined || censoredIndex.has(i), censored: censoredIndex.has(i), limit: o.limit,
     };
   });
-  if (plan.excluded.length > 0) notes.push(`left out of the fit: ${plan.excluded.map((o) => `${o.path} (${o.belowLimit ? 'below the limit' : 'no value'})`).join(', ')}; a level below the limit is excluded, not treated as censored`);
+  if (plan.excluded.length > 0) notes.push(`left out of the fit: ${plan.excluded.map((o) => `${o.path} (${o.belowLimit ? 'below the limit' : 'no value'})`).join(', ')}; a level below the limit is excluded (fit.belowLimit "censored" counts it by the probability of a level below the limit)`);
+  if (plan.censored.length > 0) notes.push(`counted as censored, by the probability of a level below the limit at the prediction: ${plan.censored.map((o) => o.path).join(', ')}`);
   if (params.map && plan.others.length > 0) notes.push(`not estimated, at their conditional mean given the estimated ones (typical when uncorrelated): ${plan.others.join(', ')}`);
   if (starts > 1) notes.push(`the run from the typical values did not converge; ${starts} starts were tried (×/÷ 2 on each quantity) and the best kept`);
 

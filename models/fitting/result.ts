@@ -29,8 +29,11 @@ export interface FitPrediction {
   residual: number | null;
   /** The residual as the objective weighs it: √w·(observed − predicted) (wls) or (observed − predicted)/SD (map). */
   weightedResidual: number | null;
-  /** False for a level left out (below the limit, no value). */
+  /** False for a level left out (below the limit under "exclude", no value). */
   used: boolean;
+  /** Below the limit and counted as censored (the probability of a level below `limit`). */
+  censored: boolean;
+  limit: number | null;
 }
 
 export interface FitCurve {

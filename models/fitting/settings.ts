@@ -35,7 +35,9 @@ export interface FitPlan {
   residual: ResidualError | null;
   /** The levels fitted: every observation with a value that is not below its limit. */
   usable: Observation[];
-  /** Levels left out (below the limit, or without a value), each with its path. */
+  /** Levels below their limit counted as censored (fit.belowLimit "censored"): the probability of a level below the limit. */
+  censored: Observation[];
+  /** Levels left out (below the limit under "exclude", or without a value), each with its path. */
   excluded: Observation[];
   /**
    * MAP: the lower Cholesky factor of the correlations of every varying quantity, the estimated
@@ -181,11 +183,15 @@ export function readFitPlan(s: Scenario, model: Model, overrides: { objective?: 
     problems.push({ path: 'fit.weighting', message: '"residual" weighting needs population.residual (additive, proportional or both)' });
   }
   const usable = model.observations.filter((o) => !o.belowLimit && o.concentration !== null);
-  const excluded = model.observations.filter((o) => o.belowLimit || o.concentration === null);
+  const censoring = fit.belowLimit === 'censored';
+  const censored = censoring ? model.observations.filter((o) => o.belowLimit && o.limit !== null) : [];
+  const excluded = model.observations.filter((o) => !usable.includes(o) && !censored.includes(o));
+  if (censoring && residual === null) problems.push({ path: 'fit.belowLimit', message: '"censored" needs population.residual: the probability of a level below the limit depends on the error\'s SD' });
+  else if (censoring && objective === 'wls' && weighting !== 'residual') problems.push({ path: 'fit.belowLimit', message: `"censored" weighs levels by population.residual; write weighting "residual", not "${weighting}", or exclude the levels below the limit` });
   if (model.observations.length === 0) problems.push({ path: 'observations', message: 'a fit needs measured levels; the scenario has none' });
   else if (usable.length === 0) problems.push({ path: 'observations', message: 'every level is below its limit or has no value; a fit needs at least one measured level' });
-  else if (objective === 'wls' && estimated.length > usable.length) {
-    problems.push({ path: 'fit.estimate', message: `estimates ${estimated.length} quantities from ${usable.length} usable level${usable.length === 1 ? '' : 's'}; weighted least squares needs at least as many levels as quantities (one more for standard errors) — estimate fewer, or use map with a prior` });
+  else if (objective === 'wls' && estimated.length > usable.length + censored.length) {
+    problems.push({ path: 'fit.estimate', message: `estimates ${estimated.length} quantities from ${usable.length + censored.length} usable level${usable.length + censored.length === 1 ? '' : 's'}; weighted least squares needs at least as many levels as quantities (one more for standard errors) — estimate fewer, or use map with a prior` });
   }
   if (objective === 'wls' && (weighting === '1/y' || weighting === '1/y2')) {
     usable.forEach((o) => {
@@ -200,5 +206,5 @@ export function readFitPlan(s: Scenario, model: Model, overrides: { objective?: 
     factor = priorFactor(s, [...paths, ...others], problems);
   }
   if (problems.length > 0) return { ok: false, problems };
-  return { ok: true, value: { estimated, objective, weighting, residual, usable, excluded, factor, others } };
+  return { ok: true, value: { estimated, objective, weighting, residual, usable, censored, excluded, factor, others } };
 }

@@ -311,6 +311,7 @@ export const fitSchema = z
       .max(20)
       .describe('The quantities to estimate: a quantity object\'s `name` ("CL") or the JSON path of any model quantity ("compartments[1].volume", "transfers[0].k", "doses[0].bioavailability", "doses[0].lag").'),
     objective: z.enum(['wls', 'map']).optional().describe('wls: weighted least squares; map: maximum a posteriori with the population\'s typical values and variability as the prior. Default: map when every estimated quantity has a cv and the population gives a residual error, else wls.'),
+    belowLimit: z.enum(['exclude', 'censored']).optional().describe('Levels reported below the limit: exclude (default) leaves them out; censored counts each by the probability of a level below its limit at the prediction (needs population.residual).'),
     weighting: z.enum(['none', '1/y', '1/y2', 'residual']).optional().describe('Weights of the levels in wls: none, 1/y, 1/y² or from population.residual (1/variance at the prediction). Default: residual when population.residual is given, else 1/y2 (a proportional error, common for concentrations). map always weighs by population.residual.'),
   })
   .describe('Fitting the model to the observations: the individual\'s own values of chosen quantities.');

@@ -54,4 +54,9 @@ describe('fit refuses bad input with its path', () => {
     (s.doses as { lag?: string }[])[0].lag = '0 h';
     expect(problems(s)).toContainEqual({ path: 'doses[0].lag', message: expect.stringContaining('must be positive') });
   });
+
+  it('censored levels without a residual error', () => {
+    const p = problems(oneCompartmentOral(named, two, { estimate: ['CL'], objective: 'wls', belowLimit: 'censored' }));
+    expect(p).toContainEqual({ path: 'fit.belowLimit', message: expect.stringContaining('"censored" needs population.residual') });
+  });
 });
