@@ -277,6 +277,30 @@ export function createApp(options: AppOptions): express.Express {
     res.status(reply.status).type(reply.contentType).send(reply.body);
   });
 
+  // Measured levels: NCA, a fit, regimen proposals. Pool jobs like /simulate (same time budget);
+  // 400 with paths for wrong input, 422 when the computation fails.
+  const levelsJob = (kind: 'nca' | 'fit' | 'propose'): RequestHandler => async (req, res) => {
+    const objective = req.query.objective;
+    const rule = req.query.rule;
+    if (kind === 'fit' && objective !== undefined && objective !== 'wls' && objective !== 'map') {
+      return sendProblems(res, 400, [{ path: 'objective', message: `?objective must be wls or map, not ${quoted(String(objective))}` }]);
+    }
+    if (kind === 'nca' && rule !== undefined && rule !== 'log-down' && rule !== 'linear') {
+      return sendProblems(res, 400, [{ path: 'rule', message: `?rule must be log-down (linear up, log-linear down) or linear, not ${quoted(String(rule))}` }]);
+    }
+    const reply = await options.pool.run({
+      kind,
+      scenario: req.body,
+      ...answerLimits,
+      ...(kind === 'fit' && (objective === 'wls' || objective === 'map') ? { objective } : {}),
+      ...(kind === 'nca' && rule !== undefined ? { rule: rule === 'linear' ? ('linear' as const) : ('linear-up-log-down' as const) } : {}),
+    });
+    res.status(reply.status).type(reply.contentType).send(reply.body);
+  };
+  api.post('/nca', json, levelsJob('nca'));
+  api.post('/fit', json, levelsJob('fit'));
+  api.post('/propose', json, levelsJob('propose'));
+
   // A virtual population: { scenario, subjects?, seed? } → 202 { id }, then polled by id.
   api.post('/population', json, async (req: Request, res: Response) => {
     const answer = await population.start(req.body);

@@ -21,6 +21,9 @@ type ReportModule = typeof import('./report/report.ts');
  * not at start: a worker that only simulates never pays for it.
  */
 let reportModule: ReportModule | null = null;
+type LevelsModule = typeof import('./levels-jobs.ts');
+/** NCA, fitting and regimen proposals: loaded by the first such job, like the report writer. */
+let levelsModule: LevelsModule | null = null;
 
 function problems(status: number, list: Problem[]): Omit<JobReply, 'id'> {
   return { status, contentType: 'application/json', body: JSON.stringify({ problems: list }) };
@@ -84,6 +87,10 @@ export async function runJob(job: Omit<JobRequest, 'id'>): Promise<Omit<JobReply
     const report = reportModule.buildReport(job.reference === undefined ? { scenario: job.scenario } : { scenario: job.scenario, reference: job.reference }, { maxOutputPoints: job.maxOutputPoints, ...(job.stored ? { stored: job.stored } : {}) });
     if (!report.ok) return problems(report.status, report.problems);
     return { status: 200, contentType: 'application/pdf', body: report.bytes };
+  }
+  if (job.kind === 'nca' || job.kind === 'fit' || job.kind === 'propose') {
+    levelsModule ??= await import('./levels-jobs.ts');
+    return levelsModule.runLevelsJob(job);
   }
   return computeJob(job);
 }

@@ -1,0 +1,61 @@
+/**
+ * The API's computations on measured levels, run in a simulation worker and loaded there on
+ * demand (simulation-worker.ts imports this file by import() at the first such job): NCA of the
+ * scenario's observations, a fit of chosen quantities to them, and regimen proposals. Each
+ * answers the status and JSON text: 400 with paths for input that is wrong (read first, with
+ * the same readers the computations use), 422 when the computation itself fails.
+ */
+import { fitScenario } from '../models/fitting/fit.ts';
+import { readFitPlan, type Objective } from '../models/fitting/settings.ts';
+import { ncaOfModel } from '../models/levels/nca-scenario.ts';
+import type { NcaRule } from '../models/levels/nca.ts';
+import { proposeRegimens } from '../models/regimen/propose.ts';
+import { readPropose } from '../models/regimen/settings.ts';
+import { buildModel, parseScenario } from '../models/scenario/normalize.ts';
+import type { Problem } from '../models/scenario/problems.ts';
+import { fitCaution } from './fit-cli.ts';
+import type { JobReply, JobRequest } from './jobs.ts';
+
+type Reply = Omit<JobReply, 'id'>;
+
+const problems = (status: number, list: Problem[]): Reply => ({ status, contentType: 'application/json', body: JSON.stringify({ problems: list }) });
+const megabytes = (bytes: number) => `${Math.round((bytes / 2 ** 20) * 10) / 10} MB`;
+
+export function runLevelsJob(job: Pick<JobRequest, 'kind' | 'scenario' | 'objective' | 'rule' | 'maxOutputPoints' | 'maxResponseBytes'>): Reply {
+  // The answer's text is the measure of its size (a fit's curves follow the output grid).
+  const answer = (value: unknown): Reply => {
+    const body = JSON.stringify(value);
+    const bytes = job.maxResponseBytes === undefined ? 0 : Buffer.byteLength(body, 'utf8');
+    if (job.maxResponseBytes !== undefined && bytes > job.maxResponseBytes) {
+      return problems(422, [{ path: job.kind === 'fit' ? 'output.step' : '', message: `the answer came to ${megabytes(bytes)}; this server answers at most ${megabytes(job.maxResponseBytes)} (use the command line)` }]);
+    }
+    return { status: 200, contentType: 'application/json', body };
+  };
+  const parsed = parseScenario(job.scenario);
+  if (!parsed.ok) return problems(400, parsed.problems);
+  const model = buildModel(parsed.value);
+  if (!model.ok) return problems(400, model.problems);
+  if (job.kind === 'nca') {
+    const rule: NcaRule = job.rule ?? 'linear-up-log-down';
+    const nca = ncaOfModel(model.value, { rule });
+    return nca.ok ? answer(nca.value) : problems(400, nca.problems);
+  }
+  if (job.kind === 'fit') {
+    const overrides: { objective?: Objective } = job.objective ? { objective: job.objective } : {};
+    // The plan is read first so that wrong settings (an unknown quantity, more quantities than levels) are 400.
+    const points = model.value.outputTimes.length;
+    // The predicted curve and its band follow the output grid: the same limit as a simulation's.
+    if (points > job.maxOutputPoints) return problems(400, [{ path: 'output.step', message: `asks for ${points} reported times; this server answers at most ${job.maxOutputPoints} (use the command line for larger runs)` }]);
+    const plan = readFitPlan(parsed.value, model.value, overrides);
+    if (!plan.ok) return problems(400, plan.problems);
+    const fit = fitScenario(job.scenario, overrides);
+    return fit.ok ? answer({ ...fit.value, caution: fitCaution }) : problems(422, fit.problems);
+  }
+  if (job.kind === 'propose') {
+    const settings = readPropose(parsed.value, model.value);
+    if (!settings.ok) return problems(400, settings.problems);
+    const proposed = proposeRegimens(job.scenario);
+    return proposed.ok ? answer(proposed.value) : problems(422, proposed.problems);
+  }
+  return problems(500, [{ path: '', message: `internal error: no levels job '${job.kind}'` }]);
+}
