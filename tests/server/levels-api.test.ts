@@ -34,7 +34,7 @@ function noStack(body: unknown): void {
 }
 
 /** The paths of a 400 answer's problems. */
-async function badPaths(route: string, body: unknown): Promise<string[]> {
+async function badPaths(route: string, body: object): Promise<string[]> {
   const res = await request(app).post(route).send(body).expect(400);
   noStack(res.body);
   for (const p of res.body.problems as { path: string; message: string }[]) expect(p.message.length).toBeGreaterThan(10);
