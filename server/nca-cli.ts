@@ -10,6 +10,10 @@
 import { readFileSync } from 'node:fs';
 import { checkNcaInput, ncaFigureInfo, ncaFigureNames, ncaLabel, ncaProfile, type NcaDimension, type NcaDose, type NcaFigureName, type NcaResult, type NcaRoute, type NcaRule } from '../models/levels/nca.ts';
 import { summariseNca, type NcaFigureSummary, type NcaSummary } from '../models/levels/nca-summary.ts';
+import { ncaOfModel, type ScenarioNca } from '../models/levels/nca-scenario.ts';
+import { normaliseScenario } from '../models/scenario/normalize.ts';
+import { describeProblems } from '../models/scenario/problems.ts';
+import { withObservationsFile } from './observations-csv.ts';
 import { parseOptions } from './cli-options.ts';
 import { splitCsv } from './covariate-csv.ts';
 import { visibleLines, visibleText } from './terminal-text.ts';
@@ -24,9 +28,11 @@ export interface NcaCliOutcome {
 export const ncaUsage = `usage: tidemark nca FILE [options]      (from the repository: npm run -s cli -- nca FILE …)
 
 Non-compartmental figures of measured levels, per subject, then a summary over subjects.
-FILE is a CSV with a header: time, concentration and optionally subject, below limit, limit,
-compartment, label; a unit may follow a name in brackets: "time [h]", "concentration [mg/L]".
+FILE is a scenario (.json) with observations, or a CSV with a header: time, concentration and
+optionally subject, below limit, limit, compartment, label; a unit may follow a name in brackets: "time [h]", "concentration [mg/L]".
 A row whose "below limit" is yes or true is left out of every figure and named.
+A scenario gives its own dose (its first dose line: nominal amount, route by where it goes) and,
+when that line repeats, the steady-state interval; only --rule and --format apply to it.
 
 options:
   --dose AMOUNT          the dose, e.g. 500 or "500 mg" (CL, Vz and MRT need it)
@@ -257,6 +263,11 @@ export function runNcaCli(args: string[], context: { folder: string }): NcaCliOu
   const ruleText = options.get('rule') ?? 'log-down';
   if (ruleText !== 'log-down' && ruleText !== 'linear') return usageError(`--rule must be log-down or linear, not '${visibleText(ruleText)}'`);
   const rule: NcaRule = ruleText === 'linear' ? 'linear' : 'linear-up-log-down';
+  if (/\.json$/i.test(parsed.positional[0])) {
+    const doseOption = ['dose', 'dose-time', 'route', 'duration', 'interval'].find((k) => options.has(k));
+    if (doseOption !== undefined) return usageError(`--${doseOption} is for a CSV of levels; a scenario's doses give the dose and the interval`);
+    return runScenarioNca(parsed.positional[0], context.folder, rule, format as 'text' | 'json' | 'csv');
+  }
   const routeText = options.get('route') ?? 'extravascular';
   if (routeText !== 'intravascular' && routeText !== 'extravascular' && routeText !== 'infusion') return usageError(`--route must be intravascular, extravascular or infusion, not '${visibleText(routeText)}'`);
   const route: NcaRoute = routeText;
@@ -354,5 +365,60 @@ export function runNcaCli(args: string[], context: { folder: string }): NcaCliOu
     ...levels.notes,
   ];
   const parts = [head.join('\n'), ...profiles.map((p) => profileText(p, units, routeShown, shownFigures)), summaryText(summary, units, routeShown, shownFigures), closing];
+  return { code: 0, stdout: visibleLines(parts.join('\n\n')) + '\n', stderr: '' };
+}
+
+/** `nca SCENARIO.json`: the scenario's observations (inline or its observations file), grouped by subject and compartment (nca-scenario.ts). */
+function runScenarioNca(shown: string, folder: string, rule: NcaRule, format: 'text' | 'json' | 'csv'): NcaCliOutcome {
+  const path = fromUserFolder(folder, shown);
+  let input: unknown;
+  try {
+    input = JSON.parse(readFileSync(path, 'utf8'));
+  } catch (e) {
+    const code = (e as NodeJS.ErrnoException).code;
+    const why = e instanceof SyntaxError ? ` is not valid JSON: ${e.message}` : code === 'ENOENT' ? ': no such file' : code === 'EISDIR' ? ': it is a folder' : ` cannot be read (${code ?? 'error'})`;
+    return { code: 1, stdout: '', stderr: visibleLines(`'${visibleText(shown)}'${why}`) + '\n' };
+  }
+  const withLevels = withObservationsFile(input, path, shown);
+  if (!withLevels.ok) return { code: 1, stdout: '', stderr: visibleLines(withLevels.errors.join('\n')) + '\n' };
+  const model = normaliseScenario(withLevels.value);
+  const nca = model.ok ? ncaOfModel(model.value, { rule }) : model;
+  if (!nca.ok) {
+    const list = nca.problems.map((p) => ({ path: visibleText(p.path), message: visibleText(p.message) }));
+    return { code: 1, stdout: '', stderr: `${visibleText(shown)}: ${list.length} problem${list.length > 1 ? 's' : ''}:\n${describeProblems(list)}\n` };
+  }
+  return scenarioNcaOutput(nca.value, shown, format, withLevels.notes);
+}
+
+/** A profile's name in text and CSV: subject and compartment. */
+function profileName(p: ScenarioNca['profiles'][number]): string {
+  return `${p.subject ?? '(no subject)'} / ${p.compartment}`;
+}
+
+function scenarioNcaOutput(nca: ScenarioNca, shown: string, format: 'text' | 'json' | 'csv', fileNotes: string[]): NcaCliOutcome {
+  const units: NcaUnits = nca.units;
+  const steady = nca.profiles.some((p) => p.interval !== null);
+  const shownFigures = ncaFigureNames.filter((n) => {
+    if (['aucTau', 'cavg', 'cminTau', 'cmaxTau', 'fluctuationPercent', 'swingPercent'].includes(n)) return steady;
+    if (n === 'c0') return nca.route === 'intravascular';
+    return true;
+  });
+  if (format === 'json') return { code: 0, stdout: visibleLines(JSON.stringify({ file: shown, ...nca, notes: [...fileNotes, ...nca.notes] }, null, 2)) + '\n', stderr: '' };
+  if (format === 'csv') {
+    const header = ['subject', 'compartment', 'dose number', `interval [${units.time}]`, ...shownFigures.map((n) => `${ncaLabel(n, nca.route)}${figureUnit(n, units) ? ` [${figureUnit(n, units)}]` : ''}`), 'flags'];
+    const rows = nca.profiles.map((p) => [p.subject ?? '', p.compartment, p.doseNumber === null ? '' : String(p.doseNumber), p.interval === null ? '' : String(p.interval), ...shownFigures.map((n) => (p.result.figures[n] === null ? '' : String(p.result.figures[n]))), [...p.result.flags.map((f) => `${f.figure}: ${f.message}`), ...p.leftOut.map((l) => `left out ${l.path}: ${l.reason}`)].join('; ')]);
+    return { code: 0, stdout: visibleLines([header, ...rows].map((r) => r.map(csvField).join(',')).join('\n')) + '\n', stderr: '' };
+  }
+  const parts = [
+    [`non-compartmental analysis of the observations in ${shown}: ${nca.profiles.length} profile${nca.profiles.length === 1 ? '' : 's'}; areas by ${ruleWords[nca.rule]}`, ...fileNotes, ...nca.notes.slice(0, -1)].join('\n'),
+    ...nca.profiles.map((p) => {
+      const where = p.dose ? `  after dose ${p.doseNumber} at ${fmt(p.dose.time)} ${units.time}${p.interval !== null ? `, steady state over τ = ${fmt(p.interval)} ${units.time}` : ''}; levels ${p.paths.join(', ')}` : `  levels ${p.paths.join(', ')}`;
+      const left = p.leftOut.map((l) => `  left out ${l.path}: ${l.reason}`);
+      const text = profileText({ subject: profileName(p), result: p.result }, units, nca.route, shownFigures).split('\n');
+      return [text[0], where, ...left, ...text.slice(1)].join('\n');
+    }),
+    ...nca.summaries.map((s) => `compartment ${s.compartment}: ${summaryText(s.summary, units, nca.route, shownFigures)}`),
+    closing,
+  ];
   return { code: 0, stdout: visibleLines(parts.join('\n\n')) + '\n', stderr: '' };
 }

@@ -8,6 +8,8 @@
 import { describe, expect, it } from 'vitest';
 import { chooseInterval, ncaOfModel } from '../../models/levels/nca-scenario.ts';
 import { normaliseScenario } from '../../models/scenario/normalize.ts';
+import { runNcaCli } from '../../server/nca-cli.ts';
+import { readFileSync } from 'node:fs';
 
 const D = 500; // mg
 const F = 0.8;
@@ -175,5 +177,19 @@ describe('NCA of a scenario', () => {
     expect(chooseInterval([0, 12, 24, 36], 12, [23.5, 26, 47], false)).toBe(2);
     expect(chooseInterval([0, 12, 24, 36], 12, [47], false)).toBe(3);
     expect(chooseInterval([0, 12, 24, 36], 12, [60], false)).toBeNull();
+  });
+
+  it('nca SCENARIO.json on the command line: the same profiles as the core, in JSON; dose options refused', () => {
+    const out = runNcaCli(['samples/orvanix-levels.json', '--format', 'json'], { folder: process.cwd() });
+    expect(out.code).toBe(0);
+    const direct = ncaOfModel(modelOf(JSON.parse(readFileSync('samples/orvanix-levels.json', 'utf8'))));
+    if (!direct.ok) throw new Error('sample must give an NCA');
+    expect(JSON.parse(out.stdout).profiles).toEqual(JSON.parse(JSON.stringify(direct.value.profiles)));
+    const text = runNcaCli(['samples/orvanix-levels.json'], { folder: process.cwd() });
+    expect(text.stdout).toMatch(/subject P-017 \/ central\n  after dose 3 at 24 h, steady state over τ = 12 h/);
+    expect(text.stdout).toMatch(/not dosing advice/);
+    const refused = runNcaCli(['samples/orvanix-levels.json', '--dose', '5'], { folder: process.cwd() });
+    expect(refused.code).toBe(2);
+    expect(refused.stderr).toMatch(/--dose is for a CSV of levels/);
   });
 });
