@@ -7,6 +7,7 @@ import type { SimulationResultJson } from '../../models/result/result-format.ts'
 import { fmt } from '../../models/result/summary-text.ts';
 import { plainDoseWords } from '../../models/result/dose-words.ts';
 import { h } from './dom.ts';
+import { clockNote, observationsTable } from './observations-overlay.ts';
 
 type Result = SimulationResultJson;
 type Diagnostics = Result['diagnostics'];
@@ -284,6 +285,11 @@ export function renderFigures(
     section.append(steadyBlock(id, cur, withRef ? ref : null, labels));
     parts.push(section);
   }
+  // The clock origin and the measured levels beside the model's predictions.
+  const clock = clockNote(cur);
+  if (clock) parts.unshift(clock);
+  const levels = observationsTable(cur, selected);
+  if (levels) parts.push(levels);
   parts.push(diagnosticsBlock(cur, ref, labels));
   host.replaceChildren(...parts);
 }

@@ -25,6 +25,7 @@ import { logAxis, lowAfterRise, type Axis } from '../../models/result/axis-ticks
 import { curvePoints, type CurvePoint, type CurveView } from './curve.ts';
 import { concentrationFactor, timeFactor } from './quantity.ts';
 import { doseMarksPlugin, windowBandPlugin, type Band } from './plot-plugins.ts';
+import { isObservationDataset, observationDatasets, overlayLabel, timeTitle } from './observations-overlay.ts';
 
 /** A data point as chart.js takes it with parsing off. */
 export type XY = CurvePoint;
@@ -131,11 +132,11 @@ export class PlotView {
         legend: { position: 'bottom', labels: { boxWidth: 24, boxHeight: 2, usePointStyle: false } },
         tooltip: {
           callbacks: {
-            title: (items) => {
-              const u = this.state.current?.units;
-              return items.length ? `t = ${fmt(items[0].parsed.x)} ${u?.time ?? ''}` : '';
-            },
+            // Elapsed time, and the clock time beside it when the scenario has a clock.
+            title: (items) => (items.length ? timeTitle(this.state.current, items[0].parsed.x ?? NaN) : ''),
             label: (item) => {
+              const measured = overlayLabel(this.state.current, item);
+              if (measured) return measured;
               const u = this.state.current?.units;
               return `${item.dataset.label ?? ''}: ${fmt(item.parsed.y)} ${u?.concentration ?? ''}`;
             },
@@ -223,6 +224,8 @@ export class PlotView {
           order: 1,
         });
       }
+      // Measured levels over the curves (observations-overlay.ts).
+      datasets.push(...(observationDatasets(current, selected, (id) => colourOf(current, id), log) as unknown as ChartDataset<'line', XY[]>[]));
     }
     const chart = this.chart;
     chart.data.datasets = datasets;
@@ -306,7 +309,8 @@ export class PlotView {
       const ys = inside.map((p) => p.y);
       const peak = ys.reduce((a, b) => Math.max(a, b), 0);
       hi = Math.max(hi, peak);
-      lo = Math.min(lo, lowAfterRise(ys, peak));
+      // Measured levels widen the axis to show them, but do not set the log axis's low end.
+      if (!isObservationDataset(d)) lo = Math.min(lo, lowAfterRise(ys, peak));
     }
     return [lo, hi];
   }
