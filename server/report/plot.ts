@@ -29,8 +29,18 @@ export interface DoseMark {
   duration: number;
 }
 
+/** A measured level drawn over the curves: filled, or hollow at its limit when below the limit. */
+export interface MeasuredPoint {
+  time: number;
+  value: number;
+  hollow: boolean;
+  color: string;
+}
+
 export interface FigureSpec {
   series: PlotSeries[];
+  /** Measured levels (optional: a figure without them is drawn as before). */
+  points?: MeasuredPoint[];
   window: TargetWindow | null;
   doses: DoseMark[];
   start: number;
@@ -134,6 +144,8 @@ function range(spec: FigureSpec): { maxC: number; lowC: number } {
     for (let i = 0; i < s.values.length; i++) if (s.times[i] >= spec.start && s.times[i] <= spec.end) inSpan.push(s.values[i]);
     lowC = Math.min(lowC, lowAfterRise(inSpan, peak));
   }
+  // Measured levels widen the range to show them; a level below the lowest decade is drawn on the floor.
+  for (const p of spec.points ?? []) if (p.time >= spec.start && p.time <= spec.end && p.value > maxC) maxC = p.value;
   return { maxC, lowC };
 }
 
@@ -216,11 +228,26 @@ function drawPanel(doc: PDFKit.PDFDocument, spec: FigureSpec, scale: 'linear' | 
     doc.stroke();
     doc.undash();
   }
+  drawPoints(doc, spec.points ?? [], scale, xOf, yOf, yAxis.min, f, floorY);
   doc.restore();
 
   doc.font(font.regular).fontSize(type.tiny).fillColor(palette.text);
   const xTitle = xAxis.note?.startsWith('labels in days') ? `time (days) — ${xAxis.note.replace('labels in days, ', '')}` : `time (${spec.timeUnit})${xAxis.note ? ` — ${xAxis.note}` : ''}`;
   doc.text(xTitle, (f.left + f.right) / 2 - doc.widthOfString(xTitle) / 2, f.bottom + 15, { lineBreak: false });
+}
+
+/** Measured levels as small circles over the curves; a level of 0 has no place on the logarithmic scale. */
+function drawPoints(doc: PDFKit.PDFDocument, points: MeasuredPoint[], scale: 'linear' | 'log', xOf: (t: number) => number, yOf: (c: number) => number, yMin: number, f: Frame, floorY: number): void {
+  for (const p of points) {
+    if (!Number.isFinite(p.value) || (scale === 'log' && !(p.value > 0))) continue;
+    const px = xOf(p.time);
+    if (px < f.left - 1 || px > f.right + 1) continue;
+    const py = scale === 'log' && p.value < yMin ? floorY : Math.max(f.top, Math.min(f.bottom, yOf(p.value)));
+    doc.save().lineWidth(0.8).circle(px, py, 3.1);
+    if (p.hollow) doc.fillAndStroke('#ffffff', p.color);
+    else doc.fillAndStroke(p.color, '#ffffff');
+    doc.restore();
+  }
 }
 
 interface LegendItem {
@@ -276,6 +303,15 @@ export function drawConcentrationFigure(doc: PDFKit.PDFDocument, spec: FigureSpe
       doc.moveTo(x, y).lineTo(x + 18, y).stroke().undash().restore();
     },
   }));
+  if (spec.points && spec.points.length > 0) {
+    const color = spec.points[0].color;
+    items.push({
+      label: spec.points.some((p) => p.hollow) ? 'measured level (hollow: below the limit, drawn at it)' : 'measured level',
+      draw: (x, y) => {
+        doc.save().lineWidth(0.9).circle(x + 9, y, 3.1).fillAndStroke(color, '#ffffff').restore();
+      },
+    });
+  }
   if (spec.window) {
     items.push({
       label: spec.window.label,

@@ -21,6 +21,7 @@ import { clock, duration, fmt, percent, reportFileName, unitText, withUnit } fro
 import { drawCautionBox, drawTitleBlock, stampPages } from './furniture.ts';
 import { centralRule, modelParameters, steadyVolumeRule, type ModelParameters } from './parameters.ts';
 import { drawConcentrationFigure, windowLabel, type PlotSeries } from './plot.ts';
+import { drawMeasuredLevels, measuredPoints } from './observations.ts';
 import { doseMarks, regimenRows } from './regimen.ts';
 import { drawSubjectTables } from './subject.ts';
 import { drawTable, type Cell } from './table.ts';
@@ -266,9 +267,10 @@ function plotSection(doc: PDFKit.PDFDocument, model: Model, result: SimulationRe
   }
   drawConcentrationFigure(
     doc,
-    { series, window, doses: doseMarks(model), start: model.start, end: model.end, timeUnit: model.units.time, concentrationUnit: result.units.concentration },
+    { series, points: measuredPoints(result, colourOf), window, doses: doseMarks(model), start: model.start, end: model.end, timeUnit: model.units.time, concentrationUnit: result.units.concentration },
     caption,
   );
+  drawMeasuredLevels(doc, result);
 }
 
 // ---- 4. Exposure ----
