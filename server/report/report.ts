@@ -27,6 +27,7 @@ import { drawSubjectTables } from './subject.ts';
 import { drawTable, type Cell } from './table.ts';
 import { drawPopulationSection, reportPopulationCap, runReportPopulation, type PopulationCap, type PopulationRun } from './population.ts';
 import type { ReportRequest } from './request.ts';
+import { drawLevelSections, runLevelSections, type LevelSections } from './levels.ts';
 
 import type { StoredVersion } from '../jobs.ts';
 
@@ -90,8 +91,11 @@ export function buildReport(request: ReportRequest, options: ReportOptions = {})
   // The population, when the scenario has one, runs here: in the report's own worker thread.
   const population = runReportPopulation(request.scenario, { ...reportPopulationCap, ...options.populationCap });
   if (population && !population.ok) return population;
+  // Measured levels: NCA, the individual's fit and regimen proposals, each when the scenario has it.
+  const levels = runLevelSections(request.scenario, model);
+  if (!levels.ok) return levels;
   const now = options.now ?? new Date();
-  const { bytes, pages } = renderReport({ model, result, fingerprint, reference, check, now, description: descriptionOf(request.scenario), population: population?.value ?? null, stored: options.stored ?? null });
+  const { bytes, pages } = renderReport({ model, result, fingerprint, reference, check, now, description: descriptionOf(request.scenario), population: population?.value ?? null, stored: options.stored ?? null, levels: levels.value });
   return { ok: true, bytes, fileName: reportFileName(model.title, fingerprint), fingerprint, pages };
 }
 
@@ -110,6 +114,7 @@ interface Parts {
   description: string | null;
   population: PopulationRun | null;
   stored: StoredVersion | null;
+  levels: LevelSections;
 }
 
 function renderReport(parts: Parts): { bytes: Uint8Array; pages: number } {
@@ -143,6 +148,7 @@ function renderReport(parts: Parts): { bytes: Uint8Array; pages: number } {
   methodSection(doc, result, check);
   intervalSection(doc, model, result, params);
   if (parts.population) drawPopulationSection(doc, parts.population, model, '8', '3');
+  drawLevelSections(doc, parts.levels, model, parts.population ? 9 : 8, parts.population ? 4 : 3);
 
   stampPages(doc, { title: model.title, fingerprint, version: tidemarkVersion });
   const pages = doc.bufferedPageRange().count;
