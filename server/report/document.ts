@@ -142,10 +142,12 @@ export interface ParagraphOptions {
 /** Flowing text across the content width; PDFKit breaks it onto the next page when it runs over. */
 export function paragraph(doc: PDFKit.PDFDocument, text: string, options: ParagraphOptions = {}): void {
   const indent = options.indent ?? 0;
-  doc.font(options.face ?? font.regular).fontSize(options.size ?? type.body).fillColor(options.color ?? palette.text);
+  doc.font(options.face ?? font.regular).fontSize(options.size ?? type.body);
   const height = doc.heightOfString(text, { width: contentWidth - indent });
   // Short paragraphs stay whole; long ones may flow over a page break.
   if (height < 120) ensureSpace(doc, height);
+  // The colour after the break: a new page's furniture sets its own, so it is chosen last.
+  doc.font(options.face ?? font.regular).fontSize(options.size ?? type.body).fillColor(options.color ?? palette.text);
   doc.text(text, contentLeft + indent, doc.y, { width: contentWidth - indent, lineGap: 1 });
   gap(doc, options.after ?? 3);
   doc.font(font.regular).fontSize(type.body).fillColor(palette.text);
