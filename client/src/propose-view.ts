@@ -1,0 +1,66 @@
+/**
+ * Regimen proposals on the page: the caution, the targets in words, and the ranked table
+ * (amount, interval, infusion duration, loading dose, steady-state trough, peak and AUC per
+ * 24 h, each target met or not, time to the window), each row with "Try in compare". The first
+ * rows are shown; the rest on request. Proposals are model outputs, not recommendations.
+ */
+import type { Proposal, ProposeResult } from '../../models/regimen/propose.ts';
+import { fmt } from '../../models/result/summary-text.ts';
+import { h } from './dom.ts';
+import { cautionNote, figureTable, present } from './levels-tables.ts';
+
+/** Rows shown before "Show all". */
+const FIRST_ROWS = 10;
+
+export function renderProposals(host: HTMLElement, result: ProposeResult, tryRow: (p: Proposal) => void): void {
+  const u = result.units;
+  const rows = result.proposals.map((p, i) => row(p, i, result, tryRow));
+  const table = figureTable(
+    `Proposed regimens, ranked (${result.searched.regimens} searched, ${result.searched.method})`,
+    ['Rank', `Amount (${u.amount})`, `Interval (${u.time})`, `Infusion (${u.time})`, `Loading (${u.amount})`, `Trough (${u.concentration})`, `Peak (${u.concentration})`, `AUC24 (${u.auc})`, 'Targets met', `To the window (${u.time})`, ''],
+    rows,
+    'levels-proposals',
+  );
+  const body = table.querySelector('tbody');
+  const extra = body ? Array.from(body.children).slice(FIRST_ROWS) : [];
+  for (const tr of extra) (tr as HTMLElement).hidden = true;
+  const more = h('button', { type: 'button', class: 'quiet', 'data-testid': 'levels-proposals-all' }, `Show all ${result.proposals.length}`);
+  more.addEventListener('click', () => {
+    for (const tr of extra) (tr as HTMLElement).hidden = false;
+    more.remove();
+  });
+  host.replaceChildren(
+    ...present(
+    cautionNote('levels-propose-caution', result.caution),
+    h('p', {}, 'Targets: '),
+    h('ol', { class: 'levels-targets' }, ...result.targets.map((t) => h('li', {}, t))),
+    table,
+    extra.length ? more : null,
+    h('p', { class: 'note' }, `Ranking: ${result.rankingRule}.`),
+    h('p', { class: 'note' }, `Time to the window: ${result.timeToWindowDefinition}.`),
+    ),
+  );
+}
+
+function row(p: Proposal, i: number, result: ProposeResult, tryRow: (p: Proposal) => void): HTMLElement[] {
+  const s = p.steadyState;
+  const met = p.targetsMet.map((m, k) => `${k + 1}${m ? '✓' : '✗'}`).join(' ');
+  const tryButton = h('button', { type: 'button', class: 'quiet', 'data-testid': `levels-try-${i}`, 'aria-label': `Try rank ${p.rank} in compare` }, 'Try in compare');
+  tryButton.addEventListener('click', () => tryRow(p));
+  const loading = p.loading
+    ? h('td', { title: `computed ${fmt(p.loading.computed)} ${result.units.amount} by ${p.loading.method}; first trough ${fmt(p.loading.firstTrough)} ${result.units.concentration}` }, fmt(p.loading.amount))
+    : h('td', {}, '—');
+  return [
+    h('th', { scope: 'row', class: p.allMet ? 'levels-met' : '' }, String(p.rank)),
+    h('td', { 'data-testid': `levels-amount-${i}` }, fmt(p.amount)),
+    h('td', {}, fmt(p.interval)),
+    h('td', {}, p.duration > 0 ? fmt(p.duration) : 'bolus'),
+    loading,
+    h('td', {}, fmt(s?.trough ?? null)),
+    h('td', {}, fmt(s?.peak ?? null)),
+    h('td', {}, fmt(s?.auc24 ?? null)),
+    h('td', { class: p.allMet ? 'levels-met' : 'levels-unmet', title: p.note ?? '' }, p.allMet ? `all ${met}` : met),
+    h('td', {}, p.timeToWindow === null ? (p.note ? `— (${p.note})` : '—') : `${fmt(p.timeToWindow)}${p.intervalsToWindow !== null ? ` (${p.intervalsToWindow} τ)` : ''}`),
+    h('td', {}, tryButton),
+  ];
+}
