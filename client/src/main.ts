@@ -25,6 +25,7 @@ import { addReportButton, type IssueTarget } from './report.ts';
 import { emptyScenario, formProblem, ScenarioStore, type ScenarioDoc } from './store.ts';
 import { renderPrintSummary } from './print-summary.ts';
 import { setUpPopulation } from './population-panel.ts';
+import { setUpLevels } from './levels-panel.ts';
 import { setSubjectOutcome, subjectOutcome } from './covariate-relations.ts';
 import { SubjectForm } from './subject-form.ts';
 import '../subject.css';
@@ -168,6 +169,7 @@ function showResult(): void {
     reference: doseLabelsOf(reference?.scenario),
   });
   renderPrintSummary(byId('print-summary'), lastScenario, lastResult);
+  levels.resultShown(lastResult);
   exportButton.disabled = lastResult === null;
   compare.refresh();
   if (plot.referenceNote) byId('reference-note').append(` ${plot.referenceNote}`);
@@ -433,6 +435,20 @@ exportButton.addEventListener('click', () => {
   }
   exportCurves(lastResult);
   announce('Exported the curves as CSV.');
+});
+
+// ---- measured levels: observations, NCA, fit, proposals (tried in the compare overlay) ----
+const levels = setUpLevels(store, hooks, errors, {
+  run,
+  keepReference: () => compare.keep(),
+  async openScenario(doc, name) {
+    if (!confirmReplace(`Opening “${name}”`)) return false;
+    load(doc, { kind: 'file', name });
+    sampleSelect.value = '';
+    shownSample = '';
+    await run();
+    return true;
+  },
 });
 
 // ---- read-only hooks for the browser tests ----
