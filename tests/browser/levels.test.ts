@@ -1,0 +1,120 @@
+// The "Measured levels" panel in Chromium against the real server: the demo levels of the
+// invented orvanix (samples/orvanix-fit.json) as a table with clock times; a wrong level placed
+// beside its field; NCA with CL/F; a MAP fit whose shown estimates and standard errors are the
+// API's own for the same scenario; regimen proposals (samples/orvanix-propose.json) ranked as
+// the API ranks them, and one row tried in the compare overlay. One page for the whole file;
+// no console errors or CSP violations. Screenshots: tests/artifacts/levels-fit.png, levels-propose.png.
+import type { Page } from 'playwright-core';
+import { describe, expect, it } from 'vitest';
+import type { FitResult } from '../../models/fitting/result.ts';
+import type { ProposeResult } from '../../models/regimen/propose.ts';
+import { artifactPath } from './harness.ts';
+import { afterNewResult, field, type PageRecord } from './page-helpers.ts';
+import { expectCleanRecord, useBrowserSession } from './session.ts';
+
+const stepTimeout = 60_000;
+let page: Page;
+let record: PageRecord;
+const session = useBrowserSession(120_000, async (s) => {
+  ({ page, record } = s);
+});
+
+async function viaApi<T>(route: string, scenario: unknown): Promise<T> {
+  const res = await fetch(new URL(`api/${route}`, session().server.baseUrl), { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(scenario) });
+  expect(res.status).toBe(200);
+  return (await res.json()) as T;
+}
+
+const openSample = (id: string) => afterNewResult(page, () => page.getByTestId('sample-select').selectOption(id));
+
+describe('the measured levels panel in Chromium', () => {
+  it('opens with the sample\'s levels, their clock times beside elapsed hours', async () => {
+    expect(await page.getByTestId('levels-details').evaluate((d) => (d as HTMLDetailsElement).open)).toBe(false);
+    await openSample('orvanix-fit');
+    expect(await page.getByTestId('levels-details').evaluate((d) => (d as HTMLDetailsElement).open)).toBe(true);
+    const rows = page.getByTestId('levels-observations').locator('tbody tr');
+    expect(await rows.count()).toBe(6);
+    // Written 2026-03-05T07:45 with the clock at 2026-03-04T08:00 (+01:00): 23.75 h later, shown in the clock's zone.
+    expect(await rows.nth(2).locator('.levels-when').textContent()).toBe('23.75 h (2026-03-05 07:45 (+01:00))');
+    expect(await field(page, 'observations[5].belowLimit').isChecked()).toBe(true);
+    await page.evaluate(() => window.scrollTo(0, 0));
+    await page.locator('.levels-panel').screenshot({ path: artifactPath('levels-form.png') });
+  }, stepTimeout);
+
+  it('places a wrong level beside its field, then shows the NCA table with CL/F', async () => {
+    await field(page, 'observations[2].concentration').fill('-5.4 mg/L');
+    await page.getByTestId('levels-nca-run').click();
+    await expect.poll(() => page.locator('#f-observations-2-concentration-error').textContent()).toMatch(/negative/);
+    await field(page, 'observations[2].concentration').fill('5.4 mg/L');
+    await page.getByTestId('levels-nca-run').click();
+    await page.waitForFunction(() => window.__tidemarkLevels.nca !== null);
+    const table = page.getByTestId('levels-nca-table-0');
+    // An oral dose: clearance and volume are shown over the unknown bioavailability.
+    expect(await table.locator('tbody th').allTextContents()).toEqual(expect.arrayContaining(['CL/F', 'Vz/F', 'Cmax', 'λz']));
+    const api = await viaApi<{ profiles: { result: { figures: { cmax: number } } }[] }>('nca', await page.evaluate(() => window.__tidemarkLevels.sent.nca));
+    expect(await table.locator('tbody tr', { hasText: /^Cmax/ }).locator('td').first().getAttribute('data-value')).toBe(String(api.profiles[0].result.figures.cmax));
+    expect(await page.getByTestId('levels-nca-flags-0').locator('li').count()).toBeGreaterThan(0);
+    expect(await page.getByTestId('levels-nca-caution').textContent()).toMatch(/not dosing advice/);
+  }, stepTimeout);
+
+  it('writes the quantities to estimate, shows the fit with the API\'s estimates and standard errors, and opens the fitted scenario', async () => {
+    const estimate = () => page.evaluate(() => (window.__tidemark.scenario.fit as { estimate: string[] }).estimate);
+    expect(await estimate()).toEqual(['CL', 'V', 'ka']);
+    await page.getByTestId('levels-estimate-ka').uncheck();
+    expect(await estimate()).toEqual(['CL', 'V']);
+    await page.getByTestId('levels-estimate-ka').check();
+    expect(await estimate()).toEqual(['CL', 'V', 'ka']);
+    await page.getByTestId('levels-fit-run').click();
+    await page.waitForFunction(() => window.__tidemarkLevels.fit !== null);
+    const fit = await viaApi<FitResult>('fit', await page.evaluate(() => window.__tidemarkLevels.sent.fit));
+    // The same scenario through the same computation: equal numbers.
+    for (const [name, e] of Object.entries(fit.estimates)) {
+      expect(Number(await page.getByTestId(`levels-value-${name}`).getAttribute('data-value'))).toBe(e.value);
+      expect(Number(await page.getByTestId(`levels-se-${name}`).getAttribute('data-value'))).toBe(e.standardError);
+    }
+    expect(await page.getByTestId('levels-fit-message').textContent()).toMatch(/^Converged/);
+    expect(await page.getByTestId('levels-fit-caution').textContent()).toMatch(/Model outputs for review by a clinician; not dosing advice/);
+    expect(await page.getByTestId('levels-correlation').locator('tbody tr').count()).toBe(3);
+    // Three plots: the curve with its band, observed against predicted, residuals against time.
+    expect(await page.getByTestId('levels-fit').locator('canvas').count()).toBe(3);
+    await page.evaluate(() => window.scrollTo(0, 0));
+    await page.getByTestId('levels-results').screenshot({ path: artifactPath('levels-fit.png') });
+    // The fitted scenario replaces the form (a confirm only if there were unsaved changes) and is run.
+    page.once('dialog', (d) => void d.accept());
+    await afterNewResult(page, () => page.getByTestId('levels-open-fitted').click());
+    expect(await page.evaluate(() => window.__tidemark.scenario)).toEqual(fit.fittedScenario);
+    expect(await page.getByTestId('levels-results').isHidden()).toBe(true);
+  }, stepTimeout);
+
+  it('ranks proposals as the API does and tries one in compare', async () => {
+    await openSample('orvanix-propose');
+    expect(await page.getByTestId('levels-results').isHidden()).toBe(true);
+    expect(await page.getByTestId('levels-propose-settings').textContent()).toMatch(/250 mg, 500 mg/);
+    await page.getByTestId('levels-propose-run').click();
+    await page.waitForFunction(() => window.__tidemarkLevels.proposals !== null, undefined, { timeout: stepTimeout });
+    const api = await viaApi<ProposeResult>('propose', await page.evaluate(() => window.__tidemarkLevels.sent.propose));
+    const rows = page.getByTestId('levels-proposals').locator('tbody tr');
+    expect(await rows.count()).toBe(api.proposals.length);
+    expect(await rows.locator('th').allTextContents()).toEqual(api.proposals.map((p) => String(p.rank)));
+    expect(api.proposals.map((p) => p.rank)).toEqual(api.proposals.map((_, i) => i + 1));
+    expect(await page.getByTestId('levels-propose-caution').textContent()).toMatch(/not dosing advice/);
+    const pick = api.proposals.findIndex((p) => p.amount !== 500 || p.interval !== 12);
+    expect(pick).toBeGreaterThanOrEqual(0);
+    const chosen = api.proposals[pick];
+    if (pick >= 10) await page.getByTestId('levels-proposals-all').click();
+    await page.evaluate(() => window.scrollTo(0, 0));
+    await page.getByTestId('levels-results').screenshot({ path: artifactPath('levels-propose.png') });
+    await afterNewResult(page, () => page.getByTestId(`levels-try-${pick}`).click());
+    const dose = await page.evaluate(() => window.__tidemark.scenario.doses?.[0]);
+    expect(dose?.amount).toBe(`${chosen.amount} mg`);
+    expect(dose?.every).toBe(`${chosen.interval} h`);
+    expect(dose?.duration).toBe(`${chosen.duration} h`);
+    expect(await field(page, 'doses[0].amount').inputValue()).toBe(String(chosen.amount));
+    expect(await page.locator('#reference-note').textContent()).toMatch(/^Reference:/);
+  }, stepTimeout);
+
+  it('made no console errors, page errors or CSP violations', async () => {
+    // The one 400 is the negative level sent on purpose.
+    await expectCleanRecord(record, 1);
+  });
+});
