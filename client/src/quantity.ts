@@ -5,6 +5,7 @@
  * small tables of exact factors between the units the pickers offer (the page carries no
  * unit library); the server does the real unit handling.
  */
+import { looksLikeDateTime } from '../../models/levels/clock.ts';
 
 export type Dim = 'amount' | 'volume' | 'time' | 'rateConstant' | 'clearance' | 'amountRate' | 'concentration';
 
@@ -61,6 +62,8 @@ export function splitQuantity(q: unknown, dim: Dim, u: UnitSet): QuantityParts {
   if (q === undefined || q === null || q === '') return { value: '', unit: scenarioUnitOf(dim, u) };
   if (typeof q === 'number') return { value: String(q), unit: scenarioUnitOf(dim, u) };
   if (typeof q !== 'string') return { value: JSON.stringify(q), unit: null };
+  // A clock time ("2026-03-04T08:00") is one piece of text, not the number 2026 and a unit.
+  if (looksLikeDateTime(q)) return { value: q, unit: null };
   const m = numberThenUnit.exec(q);
   if (!m) return { value: q, unit: null };
   return { value: m[1], unit: m[2] === '' ? scenarioUnitOf(dim, u) : m[2] };
