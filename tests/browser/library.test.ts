@@ -1,7 +1,8 @@
 // The scenario library in a real browser (Debian's Chromium through playwright-core) against the
 // real app with a store in a temporary data folder (TIDEMARK_DATA): saving as version 1, an edit
 // kept as a draft and offered back after a reload, version 2 with its history and readable diff,
-// a run recorded against the saved version, Ctrl+S, delete with Undo. One page for the file.
+// a run recorded against the saved version, Ctrl+S, delete with Undo, duplicate, a report issued
+// with unsaved changes (saved first, then recorded against the new version). One page for the file.
 // Screenshots: tests/artifacts/library-draft-banner.png, tests/artifacts/library-panel.png.
 import { mkdirSync, mkdtempSync, rmSync } from 'node:fs';
 import type { Server } from 'node:http';
@@ -21,7 +22,6 @@ import { expectCleanRecord } from './session.ts';
 
 const stepTimeout = 120_000;
 const dataDir = mkdtempSync(join(tmpdir(), 'tidemark-library-'));
-process.env.TIDEMARK_DATA = dataDir;
 
 let browser: Browser | null = null;
 let context: BrowserContext | null = null;
@@ -31,12 +31,14 @@ let store: StoreHandle | null = null;
 let baseUrl = '';
 let page: Page;
 let record: PageRecord;
+/** The kinds of the dialogs the page opened (beforeunload, confirm), in order. */
+const dialogs: string[] = [];
 
 beforeAll(async () => {
   ensureClientBuilt();
   browser = await launchChromium();
   pool = new SimulationPool({ size: 1, timeBudgetMs: 30_000, maxQueue: 16 });
-  store = new StoreHandle(storeFileOf(process.env, repoRoot));
+  store = new StoreHandle(storeFileOf({ TIDEMARK_DATA: dataDir }, repoRoot));
   const app = createApp({ pool, samples: loadSamples(), clientDir, limits: defaultServerLimits, store });
   server = await new Promise<Server>((resolve, reject) => {
     const s = app.listen(0, '127.0.0.1');
@@ -47,7 +49,10 @@ beforeAll(async () => {
   context = await browser.newContext({ viewport: { width: 1366, height: 900 }, deviceScaleFactor: 1, acceptDownloads: false });
   ({ page, record } = await openApp(context, baseUrl));
   // "Leave with unsaved changes?" and "replace unsaved changes?" are answered yes, as a user who means it.
-  page.on('dialog', (d) => void d.accept());
+  page.on('dialog', (d) => {
+    dialogs.push(d.type());
+    void d.accept();
+  });
 }, stepTimeout);
 
 afterAll(async () => {
@@ -100,7 +105,9 @@ describe('the scenario library in Chromium', () => {
     await expect.poll(state).toMatch(/v1 · unsaved changes$/);
     await expect.poll(async () => JSON.parse((await draftKept()) ?? 'null')?.scenario?.doses?.[0]?.amount).toBe('500 mg');
     // The reload asks first (beforeunload), answered yes above; the page opens its default sample again.
+    const asked = dialogs.length;
     await page.reload({ waitUntil: 'networkidle' });
+    expect(dialogs.slice(asked)).toContain('beforeunload');
     await page.waitForFunction(() => window.__tidemark.lastResult !== null && !document.getElementById('run')?.hasAttribute('aria-busy'));
     const banner = page.getByTestId('draft-banner');
     await banner.waitFor({ state: 'visible' });
@@ -167,6 +174,45 @@ describe('the scenario library in Chromium', () => {
     expect((await api<{ deleted: boolean }>(`api/scenarios/${id}`)).deleted).toBe(false);
     await page.getByTestId('library-close').click();
     expect(await field(page, 'title').inputValue()).toBe('Brennock, reviewed');
+  }, stepTimeout);
+
+  it('duplicates a stored scenario as a new one named “… (copy)” with the same content', async () => {
+    const [{ id }] = (await api<{ scenarios: { id: number }[] }>('api/scenarios')).scenarios;
+    await page.getByTestId('open-library').click();
+    await page.getByTestId(`library-duplicate-${id}`).click();
+    await expect.poll(async () => (await api<{ total: number }>('api/scenarios')).total).toBe(2);
+    const list = await api<{ scenarios: { id: number; name: string; fingerprint: string }[] }>('api/scenarios');
+    const original = list.scenarios.find((x) => x.id === id)!;
+    const copy = list.scenarios.find((x) => x.id !== id)!;
+    expect(copy.name).toBe(`${original.name} (copy)`);
+    expect(copy.fingerprint).toBe(original.fingerprint);
+    await page.getByTestId('library-close').click();
+  }, stepTimeout);
+
+  it('Download report with unsaved changes saves first, and the report is recorded against the new version', async () => {
+    const link = await page.evaluate(() => document.querySelector('[data-testid="work-state"]')?.textContent ?? '');
+    await typeInto(page, 'doses[0].amount', '600');
+    await expect.poll(state).toMatch(/unsaved changes$/);
+    await page.getByTestId('download-report').click();
+    await page.getByTestId('save-dialog').waitFor();
+    await page.getByTestId('save-note').fill('for the report');
+    const [response] = await Promise.all([page.waitForResponse((r) => r.url().includes('/api/report?'), { timeout: 60_000 }), page.getByTestId('save-confirm').click()]);
+    expect(response.status()).toBe(200);
+    const reportId = response.headers()['x-tidemark-report'];
+    expect(reportId).toMatch(/^\d+$/);
+    await expect.poll(state).toMatch(/v\d+$/);
+    const scenarios = (await api<{ scenarios: { id: number; name: string; latestVersion: number }[] }>('api/scenarios')).scenarios;
+    const saved = scenarios.find((x) => link.includes(x.name) && !x.name.endsWith('(copy)'))!;
+    const reports = await api<{ reports: { id: number; version: number; requestedBy: string; fingerprint: string }[] }>(`api/scenarios/${saved.id}/reports`);
+    expect(reports.reports).toHaveLength(1);
+    expect(reports.reports[0]).toMatchObject({ id: Number(reportId), version: saved.latestVersion, requestedBy: 'Ada Reviewer' });
+    // The fingerprint printed on the report finds that version.
+    const found = await api<{ versions: { scenarioId: number; version: number }[] }>(`api/reports?fingerprint=${reports.reports[0].fingerprint}`);
+    expect(found.versions).toContainEqual(expect.objectContaining({ scenarioId: saved.id, version: saved.latestVersion }));
+    await page.getByTestId('open-library').click();
+    await page.getByTestId(`library-history-${saved.id}`).click();
+    await expect.poll(() => page.getByTestId('library-reports').locator('tbody tr').count()).toBe(1);
+    await page.getByTestId('library-close').click();
   }, stepTimeout);
 
   it('a full storage does not break editing: the page says once that no draft is kept', async () => {
