@@ -140,7 +140,8 @@ export function drawFitSection(doc: PDFKit.PDFDocument, outcome: Outcome<FitResu
   correlationTable(doc, r);
 
   heading(doc, 'Convergence', 2, 50);
-  paragraph(doc, `${r.converged ? 'Converged.' : 'Did not converge: treat the estimates as unreliable.'} ${r.message}`, { size: type.small, ...(r.converged ? {} : { color: palette.warning, face: font.bold }) });
+  // The message itself begins "Converged after …" when it did; only a failure needs the warning before it.
+  paragraph(doc, r.converged ? r.message : `Did not converge: treat the estimates as unreliable. ${r.message}`, { size: type.small, ...(r.converged ? {} : { color: palette.warning, face: font.bold }) });
   paragraph(doc, `Objective at the optimum (sum of squared weighted residuals${r.settings.objective === 'map' ? ', the prior\'s included' : ''}): ${fmt(r.objective)}. Condition number of the curvature: ${r.conditionNumber.toExponential(2)}.`, { size: type.small });
   if (r.identifiability.length > 0) {
     paragraph(doc, 'What the levels cannot identify', { size: type.small, face: font.bold, color: palette.warning, after: 1 });

@@ -62,7 +62,8 @@ describe('report of a fit to measured levels', () => {
     const names = r.correlation?.names ?? [];
     expect(names.length).toBe(3);
     expect(flat).toMatch(ws(['V', (r.correlation as { matrix: number[][] }).matrix[1][0].toFixed(3), '1', (r.correlation as { matrix: number[][] }).matrix[1][2].toFixed(3)]));
-    expect(flat).toContain(r.converged ? 'Converged.' : 'Did not converge');
+    expect(flat).toContain(r.converged ? 'Converged after' : 'Did not converge');
+    expect(flat).not.toContain('Converged. Converged');
     expect(flat).toContain(`): ${fmt(r.objective)}.`);
     for (const p of r.predictions) {
       expect(flat).toContain(p.path);
