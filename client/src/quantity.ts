@@ -5,7 +5,7 @@
  * small tables of exact factors between the units the pickers offer (the page carries no
  * unit library); the server does the real unit handling.
  */
-import { looksLikeDateTime } from '../../models/levels/clock.ts';
+import { hoursFromOrigin, looksLikeDateTime, parseDateTime, type Clock } from '../../models/levels/clock.ts';
 
 export type Dim = 'amount' | 'volume' | 'time' | 'rateConstant' | 'clearance' | 'amountRate' | 'concentration';
 
@@ -162,6 +162,19 @@ function valueIn(q: unknown, convert: (unit: string) => number | null): number |
 export function timeValue(q: unknown, u: UnitSet): number | null {
   if (q === undefined || q === null || q === '') return null;
   return valueIn(q, (unit) => timeFactor(unit, u.time));
+}
+
+/**
+ * An instant (a dose's `at` or `through`, output.start or .end) in the scenario's time unit: a
+ * quantity as timeValue reads it, or a date-time counted from the scenario's clock (the same
+ * rule as the server's, models/levels/clock.ts); null when it cannot be read here.
+ */
+export function instantValue(q: unknown, u: UnitSet, clock: Clock | null): number | null {
+  if (typeof q !== 'string' || !looksLikeDateTime(q)) return timeValue(q, u);
+  if (clock === null) return null;
+  const at = parseDateTime(q.trim(), clock.zoneMinutes);
+  const perHour = timeFactor('h', u.time);
+  return at.ok && perHour !== null ? hoursFromOrigin(at.value.epochMs, clock) * perHour : null;
 }
 
 /** An amount in the scenario's amount unit, or null. */

@@ -3,7 +3,8 @@
  * administration (a bar for an infusion's length), drawn from the form as it changes.
  */
 import { svg } from './dom.ts';
-import { infusionLength, timeValue, type UnitSet } from './quantity.ts';
+import { clockOf, type Clock } from '../../models/levels/clock.ts';
+import { infusionLength, instantValue, timeValue, type UnitSet } from './quantity.ts';
 import type { DoseDoc, ScenarioStore } from './store.ts';
 import { fmt } from '../../models/result/summary-text.ts';
 
@@ -21,8 +22,8 @@ export interface Administration {
 }
 
 /** Administration times of one dose line within [start, end], as the engine will expand them (capped for drawing). */
-export function expandLine(d: DoseDoc, start: number, end: number, u: UnitSet): { marks: Administration[]; truncated: boolean; readable: boolean } {
-  const at = timeValue(d.at ?? 0, u);
+export function expandLine(d: DoseDoc, start: number, end: number, u: UnitSet, clock: Clock | null = null): { marks: Administration[]; truncated: boolean; readable: boolean } {
+  const at = instantValue(d.at ?? 0, u, clock);
   if (at === null) return { marks: [], truncated: false, readable: false };
   const len = infusionLength(d.duration, d.rate, d.amount, u);
   const marks: Administration[] = [];
@@ -35,7 +36,7 @@ export function expandLine(d: DoseDoc, start: number, end: number, u: UnitSet): 
   let last = end;
   if (typeof d.count === 'number') last = Math.min(end, at + (d.count - 1) * every);
   else if (d.through !== undefined) {
-    const through = timeValue(d.through, u);
+    const through = instantValue(d.through, u, clock);
     if (through === null) return { marks: [], truncated: false, readable: false };
     last = Math.min(end, through);
   }
@@ -69,8 +70,10 @@ export function renderTimeline(store: ScenarioStore, host: HTMLElement): void {
   const labelW = width < 600 ? 92 : 150;
   const labelChars = Math.floor(labelW / 6.6);
   const u = store.units;
-  const start = timeValue(store.scenario.output?.start ?? 0, u) ?? 0;
-  const end = timeValue(store.scenario.output?.end, u);
+  // Date-times count from the scenario's clock, as the server reads them.
+  const clock = clockOf(store.scenario.clock as { origin?: string; zone?: string } | undefined, (store.doses ?? []).map((d) => d.at)).clock;
+  const start = instantValue(store.scenario.output?.start ?? 0, u, clock) ?? 0;
+  const end = instantValue(store.scenario.output?.end, u, clock);
   const doses = store.doses;
   const root = svg('svg', { class: 'timeline-svg', width, role: 'img', 'aria-labelledby': 'timeline-title timeline-desc', 'data-testid': 'timeline' });
   const title = svg('title', { id: 'timeline-title' }, 'Dosing timeline');
@@ -101,7 +104,7 @@ export function renderTimeline(store: ScenarioStore, host: HTMLElement): void {
       svg('rect', { x: labelW, y: y + 2, width: plotW, height: laneH - 4, class: i % 2 ? 'lane odd' : 'lane' }),
       svg('text', { x: labelW - 8, y: y + laneH / 2 + 4, 'text-anchor': 'end', class: 'lane-label' }, name.length > labelChars ? `${name.slice(0, labelChars - 1)}…` : name),
     );
-    const { marks, truncated, readable } = expandLine(d, start, end, u);
+    const { marks, truncated, readable } = expandLine(d, start, end, u, clock);
     if (!readable) {
       lanesG.append(svg('text', { x: labelW + 6, y: y + laneH / 2 + 4, class: 'lane-note' }, 'times not readable yet'));
       descParts.push(`line ${i + 1}: times not readable`);

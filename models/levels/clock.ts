@@ -77,6 +77,35 @@ export function parseDateTime(text: string, zoneMinutes = 0): { ok: true; value:
   return { ok: true, value: { epochMs: wall - (offsetMinutes ?? zoneMinutes) * 60_000, offsetMinutes } };
 }
 
+/**
+ * The clock of a scenario's settings: the zone (UTC unless given), and the origin — `origin`
+ * when given, else the earliest dose given at a date-time (the first-dose rule) — or null
+ * when there is neither. Problems are named by the field (`zone`, `origin`) for the caller to
+ * place; a malformed dose date-time is left to whoever reads that dose.
+ */
+export function clockOf(settings: { origin?: string; zone?: string } | undefined, doseTimes: readonly unknown[]): { clock: Clock | null; problems: { field: 'zone' | 'origin'; message: string }[] } {
+  const problems: { field: 'zone' | 'origin'; message: string }[] = [];
+  let zoneMinutes = 0;
+  if (settings?.zone !== undefined) {
+    const zone = parseOffset(settings.zone);
+    if (!zone.ok) problems.push({ field: 'zone', message: zone.message });
+    else zoneMinutes = zone.minutes;
+  }
+  const zoneGiven = settings?.zone !== undefined;
+  if (settings?.origin !== undefined) {
+    const origin = parseDateTime(settings.origin, zoneMinutes);
+    if (!origin.ok) return { clock: null, problems: [...problems, { field: 'origin', message: origin.message }] };
+    return { clock: { originMs: origin.value.epochMs, zoneMinutes, zoneGiven, originFrom: 'clock.origin' }, problems };
+  }
+  let first: number | null = null;
+  for (const at of doseTimes) {
+    if (typeof at !== 'string' || !looksLikeDateTime(at)) continue;
+    const parsed = parseDateTime(at, zoneMinutes);
+    if (parsed.ok && (first === null || parsed.value.epochMs < first)) first = parsed.value.epochMs;
+  }
+  return { clock: first === null ? null : { originMs: first, zoneMinutes, zoneGiven, originFrom: 'first dose' }, problems };
+}
+
 /** Hours from the origin to a date-time (negative before it). */
 export function hoursFromOrigin(epochMs: number, clock: Clock): number {
   return (epochMs - clock.originMs) / 3_600_000;

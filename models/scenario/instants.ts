@@ -4,7 +4,7 @@
  * is clock.origin, else the earliest dose date-time (the first-dose rule). Durations are never
  * date-times.
  */
-import { hoursFromOrigin, isoDateTime, looksLikeDateTime, parseDateTime, parseOffset, type Clock } from '../levels/clock.ts';
+import { clockOf, hoursFromOrigin, isoDateTime, looksLikeDateTime, parseDateTime, type Clock } from '../levels/clock.ts';
 import { formatNumber } from '../result/format-number.ts';
 import type { Instant, Scenario } from './schema.ts';
 import { convertQuantity, type Dimension, type UnitSystem } from './units.ts';
@@ -18,29 +18,9 @@ export interface InstantReader {
 
 /** The scenario's clock, or null when it has none (no clock and no dose date-time); problems at clock.* are reported. */
 export function readClock(s: Scenario, r: InstantReader): Clock | null {
-  let zoneMinutes = 0;
-  if (s.clock?.zone !== undefined) {
-    const zone = parseOffset(s.clock.zone);
-    if (!zone.ok) r.fail('clock.zone', zone.message);
-    else zoneMinutes = zone.minutes;
-  }
-  const zoneGiven = s.clock?.zone !== undefined;
-  if (s.clock?.origin !== undefined) {
-    const origin = parseDateTime(s.clock.origin, zoneMinutes);
-    if (!origin.ok) {
-      r.fail('clock.origin', origin.message);
-      return null;
-    }
-    return { originMs: origin.value.epochMs, zoneMinutes, zoneGiven, originFrom: 'clock.origin' };
-  }
-  // The first-dose rule: the earliest dose given at a date-time (a malformed one is reported where it is read).
-  let first: number | null = null;
-  for (const d of s.doses) {
-    if (typeof d.at !== 'string' || !looksLikeDateTime(d.at)) continue;
-    const at = parseDateTime(d.at, zoneMinutes);
-    if (at.ok && (first === null || at.value.epochMs < first)) first = at.value.epochMs;
-  }
-  return first === null ? null : { originMs: first, zoneMinutes, zoneGiven, originFrom: 'first dose' };
+  const { clock, problems } = clockOf(s.clock, s.doses.map((d) => d.at));
+  for (const p of problems) r.fail(`clock.${p.field}`, p.message);
+  return clock;
 }
 
 /** Scenario time units per hour ("1 h" read in the scenario's time unit): 1 for hours, 60 for minutes. */
