@@ -41,6 +41,8 @@ options:
   --duration D           an infusion's length, in the file's time unit (needed for an infusion)
   --interval TAU         the dosing interval at steady state: AUCτ, Cavg, Cmin, Cmax, fluctuation, swing
   --rule R               log-down (linear up, log-linear down; default) or linear
+  --terminal-from T      fix the terminal line: the levels at or after time T (in the file's time
+                         unit; below-limit ones left out) instead of the best adjusted R²
   --format F             text (default), json or csv (one row per subject)
 
 NCA figures describe the levels given; they are not dosing advice.`;
@@ -254,7 +256,7 @@ export function runNcaCli(args: string[], context: { folder: string }): NcaCliOu
   const parsed = parseOptions(args);
   if (parsed.error) return usageError(visibleText(parsed.error));
   const { options } = parsed;
-  const allowed = ['dose', 'dose-time', 'route', 'duration', 'interval', 'rule', 'format'];
+  const allowed = ['dose', 'dose-time', 'route', 'duration', 'interval', 'rule', 'format', 'terminal-from'];
   const unknown = [...options.keys()].find((k) => !allowed.includes(k));
   if (unknown !== undefined) return usageError(`unknown option --${visibleText(unknown)}`);
   if (parsed.positional.length !== 1) return usageError(parsed.positional.length === 0 ? 'a levels FILE (CSV) is required' : 'give one levels FILE');
@@ -264,7 +266,7 @@ export function runNcaCli(args: string[], context: { folder: string }): NcaCliOu
   if (ruleText !== 'log-down' && ruleText !== 'linear') return usageError(`--rule must be log-down or linear, not '${visibleText(ruleText)}'`);
   const rule: NcaRule = ruleText === 'linear' ? 'linear' : 'linear-up-log-down';
   if (/\.json$/i.test(parsed.positional[0])) {
-    const doseOption = ['dose', 'dose-time', 'route', 'duration', 'interval'].find((k) => options.has(k));
+    const doseOption = ['dose', 'dose-time', 'route', 'duration', 'interval', 'terminal-from'].find((k) => options.has(k));
     if (doseOption !== undefined) return usageError(`--${doseOption} is for a CSV of levels; a scenario's doses give the dose and the interval`);
     return runScenarioNca(parsed.positional[0], context.folder, rule, format as 'text' | 'json' | 'csv');
   }
@@ -272,7 +274,7 @@ export function runNcaCli(args: string[], context: { folder: string }): NcaCliOu
   if (routeText !== 'intravascular' && routeText !== 'extravascular' && routeText !== 'infusion') return usageError(`--route must be intravascular, extravascular or infusion, not '${visibleText(routeText)}'`);
   const route: NcaRoute = routeText;
   const numbers: Record<string, number | undefined> = {};
-  for (const name of ['dose-time', 'duration', 'interval']) {
+  for (const name of ['dose-time', 'duration', 'interval', 'terminal-from']) {
     const n = numberOption(options, name);
     if (!n.ok) return usageError(n.message);
     numbers[name] = n.value;
@@ -315,6 +317,8 @@ export function runNcaCli(args: string[], context: { folder: string }): NcaCliOu
       concentrations: list.map((l) => l.concentration),
       excluded: list.flatMap((l, i) => (l.belowLimit ? [i] : [])),
       rule,
+      // The user fixes the terminal line by its first time; the core then takes exactly these levels.
+      ...(numbers['terminal-from'] !== undefined ? { terminalPoints: list.flatMap((l, i) => (!l.belowLimit && l.time >= (numbers['terminal-from'] as number) ? [i] : [])) } : {}),
       ...(dose ? { dose } : {}),
       ...(numbers.interval !== undefined ? { interval: numbers.interval } : {}),
     };

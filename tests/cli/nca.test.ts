@@ -26,6 +26,25 @@ interface JsonOut {
   summary: { subjects: number; figures: Record<string, { n: number; geometricMean: number | null; median: number | null }> };
 }
 
+describe('nca with the terminal line fixed by the user', () => {
+  it('--terminal-from T takes exactly the levels at or after T, and λz is their least-squares slope of ln C (common practice)', () => {
+    const o = run(sample, '--dose', '400 mg', '--terminal-from', '12', '--format', 'json');
+    expect(o.code).toBe(0);
+    const out = JSON.parse(o.stdout) as { subjects: { subject: string; figures: Record<string, number | null>; terminal: { times: number[]; chosenBy: string } | null }[] };
+    const first = out.subjects[0];
+    expect(first.terminal?.chosenBy).toBe('fixed');
+    expect(first.terminal?.times).toEqual([12, 24, 36]);
+    // The slope by the textbook formula Σ(t − t̄)(y − ȳ)/Σ(t − t̄)², y = ln C, on the file's own levels.
+    const rows = readFileSync(join(root, sample), 'utf8').trim().split('\n').slice(1).map((l) => l.split(','));
+    const pts = rows.filter((r) => r[0] === first.subject && Number(r[1]) >= 12 && r[3] === '').map((r) => [Number(r[1]), Math.log(Number(r[2]))]);
+    const tm = pts.reduce((a, p) => a + p[0], 0) / pts.length;
+    const ym = pts.reduce((a, p) => a + p[1], 0) / pts.length;
+    const slope = pts.reduce((a, p) => a + (p[0] - tm) * (p[1] - ym), 0) / pts.reduce((a, p) => a + (p[0] - tm) ** 2, 0);
+    expect(first.figures.terminalRate).toBeCloseTo(-slope, 12);
+    expect(run(sample, '--terminal-from', 'soon').code).toBe(2);
+  });
+});
+
 describe('nca on the demo levels', () => {
   it('text: a table per subject with units from the header, the excluded level named, the summary, the closing line', () => {
     const o = run(sample, '--dose', '400 mg');
