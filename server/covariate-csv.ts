@@ -11,6 +11,22 @@ import { readFileSync } from 'node:fs';
 import { dirname, join, isAbsolute } from 'node:path';
 import { visibleText } from './terminal-text.ts';
 
+/**
+ * A file a scenario names (a covariate table, levels), read relative to the scenario file;
+ * `shown` is its path as the user would write it, for messages. A file that cannot be read is
+ * named with the scenario's field.
+ */
+export function readBesideScenario(file: string, scenarioPath: string, shownScenario: string, field: string): { ok: true; text: string; shown: string } | { ok: false; errors: string[] } {
+  const path = isAbsolute(file) ? file : join(dirname(scenarioPath), file);
+  const shown = isAbsolute(file) ? file : join(dirname(shownScenario), file);
+  try {
+    return { ok: true, text: readFileSync(path, 'utf8'), shown };
+  } catch (e) {
+    const code = (e as NodeJS.ErrnoException).code;
+    return { ok: false, errors: [`${visibleText(shownScenario)}: ${field}: cannot read '${visibleText(shown)}'${code === 'ENOENT' ? ': no such file' : code ? ` (${code})` : ''}`] };
+  }
+}
+
 export type CovariateRow = Record<string, number | string>;
 
 /** One record of the file: its fields and the line it starts on (1-based). */
@@ -172,15 +188,9 @@ export function withCovariateFile(scenario: unknown, scenarioPath: string, shown
   const { file, ...rest } = table as { file: unknown };
   if (typeof file !== 'string' || file === '') return { ok: true, value: scenario }; // the schema names it
   if ('rows' in rest) return { ok: false, errors: [`${visibleText(shownScenario)}: population.covariateTable: give either rows or file, not both`] };
-  const path = isAbsolute(file) ? file : join(dirname(scenarioPath), file);
-  const shown = isAbsolute(file) ? file : join(dirname(shownScenario), file);
-  let text: string;
-  try {
-    text = readFileSync(path, 'utf8');
-  } catch (e) {
-    const code = (e as NodeJS.ErrnoException).code;
-    return { ok: false, errors: [`${visibleText(shownScenario)}: population.covariateTable.file: cannot read '${visibleText(shown)}'${code === 'ENOENT' ? ': no such file' : code ? ` (${code})` : ''}`] };
-  }
+  const read = readBesideScenario(file, scenarioPath, shownScenario, 'population.covariateTable.file');
+  if (!read.ok) return read;
+  const { text, shown } = read;
   const parsed = parseCovariateCsv(text, shown);
   if (!parsed.ok) return parsed;
   const s = scenario as { population: Record<string, unknown> };

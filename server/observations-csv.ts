@@ -8,11 +8,9 @@
  * `source` ("FILE line N"). Every bad row is reported as `FILE line N, column NAME: message`;
  * no row is dropped silently: an empty line is skipped and counted in a note.
  */
-import { readFileSync } from 'node:fs';
-import { dirname, isAbsolute, join } from 'node:path';
 import { looksLikeDateTime, parseDateTime } from '../models/levels/clock.ts';
 import type { ObservationLine, ObservationMapping } from '../models/scenario/schema.ts';
-import { splitCsv } from './covariate-csv.ts';
+import { readBesideScenario, splitCsv } from './covariate-csv.ts';
 import { visibleText } from './terminal-text.ts';
 
 type Field = keyof ObservationMapping;
@@ -213,15 +211,9 @@ export function withObservationsFile(scenario: unknown, scenarioPath: string, sh
     const [k] = wrong;
     return { ok: false, errors: [`${visibleText(shownScenario)}: observations.mapping.${visibleText(k)}: ${fields.includes(k as Field) ? 'must be the header of a column' : `is not a field of an observation (${fields.join(', ')})`}`] };
   }
-  const path = isAbsolute(file) ? file : join(dirname(scenarioPath), file);
-  const shown = isAbsolute(file) ? file : join(dirname(shownScenario), file);
-  let text: string;
-  try {
-    text = readFileSync(path, 'utf8');
-  } catch (e) {
-    const code = (e as NodeJS.ErrnoException).code;
-    return { ok: false, errors: [`${visibleText(shownScenario)}: observations.file: cannot read '${visibleText(shown)}'${code === 'ENOENT' ? ': no such file' : code ? ` (${code})` : ''}`] };
-  }
+  const read = readBesideScenario(file, scenarioPath, shownScenario, 'observations.file');
+  if (!read.ok) return read;
+  const { text, shown } = read;
   const parsed = parseObservationsCsv(text, shown, (mapping ?? {}) as ObservationMapping);
   if (!parsed.ok) return parsed;
   return { ok: true, value: { ...(scenario as object), observations: parsed.observations }, notes: parsed.notes };

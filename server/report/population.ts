@@ -19,6 +19,7 @@ import { contentLeft, contentWidth, ensureSpace, font, heading, keyValues, palet
 import { fmt, percent, unitText } from './format.ts';
 import { drawTickMarks, thinned, type Frame } from './plot.ts';
 import { doseMarks } from './regimen.ts';
+import { drawSectionCaution } from './section-text.ts';
 import { drawTable, type Cell, type TableSpec } from './table.ts';
 
 // ---- Size ----
@@ -182,33 +183,6 @@ function exposureRows(compartments: Record<string, Record<string, FigureSummary 
 function sectionHeading(doc: PDFKit.PDFDocument, title: string, keep: number): void {
   heading(doc, title, 1, keep);
   doc.outline.addItem(title);
-}
-
-/** The population's caution, boxed like the report's own on page 1. */
-function cautionBox(doc: PDFKit.PDFDocument, lines: string[]): void {
-  const pad = 8;
-  const innerWidth = contentWidth - 2 * pad - 6;
-  doc.font(font.bold).fontSize(type.body);
-  const head = 'Caution — virtual population';
-  const headHeight = doc.heightOfString(head, { width: innerWidth }) + 2;
-  doc.font(font.regular).fontSize(type.body);
-  const heights = lines.map((p) => doc.heightOfString(p, { width: innerWidth, lineGap: 0.5 }) + 2.5);
-  const height = 2 * pad + headHeight + heights.reduce((a, b) => a + b, 0);
-  ensureSpace(doc, height + 8);
-  const top = doc.y;
-  doc.save().rect(contentLeft, top, contentWidth, height).fillColor(palette.cautionFill).fill().restore();
-  doc.save().rect(contentLeft, top, contentWidth, height).lineWidth(1.1).strokeColor(palette.caution).stroke().restore();
-  doc.save().rect(contentLeft, top, 4, height).fillColor(palette.caution).fill().restore();
-  let y = top + pad;
-  doc.font(font.bold).fontSize(type.body).fillColor(palette.caution).text(head, contentLeft + pad + 6, y, { width: innerWidth });
-  y += headHeight;
-  doc.font(font.regular).fontSize(type.body).fillColor(palette.text);
-  lines.forEach((p, i) => {
-    doc.text(p, contentLeft + pad + 6, y, { width: innerWidth, lineGap: 0.5 });
-    y += heights[i];
-  });
-  doc.x = contentLeft;
-  doc.y = top + height + 8;
 }
 
 interface BandSpec {
@@ -536,7 +510,7 @@ export function drawPopulationSection(doc: PDFKit.PDFDocument, run: PopulationRu
   sectionHeading(doc, `${number}  Virtual population`, 200);
   const result = run.result;
   const caution = result?.caution ?? 'Population figures describe a model population drawn from the distributions given, not a patient. This is a simulation for review, not dosing advice.';
-  cautionBox(doc, [caution, 'Sections before this one describe the typical subject of the scenario; this section describes subjects drawn at random around it.']);
+  drawSectionCaution(doc, 'Caution — virtual population', [caution, 'Sections before this one describe the typical subject of the scenario; this section describes subjects drawn at random around it.']);
   if (run.size.reasons.length > 0) {
     const used = run.size.used < 1 ? 'so the population is not run in this report' : `so this section runs ${whole(run.size.used)} of the ${whole(run.size.requested)} subjects requested (subjects 1 to ${whole(run.size.used)} of the same seed)`;
     paragraph(doc, `Fewer subjects than requested: ${run.size.reasons.join('; and ')}; ${used}. Monte Carlo standard errors grow accordingly.`, {
