@@ -4,13 +4,12 @@
  * writes the fitted scenario (the estimates written in) as JSON, never over the input. Run by
  * runCli like simulate, since it solves the model many times.
  */
-import { readFileSync } from 'node:fs';
 import { fitScenario } from '../models/fitting/fit.ts';
 import type { FitResult } from '../models/fitting/result.ts';
 import { describeProblems } from '../models/scenario/problems.ts';
 import { formatNumber } from '../models/result/format-number.ts';
 import { parseOptions } from './cli-options.ts';
-import { withObservationsFile } from './observations-csv.ts';
+import { readLevelsScenario } from './observations-csv.ts';
 import { sameFile } from './same-file.ts';
 import { visibleLines, visibleText } from './terminal-text.ts';
 import { fromUserFolder } from './user-folder.ts';
@@ -59,16 +58,8 @@ export function runFitCli(args: string[], context: { folder: string }): FitCliOu
   const outGiven = parsed.options.get('out');
   const out = outGiven === undefined ? undefined : fromUserFolder(context.folder, outGiven);
   if (out !== undefined && sameFile(out, path)) return usageError(`refusing to write the fitted scenario to '${outGiven}': it is the scenario file '${shown}' itself`);
-  let input: unknown;
-  try {
-    input = JSON.parse(readFileSync(path, 'utf8'));
-  } catch (e) {
-    const code = (e as NodeJS.ErrnoException).code;
-    const why = e instanceof SyntaxError ? ` is not valid JSON: ${e.message}` : code === 'ENOENT' ? ': no such file' : ` cannot be read (${code ?? 'error'})`;
-    return { code: 1, stdout: '', stderr: visibleLines(`'${visibleText(shown)}'${why}\n`) };
-  }
-  const withLevels = withObservationsFile(input, path, shown);
-  if (!withLevels.ok) return { code: 1, stdout: '', stderr: visibleLines(withLevels.errors.join('\n') + '\n') };
+  const withLevels = readLevelsScenario(path, shown);
+  if (!withLevels.ok) return { code: withLevels.code, stdout: '', stderr: visibleLines(withLevels.message) + '\n' };
   const result = fitScenario(withLevels.value, { objective });
   if (!result.ok) {
     const list = result.problems.map((p) => ({ path: visibleText(p.path), message: visibleText(p.message) }));

@@ -13,7 +13,7 @@ import { summariseNca, type NcaFigureSummary, type NcaSummary } from '../models/
 import { ncaOfModel, type ScenarioNca } from '../models/levels/nca-scenario.ts';
 import { normaliseScenario } from '../models/scenario/normalize.ts';
 import { describeProblems } from '../models/scenario/problems.ts';
-import { withObservationsFile } from './observations-csv.ts';
+import { readLevelsScenario } from './observations-csv.ts';
 import { parseOptions } from './cli-options.ts';
 import { splitCsv } from './covariate-csv.ts';
 import { visibleLines, visibleText } from './terminal-text.ts';
@@ -375,16 +375,8 @@ export function runNcaCli(args: string[], context: { folder: string }): NcaCliOu
 /** `nca SCENARIO.json`: the scenario's observations (inline or its observations file), grouped by subject and compartment (nca-scenario.ts). */
 function runScenarioNca(shown: string, folder: string, rule: NcaRule, format: 'text' | 'json' | 'csv'): NcaCliOutcome {
   const path = fromUserFolder(folder, shown);
-  let input: unknown;
-  try {
-    input = JSON.parse(readFileSync(path, 'utf8'));
-  } catch (e) {
-    const code = (e as NodeJS.ErrnoException).code;
-    const why = e instanceof SyntaxError ? ` is not valid JSON: ${e.message}` : code === 'ENOENT' ? ': no such file' : code === 'EISDIR' ? ': it is a folder' : ` cannot be read (${code ?? 'error'})`;
-    return { code: 1, stdout: '', stderr: visibleLines(`'${visibleText(shown)}'${why}`) + '\n' };
-  }
-  const withLevels = withObservationsFile(input, path, shown);
-  if (!withLevels.ok) return { code: 1, stdout: '', stderr: visibleLines(withLevels.errors.join('\n')) + '\n' };
+  const withLevels = readLevelsScenario(path, shown);
+  if (!withLevels.ok) return { code: withLevels.code, stdout: '', stderr: visibleLines(withLevels.message) + '\n' };
   const model = normaliseScenario(withLevels.value);
   const nca = model.ok ? ncaOfModel(model.value, { rule }) : model;
   if (!nca.ok) {

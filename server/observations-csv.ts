@@ -10,6 +10,7 @@
  */
 import { looksLikeDateTime, parseDateTime } from '../models/levels/clock.ts';
 import type { ObservationLine, ObservationMapping } from '../models/scenario/schema.ts';
+import { readFileSync } from 'node:fs';
 import { readBesideScenario, splitCsv } from './covariate-csv.ts';
 import { visibleText } from './terminal-text.ts';
 
@@ -217,4 +218,22 @@ export function withObservationsFile(scenario: unknown, scenarioPath: string, sh
   const parsed = parseObservationsCsv(text, shown, (mapping ?? {}) as ObservationMapping);
   if (!parsed.ok) return parsed;
   return { ok: true, value: { ...(scenario as object), observations: parsed.observations }, notes: parsed.notes };
+}
+
+/**
+ * A scenario file for the commands that read measured levels (nca, fit, propose): its JSON with
+ * an observations file read in. A file that cannot be read or is not JSON is a usage error
+ * (exit 2, as for every command); a bad levels file is the scenario's problem (exit 1).
+ */
+export function readLevelsScenario(path: string, shown: string): { ok: true; value: unknown; notes: string[] } | { ok: false; code: 1 | 2; message: string } {
+  let input: unknown;
+  try {
+    input = JSON.parse(readFileSync(path, 'utf8'));
+  } catch (e) {
+    const code = (e as NodeJS.ErrnoException).code;
+    const why = e instanceof SyntaxError ? ` is not valid JSON: ${e.message}` : code === 'ENOENT' ? ': no such file' : code === 'EISDIR' ? ': it is a folder' : ` cannot be read (${code ?? 'error'})`;
+    return { ok: false, code: 2, message: `'${visibleText(shown)}'${why}` };
+  }
+  const withLevels = withObservationsFile(input, path, shown);
+  return withLevels.ok ? { ok: true, value: withLevels.value, notes: withLevels.notes } : { ok: false, code: 1, message: withLevels.errors.join('\n') };
 }

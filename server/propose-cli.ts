@@ -3,12 +3,11 @@
  * interval and infusion duration tried on the model, ranked, as a table (text) or JSON. Run by
  * runCli like simulate (in the worker, under the time limit), since it solves the model.
  */
-import { readFileSync } from 'node:fs';
 import { proposeRegimens, type Proposal, type ProposeResult } from '../models/regimen/propose.ts';
 import { describeProblems } from '../models/scenario/problems.ts';
 import { formatNumber } from '../models/result/format-number.ts';
 import { parseOptions, parseWhole } from './cli-options.ts';
-import { withObservationsFile } from './observations-csv.ts';
+import { readLevelsScenario } from './observations-csv.ts';
 import { visibleLines, visibleText } from './terminal-text.ts';
 import { fromUserFolder } from './user-folder.ts';
 
@@ -48,16 +47,8 @@ export function runProposeCli(args: string[], context: { folder: string }): Prop
   if (!top.ok) return fail(top.message);
   const shown = parsed.positional[0];
   const path = fromUserFolder(context.folder, shown);
-  let input: unknown;
-  try {
-    input = JSON.parse(readFileSync(path, 'utf8'));
-  } catch (e) {
-    const code = (e as NodeJS.ErrnoException).code;
-    const why = e instanceof SyntaxError ? ` is not valid JSON: ${e.message}` : code === 'ENOENT' ? ': no such file' : ` cannot be read (${code ?? 'error'})`;
-    return { code: 1, stdout: '', stderr: visibleLines(`'${visibleText(shown)}'${why}\n`) };
-  }
-  const withLevels = withObservationsFile(input, path, shown);
-  if (!withLevels.ok) return { code: 1, stdout: '', stderr: visibleLines(withLevels.errors.join('\n') + '\n') };
+  const withLevels = readLevelsScenario(path, shown);
+  if (!withLevels.ok) return { code: withLevels.code, stdout: '', stderr: visibleLines(withLevels.message) + '\n' };
   const result = proposeRegimens(withLevels.value);
   if (!result.ok) {
     const list = result.problems.map((p) => ({ path: visibleText(p.path), message: visibleText(p.message) }));
