@@ -1,15 +1,19 @@
 /**
- * A covariate table as a CSV file (RFC 4180: comma-separated, fields optionally in double
- * quotes, a doubled quote inside quotes stands for one, CRLF or LF line ends). The header names
- * the covariates, each optionally with its unit in brackets: `weight [kg]`, `sex`. A column is
- * numeric when its header gives a unit or its first value is a number; then every value must
- * be a number. A value becomes "64 kg" (numeric with unit), 64 (numeric without) or the word
- * itself (a category). Every bad row is reported as `FILE line N, column NAME: message`; no
- * row is ever dropped.
+ * A covariate table as a CSV file named by a scenario, read relative to the scenario file. The
+ * text is read by models/population/covariate-csv.ts (the page reads pasted text with the same
+ * rules); here the file is read and its messages made safe for a terminal. Every bad row is
+ * reported as `FILE line N, column NAME: message`; no row is ever dropped.
  */
 import { readFileSync } from 'node:fs';
 import { dirname, join, isAbsolute } from 'node:path';
+import { splitCsv } from '../models/scenario/csv.ts';
+import { parseCovariateCsv as parseCovariateText, type CovariateRow } from '../models/population/covariate-csv.ts';
 import { visibleText } from './terminal-text.ts';
+
+export type { CovariateRow };
+
+// The RFC 4180 splitter lives in the core (the page reads levels files with it too).
+export { splitCsv };
 
 /**
  * A file a scenario names (a covariate table, levels), read relative to the scenario file;
@@ -27,153 +31,14 @@ export function readBesideScenario(file: string, scenarioPath: string, shownScen
   }
 }
 
-export type CovariateRow = Record<string, number | string>;
-
-/** One record of the file: its fields and the line it starts on (1-based). */
-interface Record_ {
-  fields: string[];
-  quoted: boolean[];
-  line: number;
-}
-
-/** Splits CSV text into records (RFC 4180 §2), or the first quoting error with its line. */
-export function splitCsv(text: string): { ok: true; records: Record_[] } | { ok: false; line: number; message: string } {
-  const records: Record_[] = [];
-  let fields: string[] = [];
-  let quoted: boolean[] = [];
-  let field = '';
-  let isQuoted = false;
-  let inQuotes = false;
-  let afterQuote = false;
-  let line = 1;
-  let start = 1;
-  const endField = () => {
-    fields.push(isQuoted ? field : field.trim());
-    quoted.push(isQuoted);
-    field = '';
-    isQuoted = false;
-    afterQuote = false;
-  };
-  const endRecord = () => {
-    endField();
-    records.push({ fields, quoted, line: start });
-    fields = [];
-    quoted = [];
-  };
-  // A byte-order mark is not part of the first name.
-  const body = text.startsWith('\ufeff') ? text.slice(1) : text;
-  for (let i = 0; i < body.length; i++) {
-    const c = body[i];
-    if (inQuotes) {
-      if (c === '"') {
-        if (body[i + 1] === '"') {
-          field += '"';
-          i++;
-        } else {
-          inQuotes = false;
-          afterQuote = true;
-        }
-      } else {
-        if (c === '\n') line++;
-        field += c;
-      }
-      continue;
-    }
-    if (c === ',') endField();
-    else if (c === '\n' || c === '\r') {
-      if (c === '\r' && body[i + 1] === '\n') i++;
-      endRecord();
-      line++;
-      start = line;
-    } else if (c === '"') {
-      if (field.trim() !== '' || afterQuote) return { ok: false, line, message: 'a quote inside an unquoted field; put the whole field in quotes and double the quote ("")' };
-      field = '';
-      isQuoted = true;
-      inQuotes = true;
-    } else if (afterQuote) {
-      if (c !== ' ' && c !== '\t') return { ok: false, line, message: 'text after a closing quote; a quoted field ends at its quote' };
-    } else field += c;
-  }
-  if (inQuotes) return { ok: false, line: start, message: 'a quoted field is never closed' };
-  // The last record, unless the text ended with a line break.
-  if (field !== '' || isQuoted || fields.length > 0) endRecord();
-  // Blank lines at the very end hold no row; elsewhere they are reported.
-  while (records.length > 0 && isBlank(records[records.length - 1])) records.pop();
-  return { ok: true, records };
-}
-
-function isBlank(r: Record_): boolean {
-  return r.fields.length === 1 && r.fields[0] === '' && !r.quoted[0];
-}
-
-const namePattern = /^[A-Za-z][A-Za-z0-9_]{0,39}$/;
-const numberPattern = /^[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?$/;
-
-interface Column {
-  name: string;
-  unit: string | null;
-  numeric: boolean;
-}
-
-/** Reads a header field: a name, optionally followed by its unit in brackets. */
-function readHeader(field: string): { ok: true; name: string; unit: string | null } | { ok: false; message: string } {
-  const m = /^([^[\]]*?)\s*(?:\[([^[\]]*)\])?$/.exec(field);
-  const name = m?.[1].trim() ?? '';
-  if (!m || !namePattern.test(name)) {
-    return { ok: false, message: `'${field}' is not a covariate name (a letter, then letters, digits or "_"), optionally with its unit in brackets, e.g. "weight [kg]"` };
-  }
-  const unit = m[2] === undefined ? null : m[2].trim();
-  if (unit === '') return { ok: false, message: `the brackets after '${name}' hold no unit` };
-  return { ok: true, name, unit };
-}
-
 /**
  * The rows of a covariate CSV text. `file` names the file in messages. Errors are full lines
- * `FILE line N, column NAME: message`, every one found (up to 20), so a whole file is fixed at once.
+ * `FILE line N, column NAME: message`, every one found (up to 20), with control characters shown
+ * as escapes (a file name or a value could hold one).
  */
 export function parseCovariateCsv(text: string, file: string): { ok: true; rows: CovariateRow[] } | { ok: false; errors: string[] } {
-  const shown = visibleText(file);
-  const split = splitCsv(text);
-  if (!split.ok) return { ok: false, errors: [`${shown} line ${split.line}: ${split.message}`] };
-  const [head, ...body] = split.records;
-  if (!head || isBlank(head)) return { ok: false, errors: [`${shown} line 1: the header is missing: the covariate names, e.g. "weight [kg],sex"`] };
-  const errors: string[] = [];
-  const columns: Column[] = [];
-  head.fields.forEach((f, k) => {
-    const h = readHeader(f);
-    if (!h.ok) errors.push(`${shown} line ${head.line}, column ${k + 1}: ${visibleText(h.message)}`);
-    else if (columns.some((c) => c.name === h.name)) errors.push(`${shown} line ${head.line}, column ${h.name}: the name appears twice`);
-    else columns.push({ name: h.name, unit: h.unit, numeric: h.unit !== null });
-  });
-  if (errors.length > 0) return { ok: false, errors };
-  if (body.length === 0) return { ok: false, errors: [`${shown}: the file has a header but no rows`] };
-  // A column without a unit is numeric when its first value is a number.
-  const first = body[0];
-  columns.forEach((c, k) => {
-    if (!c.numeric && first.fields.length === columns.length && numberPattern.test(first.fields[k])) c.numeric = true;
-  });
-  const rows: CovariateRow[] = [];
-  for (const record of body) {
-    const at = `${shown} line ${record.line}`;
-    if (record.fields.length !== columns.length) {
-      const what = isBlank(record) ? 'an empty line' : `${record.fields.length} field${record.fields.length === 1 ? '' : 's'}`;
-      errors.push(`${at}: ${what} where the header has ${columns.length} (${columns.map((c) => c.name).join(', ')})`);
-    } else {
-      const row: CovariateRow = {};
-      columns.forEach((c, k) => {
-        const value = record.fields[k];
-        const where = `${at}, column ${c.name}`;
-        if (value === '') errors.push(`${where}: the value is empty; every subject row needs every covariate`);
-        else if (c.numeric) {
-          if (!numberPattern.test(value)) errors.push(`${where}: '${visibleText(value)}' is not a number${c.unit ? ` (the column is in ${visibleText(c.unit)})` : ' (the column holds numbers)'}`);
-          else row[c.name] = c.unit === null ? Number(value) : `${value} ${c.unit}`;
-        } else row[c.name] = value;
-      });
-      rows.push(row);
-    }
-    if (errors.length >= 20) break;
-  }
-  return errors.length > 0 ? { ok: false, errors } : { ok: true, rows };
+  const read = parseCovariateText(text, file);
+  return read.ok ? read : { ok: false, errors: read.errors.map(visibleText) };
 }
 
 /**
