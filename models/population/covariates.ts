@@ -4,9 +4,10 @@
  * subject's own stream, so a subject's covariates depend only on (seed, subject).
  */
 import type { Problem } from '../scenario/problems.ts';
-import type { Population, Subject } from '../scenario/schema.ts';
+import { sexes, type Population, type Subject } from '../scenario/schema.ts';
 import { convertToUnit, unitWritten } from '../scenario/units.ts';
 import { readShare } from '../scenario/shares.ts';
+import { readSubject } from '../subject/subject.ts';
 import { drawFrom, type NumericDistribution } from './distributions.ts';
 import type { SubjectRandom } from './random.ts';
 
@@ -25,6 +26,9 @@ export interface CovariatePlan {
 export const STREAMS = { covariates: 0, effects: 1, residual: 2, tableRow: 3 } as const;
 
 const categoryOnly = new Set(['sex']);
+
+/** Table cells named at most (a table may hold 100,000 rows). */
+const maxRowProblems = 20;
 
 /** Reads population.covariates and population.covariateTable; problems carry their JSON paths. */
 export function readCovariatePlan(p: Population, problems: Problem[]): CovariatePlan {
@@ -83,11 +87,19 @@ export function readCovariatePlan(p: Population, problems: Problem[]): Covariate
     else {
       rows = table.rows as Subject[];
       const drawnNames = new Set(drawn.map((c) => c.name));
-      rows.forEach((row, i) => {
+      const before = problems.length;
+      for (let i = 0; i < rows.length && problems.length - before < maxRowProblems; i++) {
+        const row = rows[i];
+        const at = `population.covariateTable.rows[${i}]`;
         for (const k of Object.keys(row)) {
-          if (drawnNames.has(k)) fail(`population.covariateTable.rows[${i}].${k}`, `'${k}' is also drawn from population.covariates.${k}; give it in one place`);
+          if (drawnNames.has(k)) fail(`${at}.${k}`, `'${k}' is also drawn from population.covariates.${k}; give it in one place`);
         }
-      });
+        // Each row is read now as the subject it becomes, so a bad cell is named by its row and
+        // column rather than by the first virtual subject that happens to take it.
+        const sex = (row as Record<string, unknown>).sex;
+        if (sex !== undefined && !(sexes as readonly unknown[]).includes(sex)) fail(`${at}.sex`, `sex takes the categories ${sexes.map((x) => `'${x}'`).join(' and ')}, not '${String(sex)}'`);
+        for (const q of readSubject(row).problems) fail(q.path.replace(/^subject/, at), q.message);
+      }
     }
   }
   return { drawn, rows, draw: table?.draw ?? 'in turn' };
