@@ -1,15 +1,66 @@
 /**
- * Goodness-of-fit plots of a fit to measured levels, drawn as vector paths in the style of the
- * concentration plots (ticks and labels from plot.ts's drawTickMarks, nice steps from
+ * Plots of a fit to measured levels. The individual's predicted curve with its 90% band, the
+ * typical curve dashed and the levels as points, is a FigureSpec for plot.ts's concentration
+ * figure (linear and logarithmic panels). The goodness-of-fit plots are drawn here as vector
+ * paths in the same style (ticks and labels from plot.ts's drawTickMarks, nice steps from
  * axis-ticks.ts): observed against predicted with the line of identity, and the weighted
- * residuals against time with the zero line. Levels below the limit are not drawn (they have
- * no observed value); censored ones are listed in the levels table.
+ * residuals against time with the zero line. Levels below the limit are not drawn there (they
+ * have no observed value); censored ones are listed in the levels table.
  */
+import type { Model } from '../../models/building/model.ts';
 import { linearAxis, timeAxis, type Axis } from '../../models/result/axis-ticks.ts';
-import type { FitPrediction } from '../../models/fitting/result.ts';
+import type { FitPrediction, FitResult } from '../../models/fitting/result.ts';
+import type { SimulationResult } from '../../models/simulate.ts';
 import { contentLeft, contentWidth, ensureSpace, font, palette, type } from './document.ts';
 import { unitText } from './format.ts';
-import { drawTickMarks, type Frame } from './plot.ts';
+import { drawTickMarks, type FigureSpec, type Frame, type MeasuredPoint, type PlotBand, type PlotSeries } from './plot.ts';
+import { doseMarks } from './regimen.ts';
+
+/** Colour of the measured levels in every fit plot (the goodness-of-fit points too); curves take the other series colours. */
+const levelColour = palette.series[1];
+const curveColours = palette.series.filter((c) => c !== levelColour);
+
+/** A light tint of a #rrggbb colour (share of the colour, the rest white), for a band under its line. */
+export function tint(hex: string, share: number): string {
+  const channel = (k: number) => Math.round(255 - share * (255 - parseInt(hex.slice(1 + 2 * k, 3 + 2 * k), 16)));
+  return `#${[0, 1, 2].map((k) => channel(k).toString(16).padStart(2, '0')).join('')}`;
+}
+
+/**
+ * The predicted curve of each observed compartment with its band (when it could be drawn),
+ * the typical run's curve dashed (when given), and the levels: filled at the measured value,
+ * hollow at the limit when below it.
+ */
+export function fitCurveSpec(r: FitResult, model: Model, typical: SimulationResult | null): FigureSpec {
+  const series: PlotSeries[] = [];
+  const bands: PlotBand[] = [];
+  r.curves.forEach((c, k) => {
+    const colour = curveColours[k % curveColours.length];
+    const one = r.curves.length === 1;
+    series.push({ label: one ? 'fitted (the estimates)' : `${c.compartment}: fitted`, times: c.times, values: c.predicted, color: colour });
+    if (c.lower && c.upper) bands.push({ label: one ? '90% band from the parameter uncertainty' : `${c.compartment}: 90% band`, times: c.times, lower: c.lower, upper: c.upper, color: tint(colour, 0.3) });
+    const t = typical?.compartments.find((s) => s.id === c.compartment)?.concentration;
+    if (typical && t) series.push({ label: one ? 'typical values (dashed)' : `${c.compartment}: typical (dashed)`, times: typical.times, values: t, color: palette.muted, dashed: true });
+  });
+  const points: MeasuredPoint[] = r.predictions
+    .map((p) => ({ time: p.time, value: (p.observed ?? p.limit) ?? NaN, hollow: p.observed === null, color: levelColour }))
+    .filter((p) => Number.isFinite(p.value));
+  const censored = r.predictions.some((p) => p.censored);
+  const leftOut = r.predictions.some((p) => p.observed === null && !p.censored);
+  const fate = censored && leftOut ? 'censored or left out as the table says' : censored ? 'counted as censored' : 'left out of the fit';
+  return {
+    series,
+    bands,
+    points,
+    pointsLabel: points.some((p) => p.hollow) ? `measured level (hollow: below the limit, drawn at the limit; ${fate})` : 'measured level',
+    window: null,
+    doses: doseMarks(model),
+    start: model.start,
+    end: model.end,
+    timeUnit: r.units.time,
+    concentrationUnit: r.units.concentration,
+  };
+}
 
 export const fitPlotHeight = 210;
 
@@ -39,7 +90,7 @@ function drawPanel(doc: PDFKit.PDFDocument, panel: Panel, x: number, y: number, 
   const [x0, y0, x1, y1] = panel.line;
   doc.lineWidth(0.8).strokeColor(palette.muted).dash(3, { space: 2 }).moveTo(xOf(x0), yOf(y0)).lineTo(xOf(x1), yOf(y1)).stroke().undash();
   for (const p of panel.points) {
-    doc.circle(xOf(p.x), yOf(p.y), 2.6).fillColor(palette.series[1]).fillOpacity(0.85).fill();
+    doc.circle(xOf(p.x), yOf(p.y), 2.6).fillColor(levelColour).fillOpacity(0.85).fill();
     doc.circle(xOf(p.x), yOf(p.y), 2.6).lineWidth(0.5).strokeColor(palette.text).strokeOpacity(1).stroke();
   }
   doc.fillOpacity(1);

@@ -2,19 +2,23 @@
  * The report's section on the individual's own parameters, drawn when the scenario has a
  * `fit`: fitScenario (models/fitting/fit.ts) run in the report's thread, then the estimates
  * with standard errors and RSE, their correlations, the objective and convergence in plain
- * words, what the levels cannot identify, each level observed / predicted / residual, and the
- * goodness-of-fit plots — with the caution that the estimates are model outputs for review.
+ * words, what the levels cannot identify, each level observed / predicted / residual (with its
+ * clock time when the scenario has a clock), the individual's predicted curve with its 90% band
+ * from the parameter uncertainty beside the typical curve, and the goodness-of-fit plots — with
+ * the caution that the estimates are model outputs for review.
  */
 import type { Model } from '../../models/building/model.ts';
+import { BAND_DRAWS } from '../../models/fitting/band.ts';
 import { fitScenario } from '../../models/fitting/fit.ts';
 import type { FitResult } from '../../models/fitting/result.ts';
-import { clockLabel } from '../../models/levels/clock.ts';
 import type { Outcome } from '../../models/scenario/problems.ts';
-import { unitsPerHour } from '../../models/scenario/instants.ts';
+import { simulateModel } from '../../models/simulate.ts';
+import { timeAndClock } from './clock-time.ts';
 import { bullet, drawSectionCaution } from './section-text.ts';
 import { font, heading, keyValues, palette, paragraph, type } from './document.ts';
 import { fmt, unitText } from './format.ts';
-import { drawFitPlots } from './fit-plots.ts';
+import { drawFitPlots, fitCurveSpec } from './fit-plots.ts';
+import { drawConcentrationFigure } from './plot.ts';
 import { drawTable, type Cell } from './table.ts';
 
 export const FIT_REPORT_CAUTION = 'Individual estimates are model outputs for review by a clinician; not dosing advice.';
@@ -33,11 +37,6 @@ const weightingWords: Record<string, string> = {
 
 function rse(v: number | null): string {
   return v === null || !Number.isFinite(v) ? '—' : `${(100 * v).toFixed(1)}%`;
-}
-
-/** A level's time after the origin, with its clock time when the scenario has a clock. */
-function when(t: number, model: Model): string {
-  return model.clock ? `${fmt(t)}\n${clockLabel(t / unitsPerHour(model.units), model.clock).replace(/ \(.*\)$/, '')}` : fmt(t);
 }
 
 function estimatesTable(doc: PDFKit.PDFDocument, r: FitResult): void {
@@ -90,8 +89,9 @@ function levelsTable(doc: PDFKit.PDFDocument, r: FitResult, model: Model): void 
   drawTable(doc, {
     caption: `Levels: observed, predicted, residual (${c}; time in ${r.units.time})`,
     columns: [
-      { header: 'Level', width: 2.2 },
-      { header: model.clock ? 'Time and clock' : 'Time', width: 1.2, align: 'right' },
+      { header: 'Level', width: model.clock ? 1.75 : 2.2 },
+      // Wide enough with a clock for "2026-03-04 10:10 (+01:00)" on one line under the elapsed time.
+      { header: model.clock ? 'Time and clock time' : 'Time', width: model.clock ? 1.95 : 1.2, align: 'right' },
       { header: 'Observed', width: 1.05, align: 'right' },
       { header: 'Predicted', width: 0.9, align: 'right' },
       { header: 'Residual', width: 0.9, align: 'right' },
@@ -101,7 +101,7 @@ function levelsTable(doc: PDFKit.PDFDocument, r: FitResult, model: Model): void 
     zebra: true,
     rows: r.predictions.map((p) => [
       p.label ? `${p.path}\n${p.label}` : p.path,
-      when(p.time, model),
+      timeAndClock(p.time, model),
       p.censored ? `< ${fmt(p.limit)} (censored)` : p.used ? fmt(p.observed) : `< ${fmt(p.limit)}, left out`,
       fmt(p.predicted),
       fmt(p.residual),
@@ -111,7 +111,18 @@ function levelsTable(doc: PDFKit.PDFDocument, r: FitResult, model: Model): void 
   });
 }
 
-/** Draws the section; `number` is its section number and `figure` its figure number. */
+/** The caption of the predicted-curve figure: what the band is (and is not), what is dashed, what the points are. */
+function curveCaption(r: FitResult, figure: string, typicalDrawn: boolean): string {
+  const ids = r.curves.map((c) => c.compartment).join(', ');
+  const banded = r.curves.some((c) => c.lower && c.upper);
+  const band = banded
+    ? `with the shaded 90% band: at each time, the 5th to the 95th percentile of the curves of ${BAND_DRAWS} parameter sets drawn from the estimates' uncertainty (a normal distribution on the log (or logit) scales of the fit, with the covariance from the curvature at the optimum). The band is the parameter uncertainty only, not the residual error of a measurement, so a new level may well fall outside it.`
+    : 'without a band: the curvature at the optimum is singular (or the drawn parameter sets could not be simulated), so the parameter uncertainty cannot be drawn.';
+  const dashed = typicalDrawn ? ` Dashed: the curve at the typical values as entered (${r.settings.objective === 'map' ? 'the centre of the prior' : 'where the fit started'}).` : '';
+  return `Figure ${figure}. The individual's predicted concentration in ${ids} from the estimates, ${band}${dashed} Points: the measured levels; a level below the limit is drawn hollow at its limit. A simulation for review, not dosing advice.`;
+}
+
+/** Draws the section; `number` is its section number, `figure` the first of its two figure numbers. */
 export function drawFitSection(doc: PDFKit.PDFDocument, outcome: Outcome<FitResult>, model: Model, number: string, figure: string): void {
   const title = `${number}  Individual parameters from the measured levels`;
   heading(doc, title, 1, 160);
@@ -150,6 +161,12 @@ export function drawFitSection(doc: PDFKit.PDFDocument, outcome: Outcome<FitResu
 
   heading(doc, 'Levels against the fitted model', 2, 100);
   levelsTable(doc, r, model);
+  if (r.curves.length > 0) {
+    // The typical run of the same model, for comparison; the figure goes without it if it fails.
+    const typical = simulateModel(model);
+    const spec = fitCurveSpec(r, model, typical.ok ? typical.value : null);
+    drawConcentrationFigure(doc, spec, curveCaption(r, figure, spec.series.some((s) => s.dashed)));
+  }
   const drawn = r.predictions.filter((p) => p.used && p.observed !== null).length;
   drawFitPlots(
     doc,
@@ -157,7 +174,7 @@ export function drawFitSection(doc: PDFKit.PDFDocument, outcome: Outcome<FitResu
     r.units,
     model.start,
     model.end,
-    `Figure ${figure}. Goodness of fit: ${drawn} level${drawn === 1 ? '' : 's'} observed against the fitted model's prediction, with the line of identity (dashed: a perfect fit lies on it), and the weighted residuals against time, with the zero line. Levels below the limit are not drawn.`,
+    `Figure ${r.curves.length > 0 ? Number(figure) + 1 : figure}. Goodness of fit: ${drawn} level${drawn === 1 ? '' : 's'} observed against the fitted model's prediction, with the line of identity (dashed: a perfect fit lies on it), and the weighted residuals against time, with the zero line. Levels below the limit are not drawn.`,
   );
   for (const n of r.notes) bullet(doc, `Note: ${n}.`, palette.muted);
 }

@@ -1,7 +1,8 @@
 /**
  * Concentration–time plots drawn as PDF vector paths by the report itself: a linear and a
  * logarithmic panel with the target window shaded, dose times marked along the time axis,
- * nice ticks with units, and a reference run overlaid dashed. Long curves are thinned to
+ * nice ticks with units, a reference run overlaid dashed, and optional shaded bands (e.g. a
+ * fit's 90% band). Long curves are thinned to
  * the first, lowest, highest and last point of each half-point column, which keeps every
  * peak and trough that can be seen at print resolution.
  */
@@ -37,10 +38,23 @@ export interface MeasuredPoint {
   color: string;
 }
 
+/** A shaded band between a lower and an upper curve on the same times, drawn under the curves. */
+export interface PlotBand {
+  label: string;
+  times: ArrayLike<number>;
+  lower: ArrayLike<number>;
+  upper: ArrayLike<number>;
+  color: string;
+}
+
 export interface FigureSpec {
   series: PlotSeries[];
+  /** Shaded bands (optional), under the curves. */
+  bands?: PlotBand[];
   /** Measured levels (optional: a figure without them is drawn as before). */
   points?: MeasuredPoint[];
+  /** The legend's words for the measured levels, when the default ones do not fit the figure. */
+  pointsLabel?: string;
   window: TargetWindow | null;
   doses: DoseMark[];
   start: number;
@@ -144,6 +158,10 @@ function range(spec: FigureSpec): { maxC: number; lowC: number } {
     for (let i = 0; i < s.values.length; i++) if (s.times[i] >= spec.start && s.times[i] <= spec.end) inSpan.push(s.values[i]);
     lowC = Math.min(lowC, lowAfterRise(inSpan, peak));
   }
+  // A band's upper edge widens the range so the band is not cut off at the top.
+  for (const b of spec.bands ?? []) {
+    for (let i = 0; i < b.upper.length; i++) if (b.times[i] >= spec.start && b.times[i] <= spec.end && b.upper[i] > maxC) maxC = b.upper[i];
+  }
   // Measured levels widen the range to show them; a level below the lowest decade is drawn on the floor.
   for (const p of spec.points ?? []) if (p.time >= spec.start && p.time <= spec.end && p.value > maxC) maxC = p.value;
   return { maxC, lowC };
@@ -208,6 +226,8 @@ function drawPanel(doc: PDFKit.PDFDocument, spec: FigureSpec, scale: 'linear' | 
   doc.rect(f.left, f.top, f.right - f.left, f.bottom - f.top).clip();
   const columns = Math.max(10, Math.round((f.right - f.left) / columnWidth));
   const floorY = f.bottom + 4;
+  const yClamped = (c: number) => (scale === 'log' && !(c >= yAxis.min) ? floorY : Math.max(f.top - 4, Math.min(floorY, yOf(c))));
+  for (const b of spec.bands ?? []) drawBand(doc, b, xAxis, columns, xOf, yClamped);
   for (const s of spec.series) {
     const idx = thinned(s.times, s.values, xAxis.min, xAxis.max, columns);
     let pen = false;
@@ -234,6 +254,19 @@ function drawPanel(doc: PDFKit.PDFDocument, spec: FigureSpec, scale: 'linear' | 
   doc.font(font.regular).fontSize(type.tiny).fillColor(palette.text);
   const xTitle = xAxis.note?.startsWith('labels in days') ? `time (days) — ${xAxis.note.replace('labels in days, ', '')}` : `time (${spec.timeUnit})${xAxis.note ? ` — ${xAxis.note}` : ''}`;
   doc.text(xTitle, (f.left + f.right) / 2 - doc.widthOfString(xTitle) / 2, f.bottom + 15, { lineBreak: false });
+}
+
+/** A band as one closed path: forward along the upper edge, back along the lower one (each thinned, extremes kept). */
+function drawBand(doc: PDFKit.PDFDocument, b: PlotBand, xAxis: Axis, columns: number, xOf: (t: number) => number, yOf: (c: number) => number): void {
+  const up = thinned(b.times, b.upper, xAxis.min, xAxis.max, columns).filter((i) => Number.isFinite(b.upper[i]));
+  const down = thinned(b.times, b.lower, xAxis.min, xAxis.max, columns).filter((i) => Number.isFinite(b.lower[i])).reverse();
+  if (up.length < 2 || down.length < 2) return;
+  doc.save();
+  doc.moveTo(xOf(b.times[up[0]]), yOf(b.upper[up[0]]));
+  for (const i of up.slice(1)) doc.lineTo(xOf(b.times[i]), yOf(b.upper[i]));
+  for (const i of down) doc.lineTo(xOf(b.times[i]), yOf(b.lower[i]));
+  doc.closePath().fillColor(b.color).fill();
+  doc.restore();
 }
 
 /** Measured levels as small circles over the curves; a level of 0 has no place on the logarithmic scale. */
@@ -303,10 +336,18 @@ export function drawConcentrationFigure(doc: PDFKit.PDFDocument, spec: FigureSpe
       doc.moveTo(x, y).lineTo(x + 18, y).stroke().undash().restore();
     },
   }));
+  for (const b of spec.bands ?? []) {
+    items.push({
+      label: b.label,
+      draw: (x, y) => {
+        doc.save().rect(x, y - 3.5, 18, 7).fillColor(b.color).fill().restore();
+      },
+    });
+  }
   if (spec.points && spec.points.length > 0) {
     const color = spec.points[0].color;
     items.push({
-      label: spec.points.some((p) => p.hollow) ? 'measured level (hollow: below the limit, drawn at it)' : 'measured level',
+      label: spec.pointsLabel ?? (spec.points.some((p) => p.hollow) ? 'measured level (hollow: below the limit, drawn at it)' : 'measured level'),
       draw: (x, y) => {
         doc.save().lineWidth(0.9).circle(x + 9, y, 3.1).fillAndStroke(color, '#ffffff').restore();
       },

@@ -1,9 +1,11 @@
 /**
  * The regimen in words: one row per dose line as the user wrote it — "400 mg into gut every
  * 12 h × 14 from 0 h, F 0.85, lag 20 min" — never dose by dose, so a year of twice-daily
- * dosing is still one line.
+ * dosing is still one line. When the scenario has a clock, each line also gets the clock times of
+ * its first and last dose in the span.
  */
 import type { DoseLineSummary, Model } from '../../models/building/model.ts';
+import { clockTimeAt } from './clock-time.ts';
 import { duration, fmt, timePoint, unitText, withUnit } from './format.ts';
 
 export interface RegimenRow {
@@ -14,6 +16,17 @@ export interface RegimenRow {
   doses: string;
   /** Nominal total, and what arrives after bioavailability. */
   total: string;
+  /** Clock times of the first and the last dose given in the span; null without a clock. */
+  clock: string | null;
+}
+
+/** "first 2026-03-04 08:00 (+01:00)\nlast 2026-03-06 08:00 (+01:00)", one line for a single dose; null without a clock or a dose in the span. */
+export function doseLineClock(line: DoseLineSummary, model: Model): string | null {
+  if (line.count === 0) return null;
+  const first = clockTimeAt(line.firstGiven, model);
+  if (first === null) return null;
+  if (line.count === 1 || line.every === null) return first;
+  return `first ${first}\nlast ${clockTimeAt(line.firstGiven + (line.count - 1) * line.every, model) ?? '—'}`;
 }
 
 export function describeDoseLine(line: DoseLineSummary, model: Model): string {
@@ -50,6 +63,7 @@ export function regimenRows(model: Model): RegimenRow[] {
       description: describeDoseLine(line, model),
       doses: String(line.count),
       total: line.bioavailability === 1 ? withUnit(nominal, amount) : `${withUnit(nominal, amount)}, of which ${withUnit(arriving, amount)} arrives`,
+      clock: doseLineClock(line, model),
     };
   });
 }

@@ -23,6 +23,7 @@ import { centralRule, modelParameters, steadyVolumeRule, type ModelParameters } 
 import { drawConcentrationFigure, windowLabel, type PlotSeries } from './plot.ts';
 import { drawMeasuredLevels, measuredPoints } from './observations.ts';
 import { doseMarks, regimenRows } from './regimen.ts';
+import { clockTimeAt, timeAndClock } from './clock-time.ts';
 import { drawSubjectTables } from './subject.ts';
 import { drawTable, type Cell } from './table.ts';
 import { drawPopulationSection, reportPopulationCap, runReportPopulation, type PopulationCap, type PopulationRun } from './population.ts';
@@ -219,21 +220,25 @@ function regimenSection(doc: PDFKit.PDFDocument, model: Model, result: Simulatio
   if (rows.length === 0) {
     paragraph(doc, 'No doses: the curves show the model from an empty body.');
   } else {
+    // With a clock, the clock times of each line's first and last dose sit beside the elapsed times.
+    const clocked = model.clock !== null;
     drawTable(doc, {
       columns: [
         { header: '#', width: 0.35, align: 'right' },
-        { header: 'Label', width: 1.1 },
-        { header: 'Regimen (one row per dose line)', width: 4.7 },
-        { header: 'Doses in span', width: 0.7, align: 'right' },
-        { header: 'Total', width: 1.7, align: 'right' },
+        { header: 'Label', width: clocked ? 0.9 : 1.1 },
+        { header: 'Regimen (one row per dose line)', width: clocked ? 2.9 : 4.7 },
+        // Wide enough for "first 2026-03-04 08:00 (+01:00)" on one line.
+        ...(clocked ? [{ header: 'Clock time of the doses', width: 2.65 }] : []),
+        { header: 'Doses in span', width: clocked ? 0.75 : 0.7, align: 'right' },
+        { header: 'Total', width: clocked ? 1.65 : 1.7, align: 'right' },
       ],
-      rows: rows.map((r) => [r.line, r.label, r.description, r.doses, r.total]),
+      rows: rows.map((r) => [r.line, r.label, r.description, ...(clocked ? [r.clock ?? '—'] : []), r.doses, r.total]),
     });
   }
   const ss = result.metrics.steadyState;
   note(
     doc,
-    `Simulated span ${fmt(model.start)}–${fmt(model.end)} ${model.units.time}, ${model.administrations.length} administration${model.administrations.length === 1 ? '' : 's'} in all, ${result.times.length} reported times. F is the bioavailable fraction; a lag delays arrival after the dose is given.${
+    `Simulated span ${fmt(model.start)}–${fmt(model.end)} ${model.units.time}${model.clock ? `, from ${clockTimeAt(model.start, model)} to ${clockTimeAt(model.end, model)};` : ','} ${model.administrations.length} administration${model.administrations.length === 1 ? '' : 's'} in all, ${result.times.length} reported times. F is the bioavailable fraction; a lag delays arrival after the dose is given.${
       ss ? ` The steady-state figures use the repeating line${ss.lines.length > 1 ? 's' : ''} ${ss.lines.map((l) => l + 1).join(', ')} with a dosing cycle τ = ${duration(ss.period, model.units.time)}.` : ''
     }`,
   );
@@ -298,12 +303,12 @@ function exposureSection(doc: PDFKit.PDFDocument, model: Model, result: Simulati
     columns: [
       { header: 'Compartment', width: 1.3 },
       { header: 'Cmax', width: 1, align: 'right' },
-      { header: 'at Tmax', width: 1, align: 'right' },
+      { header: model.clock ? 'at Tmax (clock time)' : 'at Tmax', width: model.clock ? 2.2 : 1, align: 'right' },
       { header: `AUC ${fmt(model.start)}–${fmt(model.end)} ${model.units.time}`, width: 1.3, align: 'right' },
       { header: 'C at the end', width: 1, align: 'right' },
       { header: 'Dosing intervals', width: 1, align: 'right' },
     ],
-    rows: withVolume.map((c) => [{ text: c.compartment, bold: model.compartments.findIndex((m) => m.id === c.compartment) === params.central }, fmt(c.overall.cmax), fmt(c.overall.tmax), fmt(c.overall.auc), fmt(c.overall.cEnd), String(c.intervals.length)]),
+    rows: withVolume.map((c) => [{ text: c.compartment, bold: model.compartments.findIndex((m) => m.id === c.compartment) === params.central }, fmt(c.overall.cmax), timeAndClock(c.overall.tmax, model), fmt(c.overall.auc), fmt(c.overall.cEnd), String(c.intervals.length)]),
   });
 
   // Time in and out of the target windows.
@@ -501,7 +506,8 @@ function intervalSection(doc: PDFKit.PDFDocument, model: Model, result: Simulati
   );
   const columns = [
     { header: '#', width: 0.5, align: 'right' as const },
-    { header: 'Start', width: 0.85, align: 'right' as const },
+    // With a clock, the start's clock time goes under it: the column is widened to hold it on one line.
+    { header: model.clock ? 'Start and clock time' : 'Start', width: model.clock ? 2.8 : 0.85, align: 'right' as const },
     { header: 'End', width: 0.85, align: 'right' as const },
     { header: 'Cmax', width: 0.9, align: 'right' as const },
     { header: 'Tmax', width: 0.9, align: 'right' as const },
@@ -517,7 +523,7 @@ function intervalSection(doc: PDFKit.PDFDocument, model: Model, result: Simulati
     zebra: true,
     size: type.tiny + 0.3,
     rows: figures.intervals.map((iv) => {
-      const row = [String(iv.index + 1), fmt(iv.start), fmt(iv.end), fmt(iv.cmax), fmt(iv.tmax), fmt(iv.trough), fmt(iv.auc), fmt(iv.cavg), fmt(iv.fluctuation === null ? null : 100 * iv.fluctuation)];
+      const row = [String(iv.index + 1), timeAndClock(iv.start, model), fmt(iv.end), fmt(iv.cmax), fmt(iv.tmax), fmt(iv.trough), fmt(iv.auc), fmt(iv.cavg), fmt(iv.fluctuation === null ? null : 100 * iv.fluctuation)];
       if (windowed) row.push(percent(iv.windows[0]?.fractionInWindow));
       return row;
     }),

@@ -6,6 +6,7 @@
 // come from the core functions run here and are formatted with the report's own fmt, so the
 // check is that the report prints what the computation gave, not a recalled value.
 import { afterAll, describe, expect, it } from 'vitest';
+import { BAND_DRAWS } from '../../models/fitting/band.ts';
 import { fitScenario } from '../../models/fitting/fit.ts';
 import type { FitResult } from '../../models/fitting/result.ts';
 import { ncaOfModel } from '../../models/levels/nca-scenario.ts';
@@ -46,7 +47,28 @@ describe('report of a fit to measured levels', () => {
     expect(flat).toContain('9 Non-compartmental analysis of the measured levels');
     expect(flat).toContain('10 Individual parameters from the measured levels');
     expect(flat).not.toContain('Regimen proposals');
-    expect(flat).toContain('Figure 4. Goodness of fit');
+    expect(flat).toContain('Figure 5. Goodness of fit');
+  });
+
+  it('draws the predicted curve with its 90% band, the caption saying what the band is', () => {
+    expect(r.curves[0].lower).not.toBeNull();
+    expect(flat).toContain("Figure 4. The individual's predicted concentration in central from the estimates, with the shaded 90% band");
+    expect(flat).toContain(`the curves of ${BAND_DRAWS} parameter sets drawn from the estimates' uncertainty`);
+    expect(flat).toContain('The band is the parameter uncertainty only, not the residual error of a measurement');
+    expect(flat).toContain('Dashed: the curve at the typical values as entered (the centre of the prior)');
+    expect(flat).toContain('90% band from the parameter uncertainty');
+    expect(flat).toContain('measured level (hollow: below the limit, drawn at the limit; left out of the fit)');
+  });
+
+  it('gives each level its clock time as the measured-levels table does (with the zone)', () => {
+    // Independent of models/levels/clock.ts: the origin 2026-03-04T08:00 at +01:00 plus the elapsed hours, by Date arithmetic.
+    const origin = Date.UTC(2026, 2, 4, 7, 0);
+    // The fit's own section only: the measured-levels table of section 3 lists the same times.
+    const fitSection = flat.slice(flat.indexOf('10 Individual parameters from the measured levels'));
+    for (const p of r.predictions) {
+      const wall = new Date(Math.round((origin + p.time * 3_600_000 + 3_600_000) / 1000) * 1000).toISOString();
+      expect(fitSection).toContain(`${wall.slice(0, 10)} ${wall.slice(11, 16)} (+01:00)`);
+    }
   });
 
   it('prints each estimate, its standard error and RSE as fitScenario gives them', () => {
