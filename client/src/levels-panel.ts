@@ -20,6 +20,7 @@ import { byId, fieldId, findByFocusKey, focusKey, h } from './dom.ts';
 import { selectField } from './fields.ts';
 import { FitView } from './fit-view.ts';
 import { postFit, postNca, postPropose, type FitAnswer, type LevelsOutcome } from './levels-api.ts';
+import { LevelsImport } from './levels-import.ts';
 import { ncaTables, cautionNote } from './levels-tables.ts';
 import type { FormHooks } from './model-form.ts';
 import type { PanelErrors } from './population-panel.ts';
@@ -103,6 +104,13 @@ export function setUpLevels(store: ScenarioStore, hooks: FormHooks, errors: Pane
   });
 
   // ---- the observations ----
+  // A levels CSV read into the inline list; then the table is redrawn and the run shows the points.
+  const importer = new LevelsImport(store, (words) => {
+    details.open = true;
+    render('key:levels-import-choose');
+    hooks.announce(words);
+    void page.run();
+  });
   const observations = (): unknown[] => {
     const o = store.scenario.observations;
     return Array.isArray(o) ? o : [];
@@ -147,7 +155,7 @@ export function setUpLevels(store: ScenarioStore, hooks: FormHooks, errors: Pane
         h('tbody', {}, ...rows),
       ),
     );
-    return h('div', {}, list.length ? table : h('p', { class: 'note' }, 'No observations in this scenario. Add levels here, or write them in the JSON under "observations".'), h('div', { class: 'run-row' }, add));
+    return h('div', {}, list.length ? table : h('p', { class: 'note' }, 'No observations in this scenario. Add levels here, import a CSV file of them, or write them in the JSON under "observations".'), h('div', { class: 'run-row' }, add));
   }
 
   function cell(path: string, value: unknown, c: (typeof columns)[number], i: number): HTMLElement {
@@ -169,10 +177,14 @@ export function setUpLevels(store: ScenarioStore, hooks: FormHooks, errors: Pane
 
   function fillWhen(): void {
     const r = lastResult;
-    const byPath = new Map((r?.observations ?? []).map((o) => [o.path, o]));
+    const list = observations();
     whenCells.forEach((td, i) => {
-      const o = byPath.get(`observations[${i}]`);
-      if (!r || !o) {
+      // A run lists the observations in the scenario's order, each named by its path or, for a
+      // row read from a file, by its source line (models/scenario/observations.ts).
+      const row = list[i];
+      const name = isRecord(row) && typeof row.source === 'string' ? row.source : `observations[${i}]`;
+      const o = r?.observations?.[i];
+      if (!r || !o || o.path !== name) {
         td.textContent = '—';
         return;
       }
@@ -385,6 +397,7 @@ export function setUpLevels(store: ScenarioStore, hooks: FormHooks, errors: Pane
     formHost.replaceChildren(
       h('h3', { class: 'sub' }, 'Observations'),
       observationTable(),
+      importer.element,
       h('h3', { class: 'sub' }, 'Non-compartmental analysis'),
       actionRow('nca', 'Non-compartmental figures', rule),
       h('h3', { class: 'sub' }, 'Individual parameters'),
@@ -420,6 +433,7 @@ export function setUpLevels(store: ScenarioStore, hooks: FormHooks, errors: Pane
       const s = store.scenario;
       details.open = observations().length > 0 || s.fit !== undefined || s.propose !== undefined;
       clearOutputs();
+      importer.reset();
       lastResult = null;
       render();
     } else if (kind === 'structure' && !formHost.contains(document.activeElement)) {

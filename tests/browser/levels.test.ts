@@ -2,13 +2,17 @@
 // invented orvanix (samples/orvanix-fit.json) as a table with clock times; a wrong level placed
 // beside its field; NCA with CL/F; a MAP fit whose shown estimates and standard errors are the
 // API's own for the same scenario; regimen proposals (samples/orvanix-propose.json) ranked as
-// the API ranks them, and one row tried in the compare overlay. One page for the whole file;
-// no console errors or CSP violations. Screenshots: tests/artifacts/levels-fit.png, levels-propose.png.
+// the API ranks them, and one row tried in the compare overlay; a levels CSV imported through
+// the file input (samples/levels-orvanix-oral.csv) onto the plot, and a pasted one with a bad row
+// refused whole. One page for the whole file; no console errors or CSP violations. Screenshots:
+// tests/artifacts/levels-fit.png, levels-propose.png, levels-import.png, levels-import-bad.png.
+import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
 import type { Page } from 'playwright-core';
 import { describe, expect, it } from 'vitest';
 import type { FitResult } from '../../models/fitting/result.ts';
 import type { ProposeResult } from '../../models/regimen/propose.ts';
-import { artifactPath } from './harness.ts';
+import { artifactPath, repoRoot } from './harness.ts';
 import { afterNewResult, field, type PageRecord } from './page-helpers.ts';
 import { expectCleanRecord, useBrowserSession } from './session.ts';
 
@@ -111,6 +115,34 @@ describe('the measured levels panel in Chromium', () => {
     expect(dose?.duration).toBe(`${chosen.duration} h`);
     expect(await field(page, 'doses[0].amount').inputValue()).toBe(String(chosen.amount));
     expect(await page.locator('#reference-note').textContent()).toMatch(/^Reference:/);
+  }, stepTimeout);
+
+  it('imports a levels CSV onto the plot, and refuses a pasted one with a bad row by its line and column, importing nothing', async () => {
+    // Into the scenario on screen (orvanix-propose, which has no levels of its own).
+    expect(await page.evaluate(() => window.__tidemark.scenario.observations)).toBeUndefined();
+    const csv = join(repoRoot, 'samples/levels-orvanix-oral.csv');
+    // One observation per data line of the file (its header line excepted).
+    const rowsInFile = readFileSync(csv, 'utf8').trim().split('\n').length - 1;
+    await page.getByTestId('levels-import-replace').check();
+    await afterNewResult(page, () => page.getByTestId('levels-import-file').setInputFiles(csv));
+    expect(await page.getByTestId('levels-import-status').textContent()).toBe(`Imported ${rowsInFile} observations from levels-orvanix-oral.csv.`);
+    expect(await page.getByTestId('levels-observations').locator('tbody tr').count()).toBe(rowsInFile);
+    const scenario = await page.evaluate(() => window.__tidemark.scenario.observations as unknown[]);
+    expect(scenario).toHaveLength(rowsInFile);
+    expect(scenario[1]).toEqual({ subject: 'OR-01', time: '0.5 h', concentration: '4.128 mg/L', source: 'levels-orvanix-oral.csv line 3' });
+    // Every level is drawn over the curve (a linear axis: the levels of 0 at time 0 too).
+    const drawn = () => page.evaluate(() => (window.__tidemark.chart?.data.datasets ?? []).filter((d) => (d as unknown as Record<string, unknown>).tmObservations === true).reduce((n, d) => n + d.data.length, 0));
+    expect(await drawn()).toBe(rowsInFile);
+    await page.getByTestId('levels-import').screenshot({ path: artifactPath('levels-import.png') });
+
+    await page.getByTestId('levels-import').locator('summary', { hasText: 'paste' }).click();
+    await page.getByTestId('levels-import-text').fill('time [h],concentration [mg/L]\n1,2.5\n\n2,-0.4\n3,1.1,x\n');
+    await page.getByTestId('levels-import-paste').click();
+    expect(await page.getByTestId('levels-import-status').textContent()).toMatch(/^Nothing imported from pasted text: 2 problems/);
+    expect(await page.getByTestId('levels-import-errors').locator('li').allTextContents()).toEqual(['line 4, column concentration: -0.4 is negative; a measured level is 0 or more', 'line 5: 3 fields where the header has 2']);
+    expect(await page.evaluate(() => window.__tidemark.scenario.observations)).toEqual(scenario);
+    expect(await page.getByTestId('levels-observations').locator('tbody tr').count()).toBe(rowsInFile);
+    await page.getByTestId('levels-import').screenshot({ path: artifactPath('levels-import-bad.png') });
   }, stepTimeout);
 
   it('made no console errors, page errors or CSP violations', async () => {
