@@ -36,8 +36,9 @@ export function runLevelsJob(job: Pick<JobRequest, 'kind' | 'scenario' | 'object
   const model = buildModel(parsed.value);
   if (!model.ok) return problems(400, model.problems);
   if (job.kind === 'nca') {
-    const rule: NcaRule = job.rule ?? 'linear-up-log-down';
-    const nca = ncaOfModel(model.value, { rule });
+    // ?rule= wins over the scenario's nca.rule; a wrong `nca` section is 400 with its path, as any field.
+    const rule: NcaRule | undefined = job.rule;
+    const nca = ncaOfModel(model.value, { ...(rule ? { rule } : {}), ...(parsed.value.nca ? { section: parsed.value.nca } : {}) });
     return nca.ok ? answer(nca.value) : problems(400, nca.problems);
   }
   if (job.kind === 'fit') {

@@ -10,8 +10,9 @@
 import { readFileSync } from 'node:fs';
 import { checkNcaInput, ncaFigureInfo, ncaFigureNames, ncaLabel, ncaProfile, type NcaDimension, type NcaDose, type NcaFigureName, type NcaResult, type NcaRoute, type NcaRule } from '../models/levels/nca.ts';
 import { summariseNca, type NcaFigureSummary, type NcaSummary } from '../models/levels/nca-summary.ts';
-import { ncaOfModel, type ScenarioNca } from '../models/levels/nca-scenario.ts';
-import { normaliseScenario } from '../models/scenario/normalize.ts';
+import { ncaOfModel, type NcaOptions, type ScenarioNca } from '../models/levels/nca-scenario.ts';
+import { terminalPointsFrom } from '../models/levels/terminal-from.ts';
+import { buildModel, parseScenario } from '../models/scenario/normalize.ts';
 import { describeProblems } from '../models/scenario/problems.ts';
 import { readLevelsScenario } from './observations-csv.ts';
 import { parseOptions } from './cli-options.ts';
@@ -32,7 +33,9 @@ FILE is a scenario (.json) with observations, or a CSV with a header: time, conc
 optionally subject, below limit, limit, compartment, label; a unit may follow a name in brackets: "time [h]", "concentration [mg/L]".
 A row whose "below limit" is yes or true is left out of every figure and named.
 A scenario gives its own dose (its first dose line: nominal amount, route by where it goes) and,
-when that line repeats, the steady-state interval; only --rule and --format apply to it.
+when that line repeats, the steady-state interval; its "nca" section may give the rule and fix
+terminal lines. Only --rule, --terminal-from and --format apply to a scenario; given, --rule and
+--terminal-from override the section (--terminal-from then fixes the line of every profile).
 
 options:
   --dose AMOUNT          the dose, e.g. 500 or "500 mg" (CL, Vz and MRT need it)
@@ -41,8 +44,10 @@ options:
   --duration D           an infusion's length, in the file's time unit (needed for an infusion)
   --interval TAU         the dosing interval at steady state: AUCτ, Cavg, Cmin, Cmax, fluctuation, swing
   --rule R               log-down (linear up, log-linear down; default) or linear
-  --terminal-from T      fix the terminal line: the levels at or after time T (in the file's time
-                         unit; below-limit ones left out) instead of the best adjusted R²
+  --terminal-from T      fix the terminal line: the levels at or after time T that come after Cmax
+                         (below-limit ones left out) instead of the best adjusted R²; T in the
+                         file's time unit, or for a scenario an instant as it writes them
+                         ("96 h", or a date-time by its clock); fewer than 3 levels are flagged
   --format F             text (default), json or csv (one row per subject)
 
 NCA figures describe the levels given; they are not dosing advice.`;
@@ -213,14 +218,15 @@ interface Profiled {
 
 const ruleWords: Record<NcaRule, string> = { 'linear-up-log-down': 'linear up, log-linear down', linear: 'linear trapezoids' };
 
-function profileText(p: Profiled, units: NcaUnits, route: NcaRoute | null, shownFigures: readonly NcaFigureName[]): string {
+/** `fixedWords`: how the user fixed the terminal line ("from 12 h"), when they did. */
+function profileText(p: Profiled, units: NcaUnits, route: NcaRoute | null, shownFigures: readonly NcaFigureName[], fixedWords?: string): string {
   const r = p.result;
   const rows = [['figure', 'value', 'unit', 'rule']];
   for (const name of shownFigures) rows.push([ncaLabel(name, route), fmt(r.figures[name]), figureUnit(name, units), ncaFigureInfo[name].rule]);
   const lines = [`subject ${p.subject ? visibleText(p.subject) : '(one profile)'}`, ...pad(rows).map((l) => '  ' + l)];
   if (r.terminal) {
     const t = r.terminal;
-    lines.push(`  terminal line: ${t.times.length} levels at ${t.times.map(fmt).join(', ')} (${t.chosenBy}), R² ${t.r2.toFixed(4)}`);
+    lines.push(`  terminal line: ${t.times.length} levels at ${t.times.map(fmt).join(', ')} (${t.chosenBy === 'fixed' && fixedWords ? `fixed by the user ${fixedWords}` : t.chosenBy}), R² ${t.r2.toFixed(4)}`);
   }
   if (r.flags.length > 0) {
     lines.push('  flags:');
@@ -266,9 +272,11 @@ export function runNcaCli(args: string[], context: { folder: string }): NcaCliOu
   if (ruleText !== 'log-down' && ruleText !== 'linear') return usageError(`--rule must be log-down or linear, not '${visibleText(ruleText)}'`);
   const rule: NcaRule = ruleText === 'linear' ? 'linear' : 'linear-up-log-down';
   if (/\.json$/i.test(parsed.positional[0])) {
-    const doseOption = ['dose', 'dose-time', 'route', 'duration', 'interval', 'terminal-from'].find((k) => options.has(k));
+    const doseOption = ['dose', 'dose-time', 'route', 'duration', 'interval'].find((k) => options.has(k));
     if (doseOption !== undefined) return usageError(`--${doseOption} is for a CSV of levels; a scenario's doses give the dose and the interval`);
-    return runScenarioNca(parsed.positional[0], context.folder, rule, format as 'text' | 'json' | 'csv');
+    const from = options.get('terminal-from');
+    if (from !== undefined && from.trim() === '') return usageError('--terminal-from needs a time, e.g. "96 h" or a date-time');
+    return runScenarioNca(parsed.positional[0], context.folder, { ...(options.has('rule') ? { rule } : {}), ...(from !== undefined ? { terminalFrom: { from, path: '--terminal-from' } } : {}) }, format as 'text' | 'json' | 'csv');
   }
   const routeText = options.get('route') ?? 'extravascular';
   if (routeText !== 'intravascular' && routeText !== 'extravascular' && routeText !== 'infusion') return usageError(`--route must be intravascular, extravascular or infusion, not '${visibleText(routeText)}'`);
@@ -311,21 +319,21 @@ export function runNcaCli(args: string[], context: { folder: string }): NcaCliOu
 
   const profiles: Profiled[] = [];
   const problems: string[] = [];
+  const terminalFrom = numbers['terminal-from'];
   for (const [subject, list] of levels.groups) {
     const input = {
       times: list.map((l) => l.time),
       concentrations: list.map((l) => l.concentration),
       excluded: list.flatMap((l, i) => (l.belowLimit ? [i] : [])),
       rule,
-      // The user fixes the terminal line by its first time; the core then takes exactly these levels.
-      ...(numbers['terminal-from'] !== undefined ? { terminalPoints: list.flatMap((l, i) => (!l.belowLimit && l.time >= (numbers['terminal-from'] as number) ? [i] : [])) } : {}),
       ...(dose ? { dose } : {}),
       ...(numbers.interval !== undefined ? { interval: numbers.interval } : {}),
     };
     const wrong = checkNcaInput(input);
     if (wrong.length > 0) problems.push(...wrong.map((w) => `${visibleText(shown)}, subject ${visibleText(subject)}: ${w}`));
     else {
-      const result = ncaProfile(input);
+      // The user fixes the terminal line by its first time: the levels from then on after Cmax (one rule with nca.terminal).
+      const result = ncaProfile(terminalFrom !== undefined ? { ...input, terminalPoints: terminalPointsFrom(input, terminalFrom) } : input);
       // The excluded levels are named by the file's lines.
       for (const e of result.excluded) {
         const l = list[e.index];
@@ -368,17 +376,23 @@ export function runNcaCli(args: string[], context: { folder: string }): NcaCliOu
     `non-compartmental analysis of ${shown}: ${profiles.length} profile${profiles.length === 1 ? '' : 's'}; ${doseWords}; areas by ${ruleWords[rule]}${numbers.interval !== undefined ? `; steady state over τ = ${numbers.interval}${units.time ? ` ${units.time}` : ''}` : ''}`,
     ...levels.notes,
   ];
-  const parts = [head.join('\n'), ...profiles.map((p) => profileText(p, units, routeShown, shownFigures)), summaryText(summary, units, routeShown, shownFigures), closing];
+  const fixedWords = terminalFrom !== undefined ? `from ${fmt(terminalFrom)}${units.time ? ` ${units.time}` : ''} (--terminal-from)` : undefined;
+  const parts = [head.join('\n'), ...profiles.map((p) => profileText(p, units, routeShown, shownFigures, fixedWords)), summaryText(summary, units, routeShown, shownFigures), closing];
   return { code: 0, stdout: visibleLines(parts.join('\n\n')) + '\n', stderr: '' };
 }
 
 /** `nca SCENARIO.json`: the scenario's observations (inline or its observations file), grouped by subject and compartment (nca-scenario.ts). */
-function runScenarioNca(shown: string, folder: string, rule: NcaRule, format: 'text' | 'json' | 'csv'): NcaCliOutcome {
+function runScenarioNca(shown: string, folder: string, overrides: Pick<NcaOptions, 'rule' | 'terminalFrom'>, format: 'text' | 'json' | 'csv'): NcaCliOutcome {
   const path = fromUserFolder(folder, shown);
   const withLevels = readLevelsScenario(path, shown);
   if (!withLevels.ok) return { code: withLevels.code, stdout: '', stderr: visibleLines(withLevels.message) + '\n' };
-  const model = normaliseScenario(withLevels.value);
-  const nca = model.ok ? ncaOfModel(model.value, { rule }) : model;
+  const parsed = parseScenario(withLevels.value);
+  const model = parsed.ok ? buildModel(parsed.value) : parsed;
+  // The section is read with the model: a wrong `nca` is reported as any other wrong field, by its path.
+  const nca = !parsed.ok ? parsed : !model.ok ? model : ncaOfModel(model.value, { ...overrides, ...(parsed.value.nca ? { section: parsed.value.nca } : {}) });
+  // A --terminal-from the scenario's clock and units cannot read is a usage error (exit 2), as it is with a CSV.
+  const option = nca.ok ? undefined : nca.problems.find((p) => p.path === '--terminal-from');
+  if (option) return { code: 2, stdout: '', stderr: `--terminal-from ${visibleText(option.message)}\n\n${ncaUsage}\n` };
   if (!nca.ok) {
     const list = nca.problems.map((p) => ({ path: visibleText(p.path), message: visibleText(p.message) }));
     return { code: 1, stdout: '', stderr: `${visibleText(shown)}: ${list.length} problem${list.length > 1 ? 's' : ''}:\n${describeProblems(list)}\n` };
@@ -410,7 +424,8 @@ function scenarioNcaOutput(nca: ScenarioNca, shown: string, format: 'text' | 'js
     ...nca.profiles.map((p) => {
       const where = p.dose ? `  after dose ${p.doseNumber} at ${fmt(p.dose.time)} ${units.time}${p.interval !== null ? `, steady state over τ = ${fmt(p.interval)} ${units.time}` : ''}; levels ${p.paths.join(', ')}` : `  levels ${p.paths.join(', ')}`;
       const left = p.leftOut.map((l) => `  left out ${l.path}: ${l.reason}`);
-      const text = profileText({ subject: profileName(p), result: p.result }, units, nca.route, shownFigures).split('\n');
+      const fixedWords = p.terminalFixed ? `from ${fmt(p.terminalFixed.from)} ${units.time} (${p.terminalFixed.path})` : undefined;
+      const text = profileText({ subject: profileName(p), result: p.result }, units, nca.route, shownFigures, fixedWords).split('\n');
       return [text[0], where, ...left, ...text.slice(1)].join('\n');
     }),
     ...nca.summaries.map((s) => `compartment ${s.compartment}: ${summaryText(s.summary, units, nca.route, shownFigures)}`),

@@ -21,7 +21,7 @@ import { selectField } from './fields.ts';
 import { FitView } from './fit-view.ts';
 import { postFit, postNca, postPropose, type FitAnswer, type LevelsOutcome } from './levels-api.ts';
 import { LevelsImport } from './levels-import.ts';
-import { ncaTables, cautionNote } from './levels-tables.ts';
+import { ncaTables, cautionNote, markTerminalProblems, type TerminalHooks } from './levels-tables.ts';
 import type { FormHooks } from './model-form.ts';
 import type { PanelErrors } from './population-panel.ts';
 import { renderProposals } from './propose-view.ts';
@@ -78,7 +78,6 @@ export function setUpLevels(store: ScenarioStore, hooks: FormHooks, errors: Pane
   const shown: { nca: ScenarioNca | null; fit: FitAnswer | null; proposals: ProposeResult | null } = { nca: null, fit: null, proposals: null };
   const sent: Record<Kind, unknown> = { nca: null, fit: null, propose: null };
   const inFlight: Record<Kind, AbortController | null> = { nca: null, fit: null, propose: null };
-  let ncaRule: 'log-down' | 'linear' = 'log-down';
   let lastResult: SimulationResultJson | null = null;
   /** The line under each observation's time that shows its elapsed and clock time from the last run. */
   let whenCells: HTMLElement[] = [];
@@ -279,7 +278,7 @@ export function setUpLevels(store: ScenarioStore, hooks: FormHooks, errors: Pane
   }
 
   const caller: Record<Kind, (scenario: unknown, signal: AbortSignal) => Promise<LevelsOutcome<unknown>>> = {
-    nca: (s, signal) => postNca(s, signal, ncaRule),
+    nca: (s, signal) => postNca(s, signal),
     fit: postFit,
     propose: postPropose,
   };
@@ -310,6 +309,7 @@ export function setUpLevels(store: ScenarioStore, hooks: FormHooks, errors: Pane
       case 'invalid':
         details.open = true;
         errors.showInvalid(outcome.problems);
+        if (kind === 'nca') markTerminalProblems(outputs.nca, outcome.problems, ncaTerminalHooks());
         status.textContent = 'Not computed: the scenario has problems, listed under the run button and beside the fields.';
         break;
       case 'failed':
@@ -331,7 +331,7 @@ export function setUpLevels(store: ScenarioStore, hooks: FormHooks, errors: Pane
     if (kind === 'nca') {
       const nca = value as ScenarioNca;
       shown.nca = nca;
-      host.replaceChildren(h('h3', {}, 'Non-compartmental figures'), cautionNote('levels-nca-caution', 'The figures describe the levels given.'), ...ncaTables(nca));
+      host.replaceChildren(h('h3', {}, 'Non-compartmental figures'), cautionNote('levels-nca-caution', 'The figures describe the levels given.'), ...ncaTables(nca, ncaTerminalHooks()));
     } else if (kind === 'fit') {
       const fit = value as FitAnswer;
       shown.fit = fit;
@@ -381,19 +381,49 @@ export function setUpLevels(store: ScenarioStore, hooks: FormHooks, errors: Pane
     await page.run();
   }
 
+  // ---- the terminal line of an NCA profile, fixed by the user: the profile's own entry of nca.terminal ----
+  function ncaTerminalHooks(): TerminalHooks {
+    const isOwn = (e: unknown, subject: string | null, compartment: string) => isRecord(e) && (e.subject ?? null) === subject && e.compartment === compartment;
+    const entries = (): unknown[] => (isRecord(store.scenario.nca) && Array.isArray(store.scenario.nca.terminal) ? store.scenario.nca.terminal : []);
+    /** Sets (or with undefined removes) the profile's own entry; an empty list and an empty section go. */
+    const write = (subject: string | null, compartment: string, from: string | number | undefined) => {
+      store.mutate((doc) => {
+        const nca = isRecord(doc.nca) ? doc.nca : {};
+        const list: unknown[] = Array.isArray(nca.terminal) ? nca.terminal : [];
+        const i = list.findIndex((e) => isOwn(e, subject, compartment));
+        if (from === undefined) {
+          if (i >= 0) list.splice(i, 1);
+        } else if (i >= 0) list[i] = { ...(list[i] as Record<string, unknown>), from };
+        else list.push({ ...(subject !== null ? { subject } : {}), compartment, from });
+        if (list.length) nca.terminal = list;
+        else delete nca.terminal;
+        if (Object.keys(nca).length) doc.nca = nca;
+        else delete doc.nca;
+      });
+      const run = formHost.querySelector<HTMLButtonElement>('[data-testid="levels-nca-run"]');
+      if (run) void act('nca', run);
+    };
+    return {
+      own(subject, compartment) {
+        const list = entries();
+        const i = list.findIndex((e) => isOwn(e, subject, compartment));
+        return i < 0 ? null : { path: `nca.terminal[${i}]`, from: text((list[i] as Record<string, unknown>).from) };
+      },
+      // A plain number stays a number (the scenario's time unit); anything else as typed, for the server to read or name.
+      fix: (subject, compartment, typed) => write(subject, compartment, /^-?\d+(\.\d+)?(e[-+]?\d+)?$/i.test(typed.trim()) ? Number(typed.trim()) : typed.trim()),
+      automatic(subject, compartment) {
+        // Removing the own entry is enough unless a wider one (no subject, or no compartment) would still fix the line.
+        const wider = entries().some((e) => isRecord(e) && !isOwn(e, subject, compartment) && (e.subject === undefined || e.subject === subject) && (e.compartment === undefined || e.compartment === compartment));
+        write(subject, compartment, wider ? 'automatic' : undefined);
+      },
+    };
+  }
+
   // ---- rendering ----
   function render(focusAfter?: string): void {
     const key = focusAfter ?? focusKey(document.activeElement);
-    const rule = selectField(store, {
-      path: 'levels-nca-rule',
-      noPath: true,
-      label: 'Areas by',
-      value: ncaRule,
-      options: [['log-down', 'linear-up/log-down trapezoids'], ['linear', 'linear trapezoids']],
-      onChange: (v) => {
-        ncaRule = v === 'linear' ? 'linear' : 'log-down';
-      },
-    });
+    // The area rule is the scenario's nca.rule (absent: linear-up/log-down), so a saved scenario keeps it.
+    const rule = selectField(store, { path: 'nca.rule', label: 'Areas by', absentValue: 'linear-up-log-down', options: [['linear-up-log-down', 'linear-up/log-down trapezoids'], ['linear', 'linear trapezoids']] });
     formHost.replaceChildren(
       h('h3', { class: 'sub' }, 'Observations'),
       observationTable(),

@@ -2,10 +2,12 @@
  * Pieces the measured-levels views share: the caution every output carries, a figure table in
  * the page's style, and the non-compartmental figures as tables (per subject and compartment,
  * each figure with its value, unit and rule, the flags as warnings; the summary over subjects
- * when there are several).
+ * when there are several), and under each profile a control that fixes its terminal line "from"
+ * a time (the scenario's nca.terminal) or gives it back to the best adjusted R².
  */
 import { ncaFigureInfo, ncaFigureNames, ncaLabel, type NcaDimension, type NcaFigureName } from '../../models/levels/nca.ts';
-import type { ScenarioNca } from '../../models/levels/nca-scenario.ts';
+import type { ScenarioNca, ScenarioNcaProfile } from '../../models/levels/nca-scenario.ts';
+import type { Problem } from './api.ts';
 import { fmt } from '../../models/result/summary-text.ts';
 import { h } from './dom.ts';
 
@@ -50,8 +52,84 @@ function unitOf(name: NcaFigureName, u: ScenarioNca['units']): string {
   return volume ? `${volume}/${u.time}` : `${u.amount}/(${u.concentration}·${u.time})`;
 }
 
+/** What a profile's terminal-line control asks of the panel: the scenario's own entry for the profile, and writing it. */
+export interface TerminalHooks {
+  /** The profile's own entry of nca.terminal (its subject and compartment): its path and its `from` as written; null when it has none. */
+  own(subject: string | null, compartment: string): { path: string; from: string } | null;
+  /** Writes the profile's own entry "from" the time typed, and computes the figures again. */
+  fix(subject: string | null, compartment: string, from: string): void;
+  /** Gives the profile back to the best adjusted R² and computes the figures again. */
+  automatic(subject: string | null, compartment: string): void;
+}
+
+/** How the profile's terminal line was chosen, in words. */
+function terminalWords(p: ScenarioNcaProfile, timeUnit: string): string {
+  if (p.terminalFixed) return `fixed by the user from ${fmt(p.terminalFixed.from)} ${timeUnit} (${p.terminalFixed.path})`;
+  return p.result.terminal ? 'chosen by the best adjusted R²' : 'none: the levels after Cmax do not allow one';
+}
+
+/**
+ * "Terminal line from [time] Fix / Automatic": the control writes nca.terminal, the panel reruns.
+ * Problems with the entry (a 400 at its path) go beside the field: markTerminalProblems.
+ */
+function terminalControl(p: ScenarioNcaProfile, k: number, nca: ScenarioNca, hooks: TerminalHooks): HTMLElement {
+  const own = hooks.own(p.subject, p.compartment);
+  const id = `levels-terminal-from-${k}`;
+  const input = h('input', { type: 'text', id, class: 'levels-input', value: own && own.from !== 'automatic' ? own.from : '', placeholder: 'e.g. 96 h or 2026-03-08T08:00', autocomplete: 'off', spellcheck: 'false', 'data-testid': id, 'aria-describedby': `${id}-now` });
+  const fix = h('button', { type: 'button', 'data-testid': `levels-terminal-fix-${k}` }, 'Fix from this time');
+  const automatic = h('button', { type: 'button', class: 'quiet', 'data-testid': `levels-terminal-automatic-${k}`, disabled: !p.terminalFixed && own === null }, 'Automatic');
+  fix.addEventListener('click', () => hooks.fix(p.subject, p.compartment, input.value));
+  input.addEventListener('keydown', (e) => {
+    if (e.key === 'Enter') {
+      e.preventDefault();
+      hooks.fix(p.subject, p.compartment, input.value);
+    }
+  });
+  automatic.addEventListener('click', () => hooks.automatic(p.subject, p.compartment));
+  // A fixed line of too few levels is flagged; the flag is repeated here, where it can be mended.
+  const few = p.terminalFixed ? p.result.flags.filter((f) => f.figure === 'terminalRate' && f.message.startsWith(p.terminalFixed?.path ?? '')) : [];
+  return h(
+    'div',
+    {
+      class: 'levels-terminal',
+      'data-testid': `levels-terminal-${k}`,
+      'data-subject': p.subject,
+      'data-compartment': p.compartment,
+      // A wider entry (no subject or no compartment) that fixed this line: its problems belong here too.
+      'data-applied': p.terminalFixed?.path.startsWith('nca.') ? p.terminalFixed.path : null,
+    },
+    h('div', { class: 'run-row' }, h('label', { for: id }, 'Terminal line from'), input, fix, automatic),
+    h('p', { class: 'note', id: `${id}-now` }, `Now ${terminalWords(p, nca.units.time)}. A time takes the levels at or after it that come after Cmax; it is written to the scenario's nca.terminal.`),
+    few.length ? h('ul', { class: 'warnings' }, ...few.map((f) => h('li', {}, f.message))) : null,
+  );
+}
+
+/**
+ * A 400 after the control wrote nca.terminal: each problem of an entry beside the control of the
+ * profiles it concerns (the profile's own entry as the scenario has it now, and the entry that
+ * applied at the last run); true when one was placed.
+ */
+export function markTerminalProblems(host: HTMLElement, problems: readonly Problem[], hooks: Pick<TerminalHooks, 'own'>): boolean {
+  let placed = false;
+  host.querySelectorAll<HTMLElement>('.levels-terminal').forEach((control) => {
+    control.querySelectorAll('.field-error').forEach((e) => e.remove());
+    const input = control.querySelector('input');
+    input?.removeAttribute('aria-invalid');
+    const own = control.dataset.compartment === undefined ? null : hooks.own(control.dataset.subject ?? null, control.dataset.compartment);
+    const paths = [own?.path, control.dataset.applied].filter((x): x is string => x !== undefined);
+    const mine = problems.filter((q) => paths.some((path) => q.path === path || q.path.startsWith(`${path}.`)));
+    if (mine.length === 0 || !input) return;
+    const msg = h('p', { class: 'field-error', id: `${input.id}-error`, role: 'alert' }, mine.map((q) => `${q.path}: ${q.message}`).join(' '));
+    control.querySelector('.run-row')?.after(msg);
+    input.setAttribute('aria-invalid', 'true');
+    input.setAttribute('aria-describedby', `${input.id}-error ${input.id}-now`);
+    placed = true;
+  });
+  return placed;
+}
+
 /** One table per subject and compartment, then the summary per compartment when there are several subjects. */
-export function ncaTables(nca: ScenarioNca): HTMLElement[] {
+export function ncaTables(nca: ScenarioNca, terminal?: TerminalHooks): HTMLElement[] {
   const out: HTMLElement[] = [];
   for (const [k, p] of nca.profiles.entries()) {
     const who = `${p.subject ?? 'Levels'} — ${p.compartment}`;
@@ -73,7 +151,8 @@ export function ncaTables(nca: ScenarioNca): HTMLElement[] {
         'section',
         { class: 'levels-block', 'data-testid': `levels-nca-profile-${k}` },
         h('h4', {}, who),
-        h('p', { class: 'note' }, `Figures ${dose}; ${p.result.rule === 'linear' ? 'linear trapezoidal rule' : 'linear-up/log-down trapezoidal rule'}${p.result.terminal ? `; terminal line over ${p.result.terminal.indices.length} levels (${p.result.terminal.chosenBy})` : ''}.`),
+        h('p', { class: 'note' }, `Figures ${dose}; ${p.result.rule === 'linear' ? 'linear trapezoidal rule' : 'linear-up/log-down trapezoidal rule'}${p.result.terminal ? `; terminal line over ${p.result.terminal.indices.length} levels (${p.terminalFixed ? terminalWords(p, nca.units.time) : p.result.terminal.chosenBy})` : ''}.`),
+        terminal ? terminalControl(p, k, nca, terminal) : null,
         figureTable(`Non-compartmental figures: ${who}`, ['Figure', 'Value', 'Unit', 'Rule'], rows, `levels-nca-table-${k}`),
         flags.length ? h('ul', { class: 'warnings', 'data-testid': `levels-nca-flags-${k}` }, ...flags) : null,
         leftOut.length ? h('ul', { class: 'note levels-notes' }, ...leftOut) : null,

@@ -18,14 +18,23 @@
  *   that they lie under the next dose and are left out. The levels cannot show that steady
  *   state was reached; a note says so.
  * - Levels below the limit are excluded from every figure and named by their path.
+ * - The area rule: the caller's (command line --rule, ?rule=), else nca.rule, else linear up,
+ *   log-linear down. The terminal line: by the best adjusted R², unless an entry of
+ *   nca.terminal (the most specific that matches the profile; nca-settings.ts) fixes it "from
+ *   T": then the levels at or after T after Cmax (terminal-from.ts), however few — fewer than 3
+ *   are flagged, not refused, as for --terminal-from.
  * NCA figures describe the levels given; they are not dosing advice.
  */
 import type { Model } from '../building/model.ts';
+import { formatNumber } from '../result/format-number.ts';
 import type { Outcome, Problem } from '../scenario/problems.ts';
+import type { Instant, NcaSettingsLine } from '../scenario/schema.ts';
 import { displayUnit } from '../scenario/units.ts';
 import { checkNcaInput, ncaProfile, type NcaDose, type NcaResult, type NcaRoute, type NcaRule } from './nca.ts';
 import { summariseNca, type NcaSummary } from './nca-summary.ts';
+import { choiceFor, readNcaSettings } from './nca-settings.ts';
 import type { Observation } from './observation.ts';
+import { terminalPointsFrom } from './terminal-from.ts';
 
 export const NCA_CAUTION = 'NCA figures describe the levels given; they are not dosing advice.';
 
@@ -46,6 +55,12 @@ export interface ScenarioNcaProfile {
   paths: string[];
   /** Observations of this subject and compartment not used, with why. */
   leftOut: { path: string; reason: string }[];
+  /**
+   * The start of the terminal line when the user fixed it (result.terminal.chosenBy is then
+   * 'fixed'): where (nca.terminal[i] or --terminal-from) and the instant, in the scenario's time
+   * unit. null when the line is chosen by the best adjusted R².
+   */
+  terminalFixed: { path: string; from: number } | null;
   result: NcaResult;
 }
 
@@ -89,11 +104,23 @@ export function chooseInterval(doseTimes: readonly number[], tau: number, levelT
 
 const groupKey = (o: Observation) => `${o.subject ?? ''}\u0000${o.compartment}`;
 
-/** The profiles and summaries of the model's observations, or problems with paths for levels no profile can take. */
-export function ncaOfModel(model: Model, options: { rule?: NcaRule } = {}): Outcome<ScenarioNca> {
-  const rule = options.rule ?? 'linear-up-log-down';
-  const problems: Problem[] = [];
+export interface NcaOptions {
+  /** The area rule asked for by the caller; it wins over nca.rule. */
+  rule?: NcaRule;
+  /** The scenario's `nca` section. */
+  section?: NcaSettingsLine;
+  /** The command line's --terminal-from: one start for every profile, in place of nca.terminal. */
+  terminalFrom?: { from: Instant; path: string };
+}
+
+/** The profiles and summaries of the model's observations, or problems with paths for levels no profile can take and for a wrong `nca` section. */
+export function ncaOfModel(model: Model, options: NcaOptions = {}): Outcome<ScenarioNca> {
   if (model.observations.length === 0) return { ok: false, problems: [{ path: 'observations', message: 'NCA needs measured levels; the scenario has none' }] };
+  // A wrong section is reported with the levels' own problems, all at once.
+  const settings = readNcaSettings(options.section, model, options.terminalFrom);
+  const problems: Problem[] = settings.ok ? [] : [...settings.problems];
+  const terminal = settings.ok ? settings.value.terminal : [];
+  const rule = options.rule ?? options.section?.rule ?? 'linear-up-log-down';
   const groups = new Map<string, Observation[]>();
   for (const o of model.observations) {
     const list = groups.get(groupKey(o)) ?? [];
@@ -164,14 +191,18 @@ export function ncaOfModel(model: Model, options: { rule?: NcaRule } = {}): Outc
       problems.push(...wrong.map((w) => ({ path: 'observations', message: `${profileName(sorted[0])}: ${w}` })));
       continue;
     }
-    const result = ncaProfile(input);
+    const choice = choiceFor(terminal, sorted[0].subject, sorted[0].compartment);
+    const terminalFixed = choice !== null && choice.from !== null ? { path: choice.path, from: choice.from } : null;
+    const points = terminalFixed !== null ? terminalPointsFrom(input, terminalFixed.from) : null;
+    const result = ncaProfile(points !== null ? { ...input, terminalPoints: points } : input);
+    if (terminalFixed !== null && points !== null) fewPointsFlag(result, terminalFixed, points.map((i) => input.times[i]), model.units.time);
     // Excluded levels named by their paths rather than by their index.
     for (const e of result.excluded) {
       const i = result.flags.findIndex((f) => f.figure === 'levels' && f.message.startsWith(`the level at time ${e.time} `));
       if (i >= 0) result.flags[i] = { figure: 'levels', message: `${kept[e.index].path} (time ${e.time} ${model.units.time}) is below the limit: excluded from every figure` };
     }
     if (interval !== null && doseNumber !== null) result.flags.push({ figure: 'aucTau', message: `the interval after dose ${doseNumber} of ${dose?.times.length} is taken to be at steady state; the levels cannot show that it is` });
-    profiles.push({ subject: sorted[0].subject, compartment: sorted[0].compartment, dose: ncaDose, doseNumber, interval, paths: kept.map((o) => o.path), leftOut, result });
+    profiles.push({ subject: sorted[0].subject, compartment: sorted[0].compartment, dose: ncaDose, doseNumber, interval, paths: kept.map((o) => o.path), leftOut, terminalFixed, result });
   }
   if (problems.length > 0) return { ok: false, problems };
   const compartments = [...new Set(profiles.map((p) => p.compartment))];
@@ -193,6 +224,20 @@ export function ncaOfModel(model: Model, options: { rule?: NcaRule } = {}): Outc
       notes,
     },
   };
+}
+
+/**
+ * A fixed line of fewer than 3 levels is flagged by the core in words about indices; the flag
+ * is put in the user's words: where the start was written, the start, and the levels it leaves.
+ */
+function fewPointsFlag(result: NcaResult, fixed: { path: string; from: number }, times: number[], unit: string): void {
+  if (times.length >= 3) return;
+  const at = fixed.path.startsWith('nca.') ? `${fixed.path}.from` : fixed.path;
+  const leaves = times.length === 0 ? 'no level' : `${times.length === 1 ? 'one level' : `${times.length} levels`} (at ${times.map(formatNumber).join(', ')} ${unit})`;
+  const message = `${at} (${formatNumber(fixed.from)} ${unit}) leaves ${leaves} after Cmax for the terminal line; ${times.length < 2 ? 'a line needs at least 2, so there is no terminal rate' : 'at least 3 are usual'}`;
+  const i = result.flags.findIndex((f) => f.figure === 'terminalRate' && (f.message.startsWith('no terminal rate: a line needs') || f.message.startsWith('the terminal line has only')));
+  if (i >= 0) result.flags[i] = { figure: 'terminalRate', message };
+  else result.flags.push({ figure: 'terminalRate', message });
 }
 
 function profileName(o: Observation): string {

@@ -302,6 +302,30 @@ export const proposeSchema = z
   })
   .describe('Regimen proposals for review: amounts, intervals and durations ranked by how their steady state meets the targets.');
 
+/** The area rules of non-compartmental analysis (models/levels/nca.ts names them NcaRule). */
+export const ncaRules = ['linear-up-log-down', 'linear'] as const;
+
+/**
+ * One fixed terminal line: the profiles it applies to (a subject, a compartment, both, or every
+ * profile when neither is given) and the instant the line starts at. The most specific entry
+ * that matches a profile applies.
+ */
+export const ncaTerminalSchema = z
+  .strictObject({
+    subject: z.string().trim().min(1).max(80).optional().describe('Whose profile, as the observations name the subject, e.g. "P-017". Without it: every subject (in `compartment`, when given).'),
+    compartment: identifier.optional().describe('Which compartment\'s levels. Without it: every compartment observed.'),
+    from: instant.describe('The terminal line takes the levels at or after this instant that come after Cmax: elapsed time ("96 h") or a date-time ("2026-03-08T08:00"). "automatic" goes back to the best adjusted R² (to undo a wider entry for one profile).'),
+  })
+  .describe('The terminal line fixed by the user for some profiles.');
+
+/** Non-compartmental analysis of the observations: the area rule and any terminal lines the user fixes. */
+export const ncaSchema = z
+  .strictObject({
+    rule: z.enum(ncaRules).optional().describe('linear-up-log-down (default: linear trapezoids while levels rise, log-linear ones while they fall) or linear (linear trapezoids throughout).'),
+    terminal: z.array(ncaTerminalSchema).max(1000).optional().describe('Terminal lines fixed by the user; profiles no entry names keep the line of the best adjusted R².'),
+  })
+  .describe('Settings of the non-compartmental analysis of the observations.');
+
 /** Individual parameters from measured levels: which quantities to estimate, and how. */
 export const fitSchema = z
   .strictObject({
@@ -333,6 +357,7 @@ export const scenarioSchema = z
       .union([z.array(observationSchema).max(10_000), observationsFileSchema], 'must be a list of observations, or { "file": "levels.csv" }')
       .optional()
       .describe('Measured levels, shown beside the model\'s curve with its prediction at each time: a list, or a CSV file read by the command line.'),
+    nca: ncaSchema.optional(),
     fit: fitSchema.optional(),
     propose: proposeSchema.optional(),
   })
@@ -358,4 +383,6 @@ export type ObservationLine = z.output<typeof observationSchema>;
 export type ObservationMapping = z.output<typeof observationMappingSchema>;
 export type ClockLine = z.output<typeof clockSchema>;
 export type FitSettings = z.output<typeof fitSchema>;
+export type NcaSettingsLine = z.output<typeof ncaSchema>;
+export type NcaTerminalLine = z.output<typeof ncaTerminalSchema>;
 export type SolverMethod = (typeof solverMethods)[number];

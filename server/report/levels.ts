@@ -31,7 +31,7 @@ export function runLevelSections(scenario: unknown, model: Model): LevelSections
   if (fit && !fit.ok) return { ok: false, status: 400, problems: fit.problems };
   const proposals = runReportProposals(scenario, parsed.value.propose !== undefined);
   if (proposals && !proposals.ok) return { ok: false, status: 400, problems: proposals.problems };
-  return { ok: true, value: { nca: runReportNca(model), fit, proposals } };
+  return { ok: true, value: { nca: runReportNca(model, parsed.value.nca), fit, proposals } };
 }
 
 /** Draws the sections present, numbered from `firstSection`, figures from `firstFigure`. */

@@ -11,6 +11,7 @@ import { ncaFigureInfo, ncaFigureNames, ncaLabel, type NcaFigureName, type NcaRo
 import { NCA_CAUTION, ncaOfModel, type ScenarioNca, type ScenarioNcaProfile } from '../../models/levels/nca-scenario.ts';
 import type { NcaSummary } from '../../models/levels/nca-summary.ts';
 import type { Outcome } from '../../models/scenario/problems.ts';
+import type { NcaSettingsLine } from '../../models/scenario/schema.ts';
 import { unitsPerHour } from '../../models/scenario/instants.ts';
 import { unitOf } from '../nca-cli.ts';
 import { font, heading, palette, paragraph, type } from './document.ts';
@@ -18,10 +19,10 @@ import { fmt, percent, unitText } from './format.ts';
 import { bullet } from './section-text.ts';
 import { drawTable, type Cell } from './table.ts';
 
-/** The NCA of the scenario's levels; null without levels. Problems are drawn in the section, not refused: NCA is not asked for. */
-export function runReportNca(model: Model): Outcome<ScenarioNca> | null {
+/** The NCA of the scenario's levels (with its `nca` section: the rule, fixed terminal lines); null without levels. Problems are drawn in the section, not refused: NCA is not asked for. */
+export function runReportNca(model: Model, section?: NcaSettingsLine): Outcome<ScenarioNca> | null {
   if (model.observations.length === 0) return null;
-  return ncaOfModel(model);
+  return ncaOfModel(model, section ? { section } : {});
 }
 
 const ruleWords = { 'linear-up-log-down': 'linear trapezoids while levels rise or stay, log-linear ones while they fall (linear-up/log-down)', linear: 'linear trapezoids throughout' } as const;
@@ -57,6 +58,12 @@ function doseWords(p: ScenarioNcaProfile, model: Model): string {
   return `Figures follow ${when}: ${fmt(p.dose.amount)} ${unitText(u.amount)} nominal, ${route}${steady}. Times of figures (Tmax, Tlast) are counted from that dose.`;
 }
 
+/** "fixed by the user from 96 h (2026-03-08 08:00 (+01:00); nca.terminal[0])": the start as written in time and on the clock. */
+function fixedWords(fixed: NonNullable<ScenarioNcaProfile['terminalFixed']>, model: Model): string {
+  const clock = model.clock ? `${clockLabel(fixed.from / unitsPerHour(model.units), model.clock)}; ` : '';
+  return `fixed by the user from ${fmt(fixed.from)} ${model.units.time} (${clock}${fixed.path})`;
+}
+
 function profileTable(doc: PDFKit.PDFDocument, p: ScenarioNcaProfile, nca: ScenarioNca, model: Model): void {
   const route: NcaRoute | null = p.dose?.route ?? null;
   const r = p.result;
@@ -83,10 +90,11 @@ function profileTable(doc: PDFKit.PDFDocument, p: ScenarioNcaProfile, nca: Scena
     const levels = t.indices.map((i) => p.paths[i]);
     paragraph(
       doc,
-      `Terminal line through ${t.times.length} levels at ${t.times.map((x) => fmt(x)).join(', ')} ${nca.units.time} after the dose (${levels.join(', ')}), ${t.chosenBy === 'fixed' ? 'points fixed by the user' : 'chosen by the best adjusted R² among the last levels after Cmax'}; R² ${t.r2.toFixed(4)}${t.adjustedR2 !== null ? `, adjusted R² ${t.adjustedR2.toFixed(4)}` : ''}.`,
+      `Terminal line through ${t.times.length} levels at ${t.times.map((x) => fmt(x)).join(', ')} ${nca.units.time} after the dose (${levels.join(', ')}), ${t.chosenBy === 'fixed' && p.terminalFixed ? `${fixedWords(p.terminalFixed, model)}: the levels at or after it that come after Cmax` : 'chosen by the best adjusted R² among the last levels after Cmax'}; R² ${t.r2.toFixed(4)}${t.adjustedR2 !== null ? `, adjusted R² ${t.adjustedR2.toFixed(4)}` : ''}.`,
       { size: type.small },
     );
-  } else paragraph(doc, 'No terminal line: the levels after Cmax do not allow one (see the flags).', { size: type.small });
+  } else if (p.terminalFixed) paragraph(doc, `No terminal line: ${fixedWords(p.terminalFixed, model)}, the levels left after Cmax do not allow one (see the flags).`, { size: type.small });
+  else paragraph(doc, 'No terminal line: the levels after Cmax do not allow one (see the flags).', { size: type.small });
   if (r.flags.length > 0) {
     paragraph(doc, 'Flags', { size: type.small, face: font.bold, color: palette.warning, after: 1 });
     for (const f of r.flags) bullet(doc, `${f.figure === 'levels' ? 'levels' : ncaLabel(f.figure, route)}: ${f.message}`, palette.warning);

@@ -61,6 +61,22 @@ describe('the measured levels panel in Chromium', () => {
     expect(await page.getByTestId('levels-nca-caution').textContent()).toMatch(/not dosing advice/);
   }, stepTimeout);
 
+  it('fixes the terminal line from a clock time in nca.terminal, shows a wrong time beside its control, and gives the line back to automatic', async () => {
+    await page.getByTestId('levels-terminal-from-0').fill('2026-03-05T08:00');
+    await page.getByTestId('levels-terminal-fix-0').click();
+    await page.waitForFunction(() => window.__tidemarkLevels.nca?.profiles[0].terminalFixed != null);
+    expect(await page.evaluate(() => window.__tidemark.scenario.nca)).toEqual({ terminal: [{ subject: 'P-017', compartment: 'central', from: '2026-03-05T08:00' }] });
+    // 24 h after the clock origin; the interval's peak is its last level, so none is left after Cmax: flagged beside the control.
+    expect(await page.evaluate(() => window.__tidemarkLevels.nca?.profiles[0].terminalFixed)).toEqual({ path: 'nca.terminal[0]', from: 24 });
+    expect(await page.getByTestId('levels-terminal-0').locator('.warnings li').textContent()).toMatch(/^nca\.terminal\[0\]\.from \(24 h\) leaves no level/);
+    await page.getByTestId('levels-terminal-from-0').fill('soon');
+    await page.getByTestId('levels-terminal-fix-0').click();
+    await expect.poll(() => page.locator('#levels-terminal-from-0-error').textContent()).toMatch(/^nca\.terminal\[0\]\.from: .*'soon'/);
+    await page.getByTestId('levels-terminal-automatic-0').click();
+    await page.waitForFunction(() => window.__tidemarkLevels.nca?.profiles[0].terminalFixed === null);
+    expect(await page.evaluate(() => window.__tidemark.scenario.nca)).toBeUndefined();
+  }, stepTimeout);
+
   it('writes the quantities to estimate, shows the fit with the API\'s estimates and standard errors, and opens the fitted scenario', async () => {
     const estimate = () => page.evaluate(() => (window.__tidemark.scenario.fit as { estimate: string[] }).estimate);
     expect(await estimate()).toEqual(['CL', 'V', 'ka']);
@@ -146,7 +162,7 @@ describe('the measured levels panel in Chromium', () => {
   }, stepTimeout);
 
   it('made no console errors, page errors or CSP violations', async () => {
-    // The one 400 is the negative level sent on purpose.
-    await expectCleanRecord(record, 1);
+    // The two 400s are sent on purpose: the negative level, and the terminal line from 'soon'.
+    await expectCleanRecord(record, 2);
   });
 });

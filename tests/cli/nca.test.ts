@@ -45,6 +45,40 @@ describe('nca with the terminal line fixed by the user', () => {
   });
 });
 
+describe('nca of a scenario with an nca section', () => {
+  // An invented oral drug, one dose, eight levels of one subject (Bateman function, from memory of Gibaldi & Perrier, ch. 1).
+  const levelAt = (t: number) => 9 * (Math.exp(-0.08 * t) - Math.exp(-1.2 * t));
+  const scenarioWith = (nca: unknown) => ({
+    title: 'invented oral drug',
+    compartments: [{ id: 'gut' }, { id: 'central', volume: '30 L' }],
+    transfers: [{ from: 'gut', to: 'central', k: '1.2 1/h' }, { from: 'central', k: '0.08 1/h' }],
+    doses: [{ into: 'gut', amount: '300 mg' }],
+    output: { end: '80 h', step: '1 h' },
+    observations: [1, 2, 4, 8, 12, 24, 36, 48].map((t) => ({ time: t, compartment: 'central', concentration: levelAt(t), subject: 'S1' })),
+    nca,
+  });
+  const write = (name: string, nca: unknown) => {
+    writeFileSync(join(dir, name), JSON.stringify(scenarioWith(nca)));
+    return runNcaCli([name, '--format', 'json'], { folder: dir });
+  };
+
+  it('fixes the line from the section; --terminal-from overrides it; a wrong start is exit 1 with its path', () => {
+    const fixed = JSON.parse(write('fixed.json', { terminal: [{ subject: 'S1', from: '24 h' }] }).stdout) as { profiles: { terminalFixed: unknown; result: { terminal: { times: number[]; chosenBy: string } } }[] };
+    expect(fixed.profiles[0].terminalFixed).toEqual({ path: 'nca.terminal[0]', from: 24 });
+    expect(fixed.profiles[0].result.terminal).toMatchObject({ times: [24, 36, 48], chosenBy: 'fixed' });
+    const text = runNcaCli(['fixed.json', '--terminal-from', '12'], { folder: dir });
+    expect(text.code).toBe(0);
+    expect(text.stdout).toContain('terminal line: 4 levels at 12, 24, 36, 48 (fixed by the user from 12 h (--terminal-from))');
+    const bad = write('bad.json', { terminal: [{ from: 'soon' }] });
+    expect(bad.code).toBe(1);
+    expect(bad.stderr).toMatch(/nca\.terminal\[0\]\.from.*'soon'/);
+    // A bad option value is a usage error, as with a CSV.
+    const badOption = runNcaCli(['fixed.json', '--terminal-from', 'soon'], { folder: dir });
+    expect(badOption.code).toBe(2);
+    expect(badOption.stderr).toMatch(/^--terminal-from expected a number with a time unit.*'soon'/);
+  });
+});
+
 describe('nca on the demo levels', () => {
   it('text: a table per subject with units from the header, the excluded level named, the summary, the closing line', () => {
     const o = run(sample, '--dose', '400 mg');

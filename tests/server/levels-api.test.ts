@@ -68,6 +68,19 @@ describe('POST /api/nca', () => {
     expect(rule.body.problems[0].path).toBe('rule');
   });
 
+  it('honours the scenario\'s nca section (rule, a terminal line fixed by the user), ?rule= over it; a wrong entry is 400 with its path', async () => {
+    const fixed = await request(app).post('/api/nca').send({ ...levels, nca: { rule: 'linear', terminal: [{ subject: 'P-017', from: '2026-03-05T08:00' }] } }).expect(200);
+    expect(fixed.body.rule).toBe('linear');
+    // 24 h after the clock origin; the interval's levels after Cmax (the peak, 26.08 h) are none, so the line is flagged, not chosen.
+    expect(fixed.body.profiles[0].terminalFixed).toEqual({ path: 'nca.terminal[0]', from: 24 });
+    expect(fixed.body.profiles[0].result.flags.map((f: { message: string }) => f.message)).toContainEqual(expect.stringMatching(/^nca\.terminal\[0\]\.from \(24 h\) leaves no level/));
+    const asked = await request(app).post('/api/nca?rule=log-down').send({ ...levels, nca: { rule: 'linear' } }).expect(200);
+    expect(asked.body.rule).toBe('linear-up-log-down');
+    expect(await badPaths('/api/nca', { ...levels, nca: { terminal: [{ subject: 'P-999', from: '96 h' }, { compartment: 'central', from: 'next week' }] } })).toEqual(['nca.terminal[0].subject', 'nca.terminal[1].from']);
+    expect(await badPaths('/api/nca', { ...levels, nca: { terminal: [{ from: '2026-03-04T07:00' }] } })).toEqual(['nca.terminal[0].from']);
+    expect(await badPaths('/api/nca', { ...levels, nca: { rule: 'cubic' } })).toEqual(['nca.rule']);
+  });
+
   it('keeps the app\'s checks: another site 403, not JSON 415', async () => {
     await request(app).post('/api/nca').set('Sec-Fetch-Site', 'cross-site').send(levels).expect(403);
     await request(app).post('/api/nca').set('content-type', 'text/plain').send('{}').expect(415);
