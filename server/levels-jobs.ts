@@ -9,12 +9,14 @@ import { fitScenario } from '../models/fitting/fit.ts';
 import { readFitPlan, type Objective } from '../models/fitting/settings.ts';
 import { ncaOfModel } from '../models/levels/nca-scenario.ts';
 import type { NcaRule } from '../models/levels/nca.ts';
-import { proposeRegimens } from '../models/regimen/propose.ts';
+import { proposeByBasis } from '../models/regimen/propose-basis.ts';
+import { checkPopulationProposals } from '../models/regimen/population-proposals.ts';
 import { readPropose } from '../models/regimen/settings.ts';
 import { buildModel, parseScenario } from '../models/scenario/normalize.ts';
 import type { Problem } from '../models/scenario/problems.ts';
 import { fitCaution } from './fit-cli.ts';
 import type { JobReply, JobRequest } from './jobs.ts';
+import { populationProposalLimits } from './propose-cli.ts';
 
 type Reply = Omit<JobReply, 'id'>;
 
@@ -55,7 +57,13 @@ export function runLevelsJob(job: Pick<JobRequest, 'kind' | 'scenario' | 'object
   if (job.kind === 'propose') {
     const settings = readPropose(parsed.value, model.value);
     if (!settings.ok) return problems(400, settings.problems);
-    const proposed = proposeRegimens(job.scenario);
+    // A population basis is checked before the subjects run: a missing population section, its
+    // own fields and the limits (subjects, subjects × regimens) are the request's fault, 400.
+    if (parsed.value.propose?.basis === 'population') {
+      const checked = checkPopulationProposals(parsed.value, model.value, settings.value, populationProposalLimits);
+      if (checked.length > 0) return problems(400, checked);
+    }
+    const proposed = proposeByBasis(job.scenario, populationProposalLimits);
     return proposed.ok ? answer(proposed.value) : problems(422, proposed.problems);
   }
   return problems(500, [{ path: '', message: `internal error: no levels job '${job.kind}'` }]);

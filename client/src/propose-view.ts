@@ -3,6 +3,9 @@
  * (amount, interval, infusion duration, loading dose, steady-state trough, peak and AUC per
  * 24 h, each target met or not, time to the window), each row with "Try in compare". The first
  * rows are shown; the rest on request. Proposals are model outputs, not recommendations.
+ * For a population (result.population) the columns are the attainment instead: the tier, the
+ * share meeting every target and each target's share with their standard errors, and the median
+ * and 5th–95th percentiles of the steady-state trough and peak, under the population's caution.
  */
 import type { Proposal, ProposeResult } from '../../models/regimen/propose.ts';
 import { fmt } from '../../models/result/summary-text.ts';
@@ -14,13 +17,15 @@ const FIRST_ROWS = 10;
 
 export function renderProposals(host: HTMLElement, result: ProposeResult, tryRow: (p: Proposal) => void): void {
   const u = result.units;
-  const rows = result.proposals.map((p, i) => row(p, i, result, tryRow));
-  const table = figureTable(
-    `Proposed regimens, ranked (${result.searched.regimens} searched, ${result.searched.method})`,
-    ['Rank', `Amount (${u.amount})`, `Interval (${u.time})`, `Infusion (${u.time})`, `Loading (${u.amount})`, `Trough (${u.concentration})`, `Peak (${u.concentration})`, `AUC24 (${u.auc})`, 'Targets met', `To the window (${u.time})`, ''],
-    rows,
-    'levels-proposals',
-  );
+  const basis = result.population ?? null;
+  const rows = result.proposals.map((p, i) => (basis ? populationRow(p, i, tryRow) : row(p, i, result, tryRow)));
+  const head = basis
+    ? ['Rank', 'Tier', `Amount (${u.amount})`, `Interval (${u.time})`, `Infusion (${u.time})`, 'All targets (% ± SE)', 'Each target (% ± SE)', `Trough (${u.concentration}) median [5th–95th]`, `Peak (${u.concentration}) median [5th–95th]`, '']
+    : ['Rank', `Amount (${u.amount})`, `Interval (${u.time})`, `Infusion (${u.time})`, `Loading (${u.amount})`, `Trough (${u.concentration})`, `Peak (${u.concentration})`, `AUC24 (${u.auc})`, 'Targets met', `To the window (${u.time})`, ''];
+  const caption = basis
+    ? `Proposed regimens for ${basis.subjects} virtual subjects (seed ${basis.seed}), ranked by the share meeting every target (${result.searched.regimens} searched on the same subjects)`
+    : `Proposed regimens, ranked (${result.searched.regimens} searched, ${result.searched.method})`;
+  const table = figureTable(caption, head, rows, 'levels-proposals');
   const body = table.querySelector('tbody');
   const extra = body ? Array.from(body.children).slice(FIRST_ROWS) : [];
   for (const tr of extra) (tr as HTMLElement).hidden = true;
@@ -31,13 +36,15 @@ export function renderProposals(host: HTMLElement, result: ProposeResult, tryRow
   });
   host.replaceChildren(
     ...present(
-    cautionNote('levels-propose-caution', result.caution),
+    cautionNote('levels-propose-caution', basis ? `${basis.caution} ${result.caution}` : result.caution),
     h('p', {}, 'Targets: '),
     h('ol', { class: 'levels-targets' }, ...result.targets.map((t) => h('li', {}, t))),
     table,
     extra.length ? more : null,
     h('p', { class: 'note' }, `Ranking: ${result.rankingRule}.`),
+    basis ? h('p', { class: 'note' }, `Shares ± one Monte Carlo standard error √(p(1 − p)/N); trough and peak in the compartment of the first target, ${basis.percentileRule}.`) : null,
     h('p', { class: 'note' }, `Time to the window: ${result.timeToWindowDefinition}.`),
+    basis?.loading ? h('p', { class: 'note' }, `Loading dose: ${basis.loading}.`) : null,
     ),
   );
 }
@@ -61,6 +68,33 @@ function row(p: Proposal, i: number, result: ProposeResult, tryRow: (p: Proposal
     h('td', {}, fmt(s?.auc24 ?? null)),
     h('td', { class: p.allMet ? 'levels-met' : 'levels-unmet', title: p.note ?? '' }, p.allMet ? `all ${met}` : met),
     h('td', {}, p.timeToWindow === null ? (p.note ? `— (${p.note})` : '—') : `${fmt(p.timeToWindow)}${p.intervalsToWindow !== null ? ` (${p.intervalsToWindow} τ)` : ''}`),
+    h('td', {}, tryButton),
+  ];
+}
+
+function percentWithError(x: { probability: number; standardError: number }): string {
+  return `${(x.probability * 100).toFixed(1)}% ± ${(x.standardError * 100).toFixed(1)}`;
+}
+
+function spread(x: { p5: number; p50: number; p95: number }): string {
+  return Number.isNaN(x.p50) || x.p50 === null ? '—' : `${fmt(x.p50)} [${fmt(x.p5)}–${fmt(x.p95)}]`;
+}
+
+/** A population row: the joint share ranks it; each target's share, trough and peak percentiles beside it. */
+function populationRow(p: Proposal, i: number, tryRow: (p: Proposal) => void): HTMLElement[] {
+  const a = p.population as NonNullable<Proposal['population']>;
+  const tryButton = h('button', { type: 'button', class: 'quiet', 'data-testid': `levels-try-${i}`, 'aria-label': `Try rank ${p.rank} in compare` }, 'Try in compare');
+  tryButton.addEventListener('click', () => tryRow(p));
+  return [
+    h('th', { scope: 'row' }, String(p.rank)),
+    h('td', { title: 'Regimens in one tier are within 2 standard errors of its leader' }, String(a.tier)),
+    h('td', { 'data-testid': `levels-amount-${i}` }, fmt(p.amount)),
+    h('td', {}, fmt(p.interval)),
+    h('td', {}, p.duration > 0 ? fmt(p.duration) : 'bolus'),
+    h('td', { 'data-testid': `levels-joint-${i}`, title: `${a.joint.attained} subjects` }, percentWithError(a.joint)),
+    h('td', {}, ...a.targets.map((t, k) => h('div', {}, `${k + 1}: ${percentWithError(t)}`))),
+    h('td', { title: p.note ?? '' }, spread(a.trough)),
+    h('td', {}, spread(a.peak)),
     h('td', {}, tryButton),
   ];
 }

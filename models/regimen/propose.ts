@@ -81,6 +81,56 @@ export interface Proposal {
   note: string | null;
   /** 1 is the best. */
   rank: number;
+  /**
+   * With propose.basis "population" only: the regimen over the virtual subjects. Then
+   * steadyState holds the medians over the subjects with a steady state, targetValues each
+   * target's share of subjects, targetsMet whether at least half attain each, allMet whether at
+   * least half attain all of them, and there is no loading dose or time to the window.
+   */
+  population?: PopulationRow;
+}
+
+/** The 5th, 50th and 95th percentiles of a figure over the subjects with a steady state. */
+export interface PercentileSpread {
+  p5: number;
+  p50: number;
+  p95: number;
+}
+
+export interface ShareOfSubjects {
+  probability: number;
+  /** Monte Carlo (binomial) standard error √(p(1 − p)/N). */
+  standardError: number;
+  attained: number;
+}
+
+export interface PopulationRow {
+  /** Subjects meeting every target at once (the ranking's first key). */
+  joint: ShareOfSubjects;
+  /** Each target's share, in the order of `targets`. */
+  targets: ShareOfSubjects[];
+  /** Steady-state trough and peak in the compartment of the first target. */
+  trough: PercentileSpread;
+  peak: PercentileSpread;
+  /** Subjects without a steady state for this regimen: left out of the percentiles, counted as not attaining. */
+  undetermined: number;
+  /** Regimens in one tier are within 2 standard errors of its leader's joint share (population-rank.ts). */
+  tier: number;
+}
+
+export interface PopulationBasis {
+  subjects: number;
+  seed: number;
+  /** Subjects × regimens, each a steady-state search (or solve) of its own. */
+  runs: number;
+  limits: { subjects: number; runs: number };
+  /** Why a loading dose is not proposed, when one was asked for. */
+  loading: string | null;
+  /** Why the time to the window is not given. */
+  timeToWindow: string;
+  percentileRule: string;
+  /** Population figures describe a model population, not a patient. */
+  caution: string;
 }
 
 export interface ProposeResult {
@@ -98,11 +148,13 @@ export interface ProposeResult {
     steadyStateSolves: number;
     /** Dosing intervals simulated from empty (times to the window, loading doses). */
     intervalsSimulated: number;
-    method: 'unit dose scaled (linear)' | 'per regimen (saturable or numerical)';
+    method: 'unit dose scaled (linear)' | 'per regimen (saturable or numerical)' | 'per subject and regimen (population, common random numbers)';
   };
   rankingRule: string;
   timeToWindowDefinition: string;
   caution: string;
+  /** With propose.basis "population" only: the population the regimens were judged on. */
+  population?: PopulationBasis;
 }
 
 interface Context {

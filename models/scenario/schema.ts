@@ -299,6 +299,10 @@ export const proposeSchema = z
     loading: z.boolean().default(false).describe('Propose a loading dose too: one dose, rounded to the strengths, that brings the first interval into the targets.'),
     targets: z.array(targetSchema).max(20).default([]).describe('What the regimen must attain, written as population.targets.'),
     rounding: z.enum(['nearest', 'up', 'down']).default('nearest').describe('How a computed loading dose is rounded to the amounts the strengths make.'),
+    basis: z
+      .enum(['typical', 'population'])
+      .default('typical')
+      .describe('typical: judged on the scenario\'s own subject (typical, or the subject given); population: every regimen given to the same virtual subjects of the `population` section and ranked by the share meeting every target.'),
   })
   .describe('Regimen proposals for review: amounts, intervals and durations ranked by how their steady state meets the targets.');
 

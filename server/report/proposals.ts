@@ -1,22 +1,78 @@
 /**
  * The report's regimen proposals, drawn when the scenario has a `propose` block:
- * proposeRegimens (models/regimen/propose.ts) run in the report's thread, the best fifteen
+ * proposeByBasis (models/regimen/propose-basis.ts) run in the report's thread, the best fifteen
  * of the ranked table with how many regimens were searched, the targets, the ranking rule,
  * the meaning of the time to the window, and the caution that proposals are model outputs
- * for a clinician's review.
+ * for a clinician's review. For propose.basis "population" the table holds the attainment
+ * (joint and per target, with standard errors) and the trough and peak percentiles, under the
+ * caution that population figures describe a model population, not a patient.
  */
-import { PROPOSAL_CAUTION, proposeRegimens, type Proposal, type ProposeResult } from '../../models/regimen/propose.ts';
+import { proposeByBasis } from '../../models/regimen/propose-basis.ts';
+import type { PopulationProposalLimits } from '../../models/regimen/population-proposals.ts';
+import { PROPOSAL_CAUTION, type Proposal, type ProposeResult } from '../../models/regimen/propose.ts';
 import type { Outcome } from '../../models/scenario/problems.ts';
 import { bullet, drawSectionCaution } from './section-text.ts';
 import { ensureSpace, font, heading, palette, paragraph, type } from './document.ts';
 import { fmt, unitText } from './format.ts';
 import { drawTable, type Cell } from './table.ts';
+import { defaultPopulationLimits } from '../population-jobs.ts';
+import { reportPopulationCap } from './population.ts';
 
 /** Rows the report prints; the command line and the API give all. */
 export const REPORT_PROPOSALS = 15;
 
-export function runReportProposals(scenario: unknown, hasPropose: boolean): Outcome<ProposeResult> | null {
-  return hasPropose ? proposeRegimens(scenario) : null;
+/** Population proposals in a report: the server's subjects, and the report's own cap on regimen runs (as its population section). */
+export const reportProposalLimits: PopulationProposalLimits = { subjects: defaultPopulationLimits.maxSubjects, runs: reportPopulationCap.regimenRuns };
+
+export function runReportProposals(scenario: unknown, hasPropose: boolean, limits: PopulationProposalLimits = reportProposalLimits): Outcome<ProposeResult> | null {
+  return hasPropose ? proposeByBasis(scenario, limits) : null;
+}
+
+/** A share of subjects as "83.4% ± 1.7". */
+function percentCell(x: { probability: number; standardError: number }): string {
+  return `${fmt(Number((x.probability * 100).toFixed(1)))}% ± ${fmt(Number((x.standardError * 100).toFixed(1)))}`;
+}
+
+function spreadCell(x: { p5: number; p50: number; p95: number }): string {
+  return Number.isNaN(x.p50) ? '—' : `${fmt(x.p50)}\n${fmt(x.p5)}–${fmt(x.p95)}`;
+}
+
+/** The population's table: joint and per-target attainment with standard errors, trough and peak percentiles. */
+function drawPopulationTable(doc: PDFKit.PDFDocument, r: ProposeResult, shown: Proposal[]): void {
+  const u = r.units;
+  const basis = r.population as NonNullable<ProposeResult['population']>;
+  const c = unitText(u.concentration);
+  drawTable(doc, {
+    caption: `Ranked proposals for ${basis.subjects} virtual subjects (seed ${basis.seed}) at steady state`,
+    columns: [
+      { header: 'Rank', width: 0.45, align: 'right' },
+      { header: 'Tier', width: 0.4, align: 'right' },
+      { header: `Amount (${unitText(u.amount)})`, width: 0.75, align: 'right' },
+      { header: `Every (${u.time})`, width: 0.6, align: 'right' },
+      { header: `Infusion (${u.time})`, width: 0.7, align: 'right' },
+      { header: 'All targets\n(% ± SE)', width: 1.0, align: 'right' },
+      { header: 'Each target\n(% ± SE)', width: 1.25 },
+      { header: `Trough (${c})\nmedian, 5–95th`, width: 1.05, align: 'right' },
+      { header: `Peak (${c})\nmedian, 5–95th`, width: 1.05, align: 'right' },
+    ],
+    size: type.tiny + 0.3,
+    zebra: true,
+    rows: shown.map((p) => {
+      const a = p.population as NonNullable<Proposal['population']>;
+      return [
+        { text: String(p.rank), bold: p.rank === 1 },
+        String(a.tier),
+        { text: fmt(p.amount), bold: p.rank === 1 },
+        { text: fmt(p.interval), bold: p.rank === 1 },
+        p.duration > 0 ? fmt(p.duration) : '—',
+        { text: percentCell(a.joint), bold: p.rank === 1 },
+        a.targets.map((t, k) => `${k + 1}: ${percentCell(t)}`).join('\n'),
+        spreadCell(a.trough),
+        spreadCell(a.peak),
+      ];
+    }),
+    footnote: `All targets: the share of the ${basis.subjects} subjects whose steady state meets every target at once; each target: its own share; ± one Monte Carlo standard error √(p(1 − p)/N). Every regimen is given to the same subjects (common random numbers). Trough and peak in the compartment of the first target; ${basis.percentileRule}. Time to the window: ${basis.timeToWindow}.${basis.loading ? ` Loading dose: ${basis.loading}.` : ''}`,
+  });
 }
 
 function loading(p: Proposal, amount: string): string {
@@ -47,19 +103,24 @@ export function drawProposalsSection(doc: PDFKit.PDFDocument, outcome: Outcome<P
     return;
   }
   const r = outcome.value;
-  drawSectionCaution(doc, 'Caution — regimen proposals', [r.caution]);
+  drawSectionCaution(doc, 'Caution — regimen proposals', r.population ? [r.population.caution, r.caution] : [r.caution]);
   const u = r.units;
   const s = r.searched;
   const shown = r.proposals.slice(0, REPORT_PROPOSALS);
-  paragraph(
-    doc,
-    `${s.amounts} amounts × ${s.intervals} intervals × ${s.durations} infusion durations = ${s.regimens} regimens searched, each solved to steady state on the scenario's model (${s.method}; ${s.steadyStateSolves} steady-state solves, ${s.intervalsSimulated} dosing intervals simulated from empty). ${shown.length < r.proposals.length ? `The best ${shown.length} of ${r.proposals.length} are shown.` : `All ${r.proposals.length} are shown.`}`,
-    { size: type.small },
-  );
+  const searchedWords = r.population
+    ? `${s.amounts} amounts × ${s.intervals} intervals × ${s.durations} infusion durations = ${s.regimens} regimens searched, each given to the same ${r.population.subjects} virtual subjects of the scenario's population and solved to steady state for each (${s.steadyStateSolves} steady states).`
+    : `${s.amounts} amounts × ${s.intervals} intervals × ${s.durations} infusion durations = ${s.regimens} regimens searched, each solved to steady state on the scenario's model (${s.method}; ${s.steadyStateSolves} steady-state solves, ${s.intervalsSimulated} dosing intervals simulated from empty).`;
+  paragraph(doc, `${searchedWords} ${shown.length < r.proposals.length ? `The best ${shown.length} of ${r.proposals.length} are shown.` : `All ${r.proposals.length} are shown.`}`, { size: type.small });
   // The targets stay with the table's first rows.
   ensureSpace(doc, 14 * r.targets.length + 150);
   paragraph(doc, 'Targets (numbered as in the table)', { size: type.small, face: font.bold, after: 1 });
   r.targets.forEach((t, i) => paragraph(doc, `${i + 1}. ${unitText(t)}`, { size: type.small, indent: 6, after: 1 }));
+  if (r.population) {
+    drawPopulationTable(doc, r, shown);
+    for (const p of shown.filter((x) => x.note !== null)) bullet(doc, `Rank ${p.rank}: ${p.note}`, palette.warning);
+    paragraph(doc, `Ranking rule: ${r.rankingRule}.`, { size: type.small, color: palette.muted });
+    return;
+  }
   const c = unitText(u.concentration);
   drawTable(doc, {
     caption: 'Ranked proposals at steady state',
