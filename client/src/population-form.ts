@@ -3,12 +3,14 @@
  * subject attains or not, and the covariate distributions the subjects are drawn from. It
  * edits `population` in the store by JSON path like the other forms. Correlations, residual
  * error, the regimen grid and the periods are folded sections of their own
- * (population-extras.ts); the covariate table, which it does not show, is kept as it is.
+ * (population-extras.ts). The choice between covariate distributions and a covariate table, and
+ * the table itself, are population-table.ts's.
  */
 import { fieldId, h } from './dom.ts';
 import { button, compartmentField, numberField, quantityField, selectField, textField } from './fields.ts';
 import type { FormHooks } from './model-form.ts';
 import { PopulationExtras } from './population-extras.ts';
+import { CovariateTableEditor, forgetCovariateTable } from './population-table.ts';
 import { cvValue } from './population-variability.ts';
 import { isNumberText } from './quantity.ts';
 import type { ScenarioStore } from './store.ts';
@@ -105,7 +107,7 @@ export class PopulationForm {
         ),
       ),
       this.targetsGroup(),
-      this.covariatesGroup(),
+      ...this.covariatesGroup(),
       ...new PopulationExtras(this.store, this.hooks).render(),
       h('div', { class: 'row-actions' }, button('Remove the population', { class: 'quiet', 'data-focus-key': 'remove-population' }, () => this.remove())),
     );
@@ -240,19 +242,25 @@ export class PopulationForm {
   }
 
   // ---- covariates ----
-  private covariatesGroup(): HTMLElement {
-    const covariates = this.store.get('population.covariates');
-    const entries = isObject(covariates) ? Object.entries(covariates) : [];
-    const rows = h('div', { class: 'rows' });
-    entries.forEach(([name, d], i) => rows.append(this.covariateRow(name, isObject(d) ? d : {}, i)));
-    if (entries.length === 0) rows.append(h('p', { class: 'empty' }, 'No covariate distributions: every subject has the scenario subject’s weight, age and the rest.'));
-    return h(
-      'fieldset',
-      { class: 'group' },
-      h('legend', {}, 'Covariate distributions'),
-      rows,
-      h('div', { class: 'row-actions' }, button('Add covariate', { 'data-testid': 'add-population-covariate', 'data-focus-key': 'add-population-covariate' }, () => this.addCovariate())),
-    );
+  /** Where the covariates come from, the distributions (when drawn), and the folded covariate table. */
+  private covariatesGroup(): HTMLElement[] {
+    const table = new CovariateTableEditor(this.store, this.hooks);
+    const source = table.source;
+    const parts: (HTMLElement | null)[] = [h('legend', {}, 'Covariates'), table.sourceSwitch()];
+    if (source === 'table') {
+      parts.push(h('p', { class: 'empty' }, 'None drawn: every covariate comes from the covariate table below (and the scenario subject’s for those it lacks).'), table.asideNote('distributions'));
+    } else {
+      const covariates = this.store.get('population.covariates');
+      const entries = isObject(covariates) ? Object.entries(covariates) : [];
+      const rows = h('div', { class: 'rows' });
+      entries.forEach(([name, d], i) => rows.append(this.covariateRow(name, isObject(d) ? d : {}, i)));
+      if (entries.length === 0) rows.append(h('p', { class: 'empty' }, source === 'both' ? 'No covariate drawn besides the table’s.' : 'No covariate distributions: every subject has the scenario subject’s weight, age and the rest.'));
+      parts.push(
+        rows,
+        h('div', { class: 'row-actions' }, button('Add covariate', { 'data-testid': 'add-population-covariate', 'data-focus-key': 'add-population-covariate' }, () => this.addCovariate())),
+      );
+    }
+    return [h('fieldset', { class: 'group' }, ...parts.filter((x): x is HTMLElement => x !== null)), table.section()];
   }
 
   private covariateRow(name: string, d: Row, i: number): HTMLElement {
@@ -359,6 +367,7 @@ export class PopulationForm {
     this.store.mutate((doc) => {
       delete doc.population;
     });
+    forgetCovariateTable();
     this.hooks.clearErrors();
     this.hooks.rerender('key:add-population');
     this.hooks.announce('Removed the population section; the single typical-subject run is unchanged.');

@@ -10,6 +10,7 @@ import { byId } from './dom.ts';
 import type { FormHooks } from './model-form.ts';
 import { PopulationForm } from './population-form.ts';
 import { PopulationRun } from './population-run.ts';
+import { forgetCovariateTable } from './population-table.ts';
 import type { ScenarioStore } from './store.ts';
 
 export interface PanelErrors {
@@ -62,6 +63,8 @@ export function setUpPopulation(store: ScenarioStore, hooks: FormHooks, errors: 
     run,
     replaced() {
       details.open = store.scenario.population !== undefined;
+      // What was set aside or half-pasted belonged to the scenario that was on screen.
+      forgetCovariateTable();
       if (run.running) void run.cancel();
       run.result = null;
       run.sent = null;

@@ -1,8 +1,10 @@
 // The population panel in a real browser (Debian's Chromium through playwright-core) against
 // the real server and its population threads: the demo population opened from the sample
 // list, run with 60 subjects, its median band drawn equal to what the API answers for the
-// same scenario; a large run cancelled; no console errors and no CSP violations on the way.
-// The screenshot goes to tests/artifacts/population.png (git-ignored).
+// same scenario; a large run cancelled; covariates taken from a pasted CSV table (a bad cell
+// named by line and column, nothing applied until every line reads); no console errors and no
+// CSP violations on the way. Screenshots go to tests/artifacts/population.png and
+// population-table.png (git-ignored).
 import { mkdirSync } from 'node:fs';
 import { join } from 'node:path';
 import type { Page } from 'playwright-core';
@@ -125,6 +127,53 @@ describe('the population panel in Chromium', () => {
     await expect.poll(() => page.locator('#f-transfers-0-cl-cv-error').textContent()).toMatch(/must not be negative/);
     expect(await field(page, 'transfers[0].cl.cv').inputValue()).toBe('-10%');
     expect(await page.getByTestId('population-status').textContent()).toMatch(/problems/);
+  }, stepTimeout);
+
+  it('takes the covariates from a pasted 3-row CSV: a bad cell is named by line and column and nothing applied; the run uses the rows; switching back restores the distributions', async () => {
+    const population = () => page.evaluate(() => window.__tidemark.scenario.population as Record<string, unknown>);
+    await field(page, 'transfers[0].cl.cv').fill('30%');
+    const distributions = (await population()).covariates;
+    await page.getByTestId('population-covariate-table').locator('summary').click();
+    await page.getByTestId('covariate-csv-paste').click();
+    const header = 'weight [kg],height [cm],age [year],sex,serumCreatinine [mg/dL]\n';
+    await page.getByTestId('covariate-csv-text').fill(`${header}58,162,34,female,0.7\n6o,168,47,female,0.8\n83,171,55,male,1.1\n`);
+    await page.getByTestId('covariate-csv-apply').click();
+    // The command line's message for the same file (models/population/covariate-csv.ts), without a file name.
+    expect(await page.getByTestId('covariate-csv-problems').locator('.csv-problem').allTextContents()).toEqual(["line 3, column weight: '6o' is not a number (the column is in kg)"]);
+    expect((await population()).covariateTable).toBeUndefined();
+    expect((await population()).covariates).toEqual(distributions);
+
+    await page.getByTestId('covariate-csv-text').fill(`${header}58,162,34,female,0.7\n64,168,47,female,0.8\n83,171,55,male,1.1\n`);
+    await page.getByTestId('covariate-csv-apply').click();
+    const rows = [
+      { weight: '58 kg', height: '162 cm', age: '34 year', sex: 'female', serumCreatinine: '0.7 mg/dL' },
+      { weight: '64 kg', height: '168 cm', age: '47 year', sex: 'female', serumCreatinine: '0.8 mg/dL' },
+      { weight: '83 kg', height: '171 cm', age: '55 year', sex: 'male', serumCreatinine: '1.1 mg/dL' },
+    ];
+    expect((await population()).covariateTable).toEqual({ rows });
+    expect('covariates' in (await population())).toBe(false);
+    expect(await page.getByTestId('covariate-source-table').isChecked()).toBe(true);
+    expect(await field(page, 'population.covariateTable.rows[2].weight').inputValue()).toBe('83');
+    expect(await page.getByTestId('aside-distributions').textContent()).toMatch(/5 covariate distribution/);
+    // In mid-view, clear of the page's sticky caution.
+    await page.getByTestId('population-covariate-table').evaluate((el) => el.scrollIntoView({ block: 'center' }));
+    await page.getByTestId('population-covariate-table').screenshot({ path: join(repoRoot, 'tests/artifacts/population-table.png') });
+
+    // The last run was refused (the previous step), so "Done" is this run's.
+    expect(await page.getByTestId('population-status').textContent()).toMatch(/^Not run/);
+    await page.getByTestId('run-population').click();
+    await page.waitForFunction(() => /^Done/.test(document.querySelector('[data-testid="population-status"]')?.textContent ?? ''), undefined, { timeout: stepTimeout });
+    const run = await page.evaluate(() => ({ result: window.__tidemarkPopulation.result!, sent: window.__tidemarkPopulation.sent as { population: Record<string, unknown> } }));
+    expect(run.result.subjects).toBe(60);
+    expect(run.result.settings.covariates).toEqual(['a table of 3 covariate rows, taken in turn']);
+    expect(run.sent.population.covariateTable).toEqual({ rows });
+
+    // The explicit switch keeps what each choice held.
+    await page.getByTestId('covariate-source-distributions').check();
+    expect((await population()).covariates).toEqual(distributions);
+    expect('covariateTable' in (await population())).toBe(false);
+    await page.getByTestId('covariate-source-table').check();
+    expect((await population()).covariateTable).toEqual({ rows });
   }, stepTimeout);
 
   it('made no console errors, page errors or CSP violations', async () => {

@@ -1,0 +1,123 @@
+/**
+ * The covariate table as the page edits it, without the DOM: its columns (each covariate with
+ * the unit its numbers are written in), what a cell shows and what typing in it writes, and the
+ * switch between drawing covariates from distributions and taking them from the table. The
+ * scenario holds rows of { name: value } (population.covariateTable.rows); the columns are read
+ * from them each time, so nothing is stored twice.
+ */
+import { isNumberText } from './quantity.ts';
+
+export type TableRow = Record<string, unknown>;
+
+export interface TableColumn {
+  name: string;
+  /** The unit of the column's numbers, e.g. "kg"; null for plain numbers or category words. */
+  unit: string | null;
+}
+
+function isObject(v: unknown): v is TableRow {
+  return typeof v === 'object' && v !== null && !Array.isArray(v);
+}
+
+/** "64 kg" → { number: "64", unit: "kg" }; anything else → null. */
+export function splitNumberUnit(value: unknown): { number: string; unit: string } | null {
+  if (typeof value !== 'string') return null;
+  const m = /^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([^\d\s.+-].*?)\s*$/.exec(value);
+  return m ? { number: m[1], unit: m[2] } : null;
+}
+
+/**
+ * The table's columns, in the order they first appear in the rows. A column's unit is the one
+ * its first number-with-unit is written in; `remembered` gives the unit of a column whose cells
+ * hold none yet (a column just added, or emptied).
+ */
+export function tableColumns(rows: unknown, remembered: ReadonlyMap<string, string> = new Map()): TableColumn[] {
+  const columns: TableColumn[] = [];
+  for (const row of Array.isArray(rows) ? rows : []) {
+    if (!isObject(row)) continue;
+    for (const [name, value] of Object.entries(row)) {
+      let c = columns.find((x) => x.name === name);
+      if (!c) {
+        c = { name, unit: null };
+        columns.push(c);
+      }
+      if (c.unit === null) c.unit = splitNumberUnit(value)?.unit ?? null;
+    }
+  }
+  for (const c of columns) if (c.unit === null) c.unit = remembered.get(c.name) ?? null;
+  return columns;
+}
+
+/** What a cell shows: the number alone when it is written in the column's unit, else the value as stored. */
+export function cellText(value: unknown, unit: string | null): string {
+  if (value === undefined || value === null) return '';
+  const split = splitNumberUnit(value);
+  if (split && unit !== null && split.unit === unit) return split.number;
+  return typeof value === 'string' ? value : String(value);
+}
+
+/**
+ * What typing in a cell writes, by the command line's CSV rule: a number in a column with a unit
+ * becomes "64 kg", a number without one stays a number, anything else (a category word, a
+ * quantity with its own unit, a typo) is kept as typed for the server to read or name.
+ */
+export function cellValue(text: string, unit: string | null): string | number {
+  const t = text.trim();
+  if (t === '') return '';
+  if (isNumberText(t)) return unit === null ? Number(t) : `${t} ${unit}`;
+  return t;
+}
+
+/** A column's numbers relabelled to another unit (the numbers kept); other cells untouched. */
+export function relabel(value: unknown, from: string | null, to: string | null): unknown {
+  const split = splitNumberUnit(value);
+  const number = typeof value === 'number' && from === null ? String(value) : split && split.unit === from ? split.number : null;
+  if (number === null) return value;
+  return to === null ? Number(number) : `${number} ${to}`;
+}
+
+/** The same row with one key renamed, keeping the key's place (object keys keep insertion order). */
+export function renameKey(row: TableRow, from: string, to: string): TableRow {
+  const out: TableRow = {};
+  for (const [k, v] of Object.entries(row)) out[k === from ? to : k] = v;
+  return out;
+}
+
+/** Where the virtual subjects' covariates come from: drawn, a table of rows, or both (different covariates). */
+export type CovariateSource = 'distributions' | 'table' | 'both';
+
+export function covariateSource(population: TableRow | null): CovariateSource {
+  const table = population?.covariateTable !== undefined;
+  const drawn = population?.covariates !== undefined;
+  return table ? (drawn ? 'both' : 'table') : 'distributions';
+}
+
+/** What the other choice held when the user switched away from it, kept until used again or discarded. */
+export interface SetAside {
+  distributions?: unknown;
+  table?: unknown;
+}
+
+/**
+ * Switches the covariate source in `population` (changed in place). What the source switched away
+ * from goes into `aside`, and what the new source held before comes back from it, so nothing typed
+ * is lost; `fresh` makes a table when there was none.
+ */
+export function switchSource(population: TableRow, aside: SetAside, to: CovariateSource, fresh: () => TableRow): void {
+  const wantDrawn = to !== 'table';
+  const wantTable = to !== 'distributions';
+  if (!wantDrawn && population.covariates !== undefined) {
+    aside.distributions = population.covariates;
+    delete population.covariates;
+  } else if (wantDrawn && population.covariates === undefined && aside.distributions !== undefined) {
+    population.covariates = aside.distributions;
+    delete aside.distributions;
+  }
+  if (!wantTable && population.covariateTable !== undefined) {
+    aside.table = population.covariateTable;
+    delete population.covariateTable;
+  } else if (wantTable && population.covariateTable === undefined) {
+    population.covariateTable = aside.table ?? fresh();
+    delete aside.table;
+  }
+}
