@@ -1,29 +1,32 @@
 /**
- * A population across worker threads on this machine: the subjects are split into one
- * contiguous range per thread, each thread runs its range (population-worker.ts), and the
- * batches come back in subject order. Subject i's numbers depend only on (seed, i), so the
- * result does not depend on the number of threads. Cancelling terminates the threads.
+ * A population across threads on this machine. The subjects are cut into chunks; every thread
+ * (population-worker.ts), and the calling thread too when it is given the plan, takes the next
+ * chunk from one shared counter until none is left, so a thread still starting or a slower one
+ * takes fewer, and the calling thread works while the others load the engine. The batches
+ * come back in subject order. Subject i's numbers depend only on (seed, i), so the result does
+ * not depend on the number of threads or on who ran which chunk. Cancelling terminates the threads.
  */
-import type { Batch, PopulationOverrides } from '../models/population/population.ts';
-import { batchRanges } from '../models/population/ranges.ts';
+import { runBatch, type Batch, type PopulationOverrides, type PopulationPlan } from '../models/population/population.ts';
+import { chunkRanges } from '../models/population/ranges.ts';
 import type { Outcome, Problem } from '../models/scenario/problems.ts';
 import { startWorker, type WorkerModule } from './worker-pool.ts';
 
-export interface BatchRequest {
+export interface ChunkRequest {
   scenario: unknown;
   overrides: PopulationOverrides;
-  first: number;
-  count: number;
+  /** The chunks, [first, count] pairs in subject order; chunk c is taken by whoever adds 1 to counter[0] and gets c. */
+  chunks: Int32Array;
+  counter: SharedArrayBuffer;
 }
 
-/** What a population thread is asked: run a batch, or summarise finished batches into the result's JSON. */
-export type ThreadRequest = ({ kind: 'batch' } & BatchRequest) | { kind: 'summarise'; scenario: unknown; overrides: PopulationOverrides; batches: Batch[] };
+/** What a population thread is asked: run chunks, or summarise finished batches into the result's JSON. */
+export type ThreadRequest = ({ kind: 'chunks' } & ChunkRequest) | { kind: 'summarise'; scenario: unknown; overrides: PopulationOverrides; batches: Batch[] };
 
 export type BatchMessage =
   | { kind: 'ready' }
   | { kind: 'summary'; json: string }
-  | { kind: 'progress'; done: number }
   | { kind: 'batch'; batch: Batch }
+  | { kind: 'finished' }
   | { kind: 'problems'; problems: Problem[] };
 
 /** The population worker's TypeScript source (tests, tsx); the built one lies beside the built server. */
@@ -36,8 +39,14 @@ export function populationWorkerFor(metaUrl: string): WorkerModule {
 }
 
 export interface ThreadOptions {
+  /** Threads that compute subjects, the calling one included when `plan` is given. */
   threads: number;
   worker: WorkerModule;
+  /**
+   * The plan of the population, when the calling thread may compute subjects too (the command
+   * line); without it only worker threads compute (a server's request thread must stay free).
+   */
+  plan?: PopulationPlan;
   /** Subjects to run (a shard's range); all of them when absent. */
   range?: { first: number; count: number };
   /** Told the subjects done so far, across threads. */
@@ -47,49 +56,83 @@ export interface ThreadOptions {
   heapMb?: number;
 }
 
-/** Runs `range` (default: every subject) in up to `threads` threads; the batches in subject order. */
+/** Takes the next chunk index from the shared counter (Atomics: each index is handed out once). */
+export function claimChunk(counter: Int32Array): number {
+  return Atomics.add(counter, 0, 1);
+}
+
+/** Runs `range` (default: every subject) on up to `threads` threads; the batches in subject order. */
 export async function runThreads(scenario: unknown, overrides: PopulationOverrides, subjects: number, options: ThreadOptions): Promise<Outcome<Batch[]> & { cancelled?: boolean }> {
   const range = options.range ?? { first: 0, count: subjects };
-  const parts = batchRanges(range.count, options.threads).map((r) => ({ first: range.first + r.first, count: r.count }));
-  const done = new Array<number>(parts.length).fill(0);
-  const workers = parts.map(() =>
+  const threads = Math.max(1, options.threads);
+  const chunks = chunkRanges(range, threads);
+  const chunkCount = chunks.length / 2;
+  const shared = new SharedArrayBuffer(4);
+  const counter = new Int32Array(shared);
+  const inMain = options.plan !== undefined;
+  const workerCount = Math.min(inMain ? threads - 1 : threads, chunkCount);
+  const batches: Batch[] = [];
+  let done = 0;
+  let failure: Problem[] | null = null;
+  const report = () => options.onProgress?.(done, range.count);
+  const take = (batch: Batch) => {
+    batches.push(batch);
+    done += batch.count;
+    report();
+  };
+  const workers = Array.from({ length: workerCount }, () =>
     startWorker(options.worker, options.heapMb ? { resourceLimits: { maxOldGenerationSizeMb: options.heapMb } } : {}),
   );
   const stopAll = () => workers.forEach((w) => void w.terminate());
-  const report = () => options.onProgress?.(done.reduce((a, b) => a + b, 0), range.count);
-  const runs = parts.map(
-    (part, k) =>
-      new Promise<Outcome<Batch>>((resolve) => {
-        const w = workers[k];
+  const runs = workers.map(
+    (w) =>
+      new Promise<void>((resolve) => {
         let settled = false;
-        const settle = (o: Outcome<Batch>) => {
+        const settle = (problems: Problem[] | null) => {
           if (settled) return;
           settled = true;
-          resolve(o);
+          if (problems) {
+            failure ??= problems;
+            // One failure ends the population: no other chunk is started.
+            Atomics.store(counter, 0, chunkCount);
+          }
+          resolve();
         };
         w.on('message', (m: BatchMessage) => {
-          if (m.kind === 'ready') w.postMessage({ kind: 'batch', scenario, overrides, first: part.first, count: part.count } satisfies ThreadRequest);
-          else if (m.kind === 'progress') {
-            done[k] = m.done;
-            report();
-          } else if (m.kind === 'batch') {
-            done[k] = part.count;
-            report();
-            settle({ ok: true, value: m.batch });
-          } else if (m.kind === 'problems') settle({ ok: false, problems: m.problems });
+          if (m.kind === 'ready') w.postMessage({ kind: 'chunks', scenario, overrides, chunks, counter: shared } satisfies ThreadRequest);
+          else if (m.kind === 'batch') take(m.batch);
+          else if (m.kind === 'finished') settle(null);
+          else if (m.kind === 'problems') settle(m.problems);
         });
-        w.on('error', (e) => settle({ ok: false, problems: [{ path: 'population', message: `a population thread failed: ${e.message}` }] }));
-        w.on('exit', () => settle({ ok: false, problems: [{ path: 'population', message: options.signal?.aborted ? 'cancelled' : 'a population thread stopped unexpectedly' }] }));
+        w.on('error', (e) => settle([{ path: 'population', message: `a population thread failed: ${e.message}` }]));
+        w.on('exit', () => settle([{ path: 'population', message: options.signal?.aborted ? 'cancelled' : 'a population thread stopped unexpectedly' }]));
       }),
   );
-  const onAbort = () => stopAll();
+  const onAbort = () => {
+    Atomics.store(counter, 0, chunkCount);
+    stopAll();
+  };
   options.signal?.addEventListener('abort', onAbort, { once: true });
   try {
-    const outcomes = await Promise.all(runs);
+    if (options.plan) {
+      // The calling thread takes chunks too, letting the threads' messages in between chunks.
+      for (let c = claimChunk(counter); c < chunkCount; c = claimChunk(counter)) {
+        const batch = runBatch(options.plan, chunks[2 * c], chunks[2 * c + 1]);
+        if (!batch.ok) {
+          failure ??= batch.problems;
+          Atomics.store(counter, 0, chunkCount);
+          break;
+        }
+        take(batch.value);
+        await new Promise<void>((resolve) => setImmediate(resolve));
+        if (options.signal?.aborted) break;
+      }
+    }
+    await Promise.all(runs);
     if (options.signal?.aborted) return { ok: false, problems: [{ path: 'population', message: 'cancelled' }], cancelled: true };
-    const failed = outcomes.find((o) => !o.ok);
-    if (failed && !failed.ok) return failed;
-    return { ok: true, value: outcomes.map((o) => (o as { ok: true; value: Batch }).value) };
+    if (failure) return { ok: false, problems: failure };
+    batches.sort((a, b) => a.first - b.first);
+    return { ok: true, value: batches };
   } finally {
     options.signal?.removeEventListener('abort', onAbort);
     stopAll();

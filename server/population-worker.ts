@@ -1,11 +1,11 @@
 /**
- * A worker thread that runs batches of a population: told the scenario and a range of
- * subjects, it plans (the same plan in every thread), runs the subjects in turn, reports
- * progress, and posts the batch back with its arrays moved, not copied.
+ * A worker thread that runs chunks of a population: told the scenario, the chunks and the
+ * shared counter that hands them out, it plans (the same plan in every thread), takes chunks
+ * until none is left, and posts each batch back with its arrays moved, not copied.
  */
 import { parentPort } from 'node:worker_threads';
 import { planPopulation, runBatch, summarise, type Batch } from '../models/population/population.ts';
-import type { BatchMessage, ThreadRequest } from './population-threads.ts';
+import { claimChunk, type BatchMessage, type ThreadRequest } from './population-threads.ts';
 
 function post(message: BatchMessage, transfer: ArrayBuffer[] = []): void {
   parentPort?.postMessage(message, transfer);
@@ -23,13 +23,15 @@ parentPort?.on('message', (request: ThreadRequest) => {
       const result = summarise(plan.value, request.batches);
       return post(result.ok ? { kind: 'summary', json: JSON.stringify(result.value) } : { kind: 'problems', problems: result.problems });
     }
-    // Progress at most every 1% of the batch (and at least every subject of a small one).
-    const every = Math.max(1, Math.floor(request.count / 100));
-    const batch = runBatch(plan.value, request.first, request.count, (done) => {
-      if (done % every === 0 && done < request.count) post({ kind: 'progress', done });
-    });
-    if (!batch.ok) return post({ kind: 'problems', problems: batch.problems });
-    post({ kind: 'batch', batch: batch.value }, batchBuffers(batch.value));
+    // Chunks until the shared counter runs past the last: each posted (its arrays moved) as it is done.
+    const counter = new Int32Array(request.counter);
+    const chunkCount = request.chunks.length / 2;
+    for (let c = claimChunk(counter); c < chunkCount; c = claimChunk(counter)) {
+      const batch = runBatch(plan.value, request.chunks[2 * c], request.chunks[2 * c + 1]);
+      if (!batch.ok) return post({ kind: 'problems', problems: batch.problems });
+      post({ kind: 'batch', batch: batch.value }, batchBuffers(batch.value));
+    }
+    post({ kind: 'finished' });
   } catch (e) {
     post({ kind: 'problems', problems: [{ path: 'population', message: `internal error in a population thread: ${e instanceof Error ? e.message : String(e)}` }] });
   }

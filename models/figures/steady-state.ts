@@ -12,7 +12,7 @@
  */
 import { doseLineName } from '../result/dose-words.ts';
 import { buildSchedule } from '../building/events.ts';
-import { propagateExact } from '../solving/linear-path.ts';
+import { propagateExact, PropagatorCache, scheduleInputs } from '../solving/linear-path.ts';
 import { CurveProbe } from './curve-probe.ts';
 import { exposureFigures, type WindowFigures } from './exposure.ts';
 import type { Model } from '../building/model.ts';
@@ -198,11 +198,13 @@ export function steadyStateFigures(
   let how: string;
   let cycles: number;
   let searchResidual = 0;
+  // The cycle's propagators, made once for the closed form and the cycle's figures.
+  const cycleCache = model.linear ? new PropagatorCache(system.linearMatrix, system.dimension, scheduleInputs(schedule, system.dimension)) : undefined;
   if (model.linear) {
     // The cycle map is affine whatever integrates the curves: its fixed point in closed form.
     work.cycles++;
     work.integrations++;
-    const first = propagateExact(system, schedule, new Float64Array(system.dimension)).final;
+    const first = propagateExact(system, schedule, new Float64Array(system.dimension), cycleCache).final;
     const state = linearPeriodicState(system, period, first, reached);
     if (!state) return notReached(period, 'no steady state computed: I − e^{Mτ} is singular to working precision over the compartments the doses reach', 1);
     periodic = state;
@@ -223,7 +225,7 @@ export function steadyStateFigures(
   work.cycles++;
   work.integrations++;
   cycles++;
-  const run = solveSchedule(cycleModel, system, schedule, y0, cycleStats);
+  const run = solveSchedule(cycleModel, system, schedule, y0, cycleStats, cycleCache);
   const figures = exposureFigures(cycleModel, system.layout, new CurveProbe(run.trajectory, system, schedule));
   const tracked = figures.map((f) => model.compartments.findIndex((c) => c.id === f.compartment));
   // How well the cycle as integrated (the figures' cycle) returns to the state it started from.

@@ -4,18 +4,18 @@
  * of the chosen periods — never the whole single-subject result.
  */
 import type { Model } from '../building/model.ts';
-import { buildSchedule } from '../building/events.ts';
+import { buildSchedule, type Schedule } from '../building/events.ts';
 import { CompartmentSystem } from '../building/system.ts';
 import { CurveProbe } from '../figures/curve-probe.ts';
 import { exposureFigures, intervalStarts, type CompartmentFigures, type FigureWindow } from '../figures/exposure.ts';
 import { massBalance, massBalanceProblem } from '../figures/mass-balance.ts';
 import { steadyStateFigures } from '../figures/steady-state.ts';
-import { buildModel, type SubjectVariant } from '../scenario/normalize.ts';
+import { buildModel, dosesDependOnSubject, type SubjectVariant } from '../scenario/normalize.ts';
 import type { Problem } from '../scenario/problems.ts';
 import type { Period, Scenario } from '../scenario/schema.ts';
 import { emptyStats, IntegrationFailure } from '../solving/numerics/ode-system.ts';
 import { solveSchedule } from '../solving/solve.ts';
-import { releaseTrajectory } from '../solving/numerics/dense-store.ts';
+import { releaseTrajectory, type Trajectory } from '../solving/numerics/dense-store.ts';
 import { correlate } from './correlation.ts';
 import { STREAMS, subjectCovariates } from './covariates.ts';
 import { FIGURES, type FigureLayout } from './layout.ts';
@@ -25,8 +25,18 @@ import { SubjectRandom } from './random.ts';
 /** Status bits of a subject. */
 export const NO_STEADY_STATE = 1;
 
+/** Doses and their schedule shared by every subject of one scenario (when no dose reads the subject). */
+interface SharedDoses {
+  doses: NonNullable<SubjectVariant['doses']>;
+  schedule: Schedule;
+  /** The times that open dosing intervals (intervalStarts). */
+  starts: Float64Array;
+}
+
 /** Scratch reused from subject to subject (one per thread). */
 export class SubjectScratch {
+  /** Per scenario (the plan's, each regimen's): its shared doses, or null when they depend on the subject. */
+  readonly doses = new Map<Scenario, SharedDoses | null>();
   readonly raw: Float64Array;
   readonly effects: Float64Array;
   readonly pathIndex: Map<string, number>;
@@ -78,16 +88,24 @@ export function runSubject(
   figures: Float64Array,
   scratch: SubjectScratch,
 ): SubjectResult {
-  const built = buildModel(scenario, variant);
+  // Doses that read nothing of the subject are read, expanded and scheduled once per scenario.
+  const shared = scratch.doses.get(scenario);
+  const built = buildModel(scenario, shared ? { ...variant, doses: shared.doses } : variant);
   if (!built.ok) return built;
   const model: Model = { ...built.value, thresholds: layout.thresholds };
+  if (shared === undefined) {
+    const independent = !dosesDependOnSubject(scenario);
+    const doses = { administrations: model.administrations, lines: model.doseLines };
+    const schedule = buildSchedule(model.administrations, model.compartments.length, model.start, model.end);
+    scratch.doses.set(scenario, independent ? { doses, schedule, starts: scheduleStarts(model, schedule) } : null);
+  }
   const system = new CompartmentSystem(model);
   const stats = emptyStats();
   const outcome: SubjectOutcome = { status: 0, methods: [], balance: 0, steadyMessage: null };
   const intervalPeriods = layout.periods.filter((p) => p !== 'steady state');
   try {
     if (grid || intervalPeriods.length > 0) {
-      const schedule = buildSchedule(model.administrations, model.compartments.length, model.start, model.end);
+      const schedule = scratch.doses.get(scenario)?.schedule ?? buildSchedule(model.administrations, model.compartments.length, model.start, model.end);
       const solution = solveSchedule(model, system, schedule, new Float64Array(system.dimension), stats);
       outcome.methods = solution.methodsUsed;
       const balance = massBalance(model, system.layout, solution.final);
@@ -97,10 +115,10 @@ export function runSubject(
       if (grid) sampleGrid(model, layout, solution.trajectory, scratch.sides, grid);
       if (intervalPeriods.length > 0) {
         const probe = new CurveProbe(solution.trajectory, system, schedule);
-        const bpTimes = Float64Array.from(schedule.breakpoints, (b) => b.time);
+        const starts = scratch.doses.get(scenario)?.starts ?? scheduleStarts(model, schedule);
         layout.periods.forEach((period, p) => {
           if (period === 'steady state') return;
-          const window = periodWindow(model, bpTimes, period);
+          const window = periodWindow(model, starts, period);
           const found = window ? exposureFigures(model, system.layout, probe, window) : null;
           writeWindow(layout, p, found, window, figures, plan.day);
         });
@@ -132,19 +150,19 @@ export function runSubject(
   return { ok: true, value: outcome };
 }
 
-function sampleGrid(model: Model, layout: FigureLayout, trajectory: { sample(t: Float64Array, s: Uint8Array, w: (row: number, state: Float64Array) => void): void }, sides: Uint8Array, grid: Float32Array): void {
-  const times = model.outputTimes;
-  const T = times.length;
+function sampleGrid(model: Model, layout: FigureLayout, trajectory: Trajectory, sides: Uint8Array, grid: Float32Array): void {
   const banded = layout.banded;
-  const volumes = banded.map((c) => model.compartments[c].volume as number);
-  trajectory.sample(times, sides, (row, state) => {
-    for (let b = 0; b < banded.length; b++) grid[b * T + row] = state[banded[b]] / volumes[b];
-  });
+  const volumes = Float64Array.from(banded, (c) => model.compartments[c].volume as number);
+  trajectory.sampleInto(model.outputTimes, sides, Int32Array.from(banded), volumes, grid, model.outputTimes.length);
 }
 
-/** The time window of a dosing-interval period, or null when this subject's span lacks it. */
-export function periodWindow(model: Model, breakpoints: Float64Array, period: Period): FigureWindow | null {
-  const starts = intervalStarts(model, breakpoints);
+/** The times that open dosing intervals, snapped to the schedule's breakpoints. */
+function scheduleStarts(model: Model, schedule: Schedule): Float64Array {
+  return intervalStarts(model, Float64Array.from(schedule.breakpoints, (b) => b.time));
+}
+
+/** The time window of a dosing-interval period (`starts`: intervalStarts), or null when this subject's span lacks it. */
+export function periodWindow(model: Model, starts: Float64Array, period: Period): FigureWindow | null {
   const tolerance = 1e-9 * Math.max(1, Math.abs(model.end));
   const dueAtEnd = model.doseLines.some((l) => l.nextGiven !== null && Math.abs(l.nextGiven - model.end) <= tolerance);
   const n = starts.length;

@@ -248,6 +248,8 @@ export interface SubjectVariant {
   effect: (path: string) => number;
   /** The output times, when the caller has them already (they do not depend on the subject). */
   outputTimes?: Float64Array;
+  /** The doses, when the caller has them already (only when they do not depend on the subject: dosesDependOnSubject). */
+  doses?: { administrations: Administration[]; lines: DoseLineSummary[] };
 }
 
 export function buildModel(s: Scenario, variant?: SubjectVariant): Outcome<Model> {
@@ -275,7 +277,7 @@ export function buildModel(s: Scenario, variant?: SubjectVariant): Outcome<Model
   }
   const span = spanOk && end !== null ? { start, end } : null;
 
-  const doses = span ? readDoses(s, r, compartments, index, span, clock) : null;
+  const doses = span ? (variant?.doses ?? readDoses(s, r, compartments, index, span, clock)) : null;
   const outputTimes = span ? (variant?.outputTimes ?? readOutputTimes(s, r, span, clock)) : null;
   const observations = span ? readObservations(s, r, compartments, span, clock) : [];
   const thresholds = readThresholds(s, r, compartments, index);
@@ -335,8 +337,7 @@ function readFraction(value: number | string | AdjustedQuantity, path: string, r
  * times its body surface area (Du Bois); per size without the subject's size is a problem here.
  */
 function readDoseAmount(q: Quantity, path: string, r: Reader): number | null {
-  const unit = unitWritten(q);
-  const perSize = unit === null ? null : /^(.*)\/\s*(kg|m\^?2)$/.exec(unit);
+  const perSize = perBodySize(q);
   if (!perSize || typeof q !== 'string') return r.read(q, 'amount', path, 'non-negative');
   const size = perSize[2] === 'kg' ? 'weight' : 'bsa';
   const covariate = r.covariates[size];
@@ -346,6 +347,20 @@ function readDoseAmount(q: Quantity, path: string, r: Reader): number | null {
   }
   const perUnit = r.read(q.replace(/\/\s*(kg|m\^?2)\s*$/, ''), 'amount', path, 'non-negative');
   return perUnit === null ? null : perUnit * covariate.value;
+}
+
+/** The match of a per-body-size amount ("5 mg/kg", "100 mg/m2"): [unit, per dose, kg or m2]; null for a plain amount. */
+function perBodySize(q: Quantity): RegExpExecArray | null {
+  const unit = unitWritten(q);
+  return unit === null || typeof q !== 'string' ? null : /^(.*)\/\s*(kg|m\^?2)$/.exec(unit);
+}
+
+/**
+ * Whether a dose reads the subject — an amount per body size, or a bioavailability or lag with
+ * covariate relations or variability (an object); else every subject gets the same doses.
+ */
+export function dosesDependOnSubject(s: Scenario): boolean {
+  return s.doses.some((d) => perBodySize(d.amount) !== null || typeof d.bioavailability === 'object' || typeof d.lag === 'object');
 }
 
 /** limits.spanHours in the scenario's time unit. */

@@ -22,6 +22,13 @@ export interface SparsePropagator {
   readonly g: Float64Array;
   /** The product Φ·x + g as straight-line code for this sparsity pattern, or null (then a loop). */
   readonly product: Product | null;
+  /**
+   * The leading rows that read no quadrature state (the compartments' amounts: nothing
+   * depends on an AUC or the amount eliminated), and their product alone — what a grid of
+   * concentrations needs, the same arithmetic as those rows of `product`.
+   */
+  readonly leadingRows: number;
+  readonly leadingProduct: Product | null;
 }
 
 type Product = (vals: Float64Array, g: Float64Array, x: Float64Array, out: Float64Array) => void;
@@ -80,7 +87,7 @@ function productFor(rowStart: Int32Array, cols: Int32Array, n: number): Product 
   return product;
 }
 
-function sparsePropagator(p: Propagator, n: number): SparsePropagator {
+function sparsePropagator(p: Propagator, n: number, leadingRows: number): SparsePropagator {
   const cols: number[] = [];
   const vals: number[] = [];
   const rowStart = new Int32Array(n + 1);
@@ -95,7 +102,16 @@ function sparsePropagator(p: Propagator, n: number): SparsePropagator {
     rowStart[i + 1] = cols.length;
   }
   const colIndex = Int32Array.from(cols);
-  return { rowStart, cols: colIndex, vals: Float64Array.from(vals), g: p.g.slice(), product: productFor(rowStart, colIndex, n) };
+  const leading = rowStart.subarray(0, leadingRows + 1);
+  return {
+    rowStart,
+    cols: colIndex,
+    vals: Float64Array.from(vals),
+    g: p.g.slice(),
+    product: productFor(rowStart, colIndex, n),
+    leadingRows,
+    leadingProduct: leadingRows < n ? productFor(leading, colIndex.subarray(0, leading[leadingRows]), leadingRows) : null,
+  };
 }
 
 /**
@@ -120,7 +136,7 @@ export function quadratureScaling(m: Float64Array, n: number): Float64Array {
 
 /** Propagators keyed by (step, input vector); regular grids reuse a handful of them. */
 export class PropagatorCache {
-  private readonly cache = new Map<string, SparsePropagator>();
+  private readonly cache = new Map<StepKey, SparsePropagator>();
   private readonly ws: ExpmWorkspace;
   computed = 0;
   /** quadratureScaling of the matrix, the scaled matrix D⁻¹MD and the scaled inputs D⁻¹u. */
@@ -151,7 +167,12 @@ export class PropagatorCache {
     let fastest = 0;
     for (let i = 0; i < n; i++) fastest = Math.max(fastest, -matrix[i * n + i]);
     this.fastestRate = fastest;
+    const firstQuadrature = this.quadrature.indexOf(true);
+    this.leadingRows = firstQuadrature < 0 ? n : firstQuadrature;
   }
+
+  /** Rows before the first quadrature state: each reads only states before it (see SparsePropagator). */
+  readonly leadingRows: number;
 
   /** Largest −M_ii: an upper bound of the decay rate of the fastest mode in compartment models. */
   readonly fastestRate: number;
@@ -163,7 +184,7 @@ export class PropagatorCache {
     // Steps that differ only in the last bits (t − t0 on a grid) share one propagator; the
     // relative change of 1e-12 in h is far below any tolerance a user can ask for.
     if (rateKey === this.lastKey && Math.abs(h - this.lastH) <= 1e-12 * h && this.last) return this.last;
-    const key = `${rateKey}:${h.toPrecision(12)}`;
+    const key = stepKey(h, rateKey);
     const hit = this.cache.get(key) ?? this.compute(key, h, rateKey);
     this.lastH = h;
     this.lastKey = rateKey;
@@ -172,7 +193,7 @@ export class PropagatorCache {
   }
 
   /** Steps asked for once and not kept: the second request of a step makes its propagator. */
-  private readonly seenOnce = new Set<string>();
+  private readonly seenOnce = new Set<StepKey>();
 
   /**
    * The cached propagator of step h, or null when this step has not been asked for before: a
@@ -182,7 +203,7 @@ export class PropagatorCache {
    */
   getIfRepeated(h: number, rateKey: number): SparsePropagator | null {
     if (rateKey === this.lastKey && Math.abs(h - this.lastH) <= 1e-12 * h && this.last) return this.last;
-    const key = `${rateKey}:${h.toPrecision(12)}`;
+    const key = stepKey(h, rateKey);
     const hit = this.cache.get(key);
     if (hit) return hit;
     if (!this.seenOnce.has(key)) {
@@ -193,7 +214,7 @@ export class PropagatorCache {
     return this.get(h, rateKey);
   }
 
-  private compute(key: string, h: number, rateKey: number): SparsePropagator {
+  private compute(key: StepKey, h: number, rateKey: number): SparsePropagator {
     if (this.cache.size >= this.capacity) this.cache.clear();
     const p = this.uncached(h, rateKey);
     this.cache.set(key, p);
@@ -217,7 +238,15 @@ export class PropagatorCache {
     }
     const phi = new Float64Array(n * n);
     for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) phi[i * n + j] = (d[i] * p.phi[i * n + j]) / d[j];
-    return sparsePropagator({ phi, g: Float64Array.from(p.g, (v, i) => v * d[i]) }, n);
+    return sparsePropagator({ phi, g: Float64Array.from(p.g, (v, i) => v * d[i]) }, n, this.leadingRowsOf(phi));
+  }
+
+  /** leadingRows, unless a row among them reads a later state in this Φ (then all rows). */
+  private leadingRowsOf(phi: Float64Array): number {
+    const n = this.n;
+    const m = this.leadingRows;
+    for (let i = 0; i < m; i++) for (let j = m; j < n; j++) if (phi[i * n + j] !== 0) return n;
+    return m;
   }
 
   /** out ← Φ(h)·x + g(h) with a cached propagator; out must not be x. */
@@ -227,9 +256,39 @@ export class PropagatorCache {
   }
 }
 
+type StepKey = number | string;
+
+/**
+ * A number naming (rate key, h to 12 significant digits): steps that differ by less are one
+ * step. The digits as an integer (below 10¹²), the decimal exponent and the rate key packed
+ * into one double — a number key, where a string built per step cost more than the step.
+ */
+function stepKey(h: number, rateKey: number): StepKey {
+  // Beyond 8 rate keys (many distinct infusion rates) the packed number would pass 2⁵³.
+  if (rateKey >= 8 || !(h > 0) || !Number.isFinite(h)) return `${rateKey}:${h.toPrecision(12)}`;
+  const e = Math.floor(Math.log10(h));
+  const digits = Math.round(h * 10 ** (11 - e));
+  // digits ≤ 10¹², e + 512 < 1024, rateKey < 8: at most 8.3e15 < 2⁵³, so every key is exact.
+  return (digits * 1024 + (e + 512)) * 8 + rateKey;
+}
+
 function isZero(v: Float64Array): boolean {
   for (let i = 0; i < v.length; i++) if (v[i] !== 0) return false;
   return true;
+}
+
+/** The first p.leadingRows entries of Φ·x + g (out and x distinct); the rest of out is left as it was. */
+function applyLeading(p: SparsePropagator, x: Float64Array, out: Float64Array): void {
+  if (p.leadingProduct) {
+    p.leadingProduct(p.vals, p.g, x, out);
+    return;
+  }
+  const { rowStart, cols, vals, g } = p;
+  for (let i = 0; i < p.leadingRows; i++) {
+    let s = g[i];
+    for (let e = rowStart[i]; e < rowStart[i + 1]; e++) s += vals[e] * x[cols[e]];
+    out[i] = s;
+  }
 }
 
 /** out = Φ·x + g over Φ's nonzero entries (out and x distinct). */
@@ -309,6 +368,18 @@ export class LinearTrajectory implements Trajectory {
   private readonly knotStates = new Map<number, { offsets: Float64Array; states: Float64Array }>();
   private readonly knotPlans = new Map<string, KnotPlan>();
   private readonly exactSteps = new Map<string, SparsePropagator>();
+  /**
+   * The states of the last two rows sample() handed out, with their times and pieces: a root
+   * between two rows of a scan (a peak, a crossing, sought while the later row is handled) is
+   * then reached by a short step from the row before it, not from the piece's knots, which
+   * would be marched for that alone.
+   */
+  private recent: Float64Array;
+  private recentTime = NaN;
+  private recentPiece = -1;
+  private previous: Float64Array;
+  private previousTime = NaN;
+  private previousPiece = -1;
 
   constructor(
     private readonly times: Float64Array,
@@ -326,6 +397,8 @@ export class LinearTrajectory implements Trajectory {
     this.inputs = cache.scaledInputs;
     this.scaled = new Float64Array(dimension);
     this.scaledOut = new Float64Array(dimension);
+    this.recent = new Float64Array(dimension);
+    this.previous = new Float64Array(dimension);
   }
 
   get pieces(): number {
@@ -371,6 +444,16 @@ export class LinearTrajectory implements Trajectory {
     const k = this.locate(t, side);
     if (t <= this.times[k]) {
       out.set(this.states.subarray(k * n, (k + 1) * n));
+      return;
+    }
+    // Shortly after one of the last two rows sampled, in the same piece: one short step from there.
+    const near = (piece: number, time: number) => piece === k && t >= time && this.matrixNorm * (t - time) <= FIRST_STEP_ACTION_LIMIT;
+    const from = near(this.recentPiece, this.recentTime) ? 1 : near(this.previousPiece, this.previousTime) ? 2 : 0;
+    if (from > 0) {
+      const x = from === 1 ? this.recent : this.previous;
+      const h = t - (from === 1 ? this.recentTime : this.previousTime);
+      if (h === 0) out.set(x);
+      else this.act(x, h, this.inputs[this.keys[k]], out);
       return;
     }
     // Times within the piece are measured from its start (t − a is exact for t near a), so
@@ -492,6 +575,23 @@ export class LinearTrajectory implements Trajectory {
    * cached propagators: one matrix–vector product per row on a regular grid.
    */
   sample(times: Float64Array, sides: Uint8Array, write: (row: number, state: Float64Array) => void): void {
+    this.march(times, sides, write, null, null, null, 0);
+  }
+
+  sampleInto(times: Float64Array, sides: Uint8Array, picks: Int32Array, volumes: Float64Array, out: Float32Array, stride: number): void {
+    this.march(times, sides, null, picks, volumes, out, stride);
+  }
+
+  /** sample() and sampleInto(): rows to `write`, or concentrations straight into `out`. */
+  private march(
+    times: Float64Array,
+    sides: Uint8Array,
+    write: ((row: number, state: Float64Array) => void) | null,
+    picks: Int32Array | null,
+    volumes: Float64Array | null,
+    out: Float32Array | null,
+    stride: number,
+  ): void {
     const n = this.dimension;
     let x = new Float64Array(n);
     let next = new Float64Array(n);
@@ -500,6 +600,12 @@ export class LinearTrajectory implements Trajectory {
     let piece = -1;
     let k = 0;
     let at = 0;
+    // Concentrations only: the amounts' rows suffice (the quadrature states are never read).
+    const amountsOnly = write === null && picks !== null;
+    const highestPick = picks ? Math.max(-1, ...picks) : -1;
+    // The propagator of the last step, kept while steps repeat (a regular grid) in one piece.
+    let step: SparsePropagator | null = null;
+    let stepH = NaN;
     for (let row = 0; row < times.length; row++) {
       const t = times[row];
       // Rows ascend, so the piece only moves forward: the last one starting before t (left
@@ -507,23 +613,38 @@ export class LinearTrajectory implements Trajectory {
       if (sides[row] === 0) while (k < last && starts[k + 1] < t) k++;
       else while (k < last && starts[k + 1] <= t) k++;
       if (k !== piece) {
+        if (piece < 0 || this.keys[k] !== this.keys[piece]) step = null;
         piece = k;
         this.pieceState(k, x);
         at = starts[k];
       }
       if (t > at) {
         const h = t - at;
-        // A step seen for the first time goes by the action of the exponential (when that is
-        // cheap); a repeated one (a regular grid) by its propagator, one product per row.
-        const p = this.matrixNorm * h > FIRST_STEP_ACTION_LIMIT ? this.cache.get(h, this.keys[k]) : this.cache.getIfRepeated(h, this.keys[k]);
-        if (p) apply(p, x, n, next);
+        if (step === null || Math.abs(h - stepH) > 1e-12 * h) {
+          // A step seen for the first time goes by the action of the exponential (when that is
+          // cheap); a repeated one (a regular grid) by its propagator, one product per row.
+          step = this.matrixNorm * h > FIRST_STEP_ACTION_LIMIT ? this.cache.get(h, this.keys[k]) : this.cache.getIfRepeated(h, this.keys[k]);
+          stepH = h;
+        }
+        if (step && amountsOnly && step.leadingRows > highestPick) applyLeading(step, x, next);
+        else if (step) apply(step, x, n, next);
         else this.act(x, h, this.inputs[this.keys[k]], next);
         const swap = x;
         x = next;
         next = swap;
         at = t;
       }
-      write(row, x);
+      if (write) {
+        const slot = this.previous;
+        this.previous = this.recent;
+        this.previousTime = this.recentTime;
+        this.previousPiece = this.recentPiece;
+        slot.set(x);
+        this.recent = slot;
+        this.recentTime = t;
+        this.recentPiece = k;
+        write(row, x);
+      } else if (out && picks && volumes) for (let b = 0; b < picks.length; b++) out[b * stride + row] = x[picks[b]] / volumes[b];
     }
   }
 }

@@ -3,7 +3,7 @@
  * path otherwise. Shared by the main run and the steady-state search.
  */
 import type { Schedule } from '../building/events.ts';
-import { propagateExact } from './linear-path.ts';
+import { propagateExact, type PropagatorCache } from './linear-path.ts';
 import type { Model } from '../building/model.ts';
 import { integrateSchedule } from './numerical-path.ts';
 import type { Trajectory } from './numerics/dense-store.ts';
@@ -32,9 +32,11 @@ export function solveSchedule(
   schedule: Schedule,
   y0: Float64Array,
   stats: SolverStats,
+  /** Propagators already made for this system and schedule (the exact path), to reuse. */
+  cache?: PropagatorCache,
 ): Solution {
   if (choosePath(model) === 'exact') {
-    const run = propagateExact(system, schedule, y0);
+    const run = propagateExact(system, schedule, y0, cache);
     return { trajectory: run.trajectory, final: run.final, methodsUsed: ['exact'], propagators: run.trajectory.cache.computed };
   }
   const run = integrateSchedule(system, schedule, y0, model.solver, stats);

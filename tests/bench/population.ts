@@ -130,6 +130,7 @@ async function runHere(saturable: boolean, subjects: number, step: number, end?:
   let firstDone = NaN;
   const options: ThreadOptions = {
     threads,
+    plan: plan.value,
     worker: { kind: 'built', url: new URL(`file://${join(root, 'dist', 'server', 'population-worker.js')}`) },
     onProgress: (done) => {
       if (done > 0 && Number.isNaN(firstDone)) firstDone = performance.now();

@@ -33,6 +33,11 @@ export interface Trajectory {
   knots(from?: number, to?: number): Float64Array;
   /** States at ascending times, side per row (0 = left limit, 1 = right limit), passed to write in order. */
   sample(times: Float64Array, sides: Uint8Array, write: (row: number, state: Float64Array) => void): void;
+  /**
+   * sample() for concentrations only: out[b·stride + row] = state[picks[b]] / volumes[b] (a
+   * compartment's concentration), with no call per row — a population's hourly grid.
+   */
+  sampleInto(times: Float64Array, sides: Uint8Array, picks: Int32Array, volumes: Float64Array, out: Float32Array, stride: number): void;
 }
 
 /**
@@ -368,6 +373,12 @@ export class DenseStore implements Trajectory {
       this.evaluateStep(k, t, y);
       write(row, y);
     }
+  }
+
+  sampleInto(times: Float64Array, sides: Uint8Array, picks: Int32Array, volumes: Float64Array, out: Float32Array, stride: number): void {
+    this.sample(times, sides, (row, y) => {
+      for (let b = 0; b < picks.length; b++) out[b * stride + row] = y[picks[b]] / volumes[b];
+    });
   }
 
   /** Hands the coefficient chunks to the next store and empties this one (any later evaluation throws). */
