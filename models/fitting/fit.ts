@@ -38,6 +38,12 @@ export interface FitOptions {
   objective?: Objective;
   /** Draw the 90% band (200 simulations); default true. */
   band?: boolean;
+  /**
+   * map: every prior spread taken this many times wider in the objective (the prior rows become
+   * u/widen), while the population's effects keep the scenario's spreads; default 1. A seam for
+   * tests of the flat-prior limit beyond the largest cv the scenario format accepts (500%).
+   */
+  widenPrior?: number;
 }
 
 const CONDITION_LIMIT = 1e10;
@@ -67,7 +73,7 @@ class Objectives implements LeastSquares {
   private readonly observed: Float64Array;
   private readonly stepFloor: number;
 
-  constructor(readonly plan: FitPlan, readonly params: Parameters, readonly predictor: Predictor, template: Model) {
+  constructor(readonly plan: FitPlan, readonly params: Parameters, readonly predictor: Predictor, template: Model, private readonly priorScale = 1) {
     this.used = plan.usable.map((o) => template.observations.indexOf(o));
     this.observed = Float64Array.from(plan.usable.map((o) => o.concentration as number));
     this.censoredAt = plan.censored.map((o) => template.observations.indexOf(o));
@@ -121,7 +127,8 @@ class Objectives implements LeastSquares {
       out[m + i] = censoredResidual(this.censoredRoots[i] * (this.limits[i] - this.all[at]));
     });
     const c = m + this.censoredAt.length;
-    if (this.params.map) for (let k = 0; k < this.unknowns; k++) out[c + k] = x[k];
+    // The prior's rows: u, or u/widen when the prior is widened (−2 log prior = uᵀu/widen²).
+    if (this.params.map) for (let k = 0; k < this.unknowns; k++) out[c + k] = this.priorScale * x[k];
     return true;
   }
 
@@ -214,7 +221,7 @@ export function fitScenario(input: unknown, options: FitOptions = {}): Outcome<F
   const plan = read.value;
   const params = new Parameters(plan, baseValues(plan, template));
   const predictor = new Predictor(s, params, template);
-  const problem = new Objectives(plan, params, predictor, template);
+  const problem = new Objectives(plan, params, predictor, template, 1 / (options.widenPrior ?? 1));
   const k = params.count;
 
   // The typical values first; the other starts only when that run does not converge.
