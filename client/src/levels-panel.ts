@@ -248,6 +248,23 @@ export function setUpLevels(store: ScenarioStore, hooks: FormHooks, errors: Pane
   }
 
   // ---- the proposals' settings, as written ----
+  /** propose.basis: for the scenario's own subject, or for the virtual population (which needs a population section). */
+  function basisField(basis: unknown): HTMLElement {
+    const hasPopulation = isRecord(store.scenario.population);
+    const field = selectField(store, {
+      path: 'propose.basis',
+      label: 'Propose for',
+      absentValue: 'typical',
+      options: [['typical', 'the typical subject'], ['population', 'the virtual population']],
+      hint: hasPopulation ? 'The virtual population ranks each regimen by the share of its subjects meeting every target.' : 'The virtual population needs a population section (variability) in the scenario.',
+    });
+    const select = field.querySelector('select') as HTMLSelectElement;
+    select.dataset.testid = 'levels-propose-basis';
+    // Left enabled when "population" is written without a population section, so it can be switched back.
+    if (!hasPopulation && basis !== 'population') select.disabled = true;
+    return field;
+  }
+
   function proposeSettings(): HTMLElement {
     const p = store.scenario.propose;
     if (!isRecord(p)) return h('p', { class: 'note', 'data-path': 'propose' }, 'No "propose" block in this scenario: write one in the JSON with the strengths (or amounts), the intervals allowed and the targets.');
@@ -263,6 +280,7 @@ export function setUpLevels(store: ScenarioStore, hooks: FormHooks, errors: Pane
     return h(
       'div',
       { 'data-path': 'propose', 'data-testid': 'levels-propose-settings' },
+      basisField(p.basis),
       h('dl', { class: 'levels-settings' }, ...rows.flatMap(([k, v, path]) => [h('dt', {}, k), h('dd', { 'data-path': path }, v)])),
       h('p', { class: 'levels-subhead' }, 'Targets'),
       targets.length ? h('ol', { class: 'levels-targets', 'data-path': 'propose.targets' }, ...targets.map((t, i) => h('li', { 'data-path': `propose.targets[${i}]` }, t))) : h('p', { class: 'note' }, 'No targets: every regimen meets them; the ranking then follows doses per day and amount.'),
