@@ -5,7 +5,7 @@
  * its 90% band from the estimates' uncertainty, observed against predicted with the identity
  * line, and residuals against time. The estimates are model outputs, not dosing advice.
  */
-import { Chart, Filler, Legend, LinearScale, LineController, LineElement, PointElement, Tooltip, type ChartConfiguration, type ChartDataset } from 'chart.js';
+import { Chart, Filler, Legend, LinearScale, LineController, LineElement, PointElement, Tooltip, type ChartConfiguration, type ChartDataset, type TooltipItem } from 'chart.js';
 import { fmt } from '../../models/result/summary-text.ts';
 import { h } from './dom.ts';
 import type { FitAnswer } from './levels-api.ts';
@@ -14,6 +14,15 @@ import { cautionNote, figureTable, present } from './levels-tables.ts';
 Chart.register(LineController, LineElement, PointElement, LinearScale, Filler, Tooltip, Legend);
 
 type XY = { x: number; y: number };
+
+/** The clock time of an elapsed time in the fit's time unit, or null without a clock (the main plot's way: observations-overlay clockTimeOf). */
+export type ClockAt = (t: number) => string | null;
+
+/** "t = 12 h", with the clock time beside it when there is one: the tooltip title of the plots against time. */
+export function fitTimeTitle(t: number, unit: string, clockAt: ClockAt): string {
+  const clock = clockAt(t);
+  return `t = ${fmt(t)} ${unit}${clock ? ` · ${clock}` : ''}`;
+}
 
 const objectiveWords = { wls: 'weighted least squares', map: 'maximum a posteriori (the population as the prior)' } as const;
 const weightingWords = { none: 'equal weights', '1/y': 'weights 1/y', '1/y2': 'weights 1/y²', residual: 'weights from the residual error model' } as const;
@@ -29,8 +38,8 @@ export class FitView {
     this.charts = [];
   }
 
-  /** Fills `host` with the fit; `openFitted` loads the fitted scenario into the form. */
-  render(host: HTMLElement, fit: FitAnswer, openFitted: () => void): void {
+  /** Fills `host` with the fit; `openFitted` loads the fitted scenario into the form; `clockAt` gives clock times for the tooltips. */
+  render(host: HTMLElement, fit: FitAnswer, openFitted: () => void, clockAt: ClockAt = () => null): void {
     this.clear();
     const u = fit.units;
     const canvases = { curve: canvas('levels-fit-curve', `Predicted ${u.concentration} against time with the 90% band and the measured levels`), observed: canvas('levels-fit-observed', 'Observed against predicted levels with the identity line'), residuals: canvas('levels-fit-residuals', 'Residuals against time') };
@@ -54,7 +63,7 @@ export class FitView {
       h('div', { class: 'run-row' }, openButton, h('p', { class: 'note' }, 'The fitted scenario has the estimates written in as the typical values, to simulate further or save as a new scenario.')),
       ),
     );
-    this.charts = [this.curveChart(canvases.curve, fit), this.observedChart(canvases.observed, fit), this.residualChart(canvases.residuals, fit)];
+    this.charts = [this.curveChart(canvases.curve, fit, clockAt), this.observedChart(canvases.observed, fit, clockAt), this.residualChart(canvases.residuals, fit, clockAt)];
   }
 
   private estimates(fit: FitAnswer): HTMLElement {
@@ -88,7 +97,7 @@ export class FitView {
     return figureTable(`Levels (${fit.units.concentration})`, ['Level', `Time (${fit.units.time})`, 'Observed', 'Predicted', 'Residual', 'In the fit'], rows, 'levels-fit-levels');
   }
 
-  private curveChart(el: HTMLCanvasElement, fit: FitAnswer): Chart<'line', XY[]> {
+  private curveChart(el: HTMLCanvasElement, fit: FitAnswer, clockAt: ClockAt): Chart<'line', XY[]> {
     const u = fit.units;
     const datasets: ChartDataset<'line', XY[]>[] = [];
     for (const c of fit.curves) {
@@ -100,10 +109,10 @@ export class FitView {
       datasets.push({ label: `${c.compartment}: predicted`, data: pts(c.predicted), borderColor: '#1f6f8b', borderWidth: 2, pointRadius: 0, fill: false });
     }
     datasets.push(observedPoints(fit));
-    return lineChart(el, datasets, `Time (${u.time})`, `Concentration (${u.concentration})`, u.concentration);
+    return lineChart(el, datasets, `Time (${u.time})`, `Concentration (${u.concentration})`, u.concentration, undefined, (items) => fitTimeTitle(items[0].parsed.x ?? NaN, u.time, clockAt));
   }
 
-  private observedChart(el: HTMLCanvasElement, fit: FitAnswer): Chart<'line', XY[]> {
+  private observedChart(el: HTMLCanvasElement, fit: FitAnswer, clockAt: ClockAt): Chart<'line', XY[]> {
     const used = fit.predictions.filter((p) => p.used && p.observed !== null);
     const pts = used.map((p) => ({ x: p.predicted, y: p.observed as number }));
     const hi = Math.max(0, ...pts.flatMap((p) => [p.x, p.y])) * 1.05 || 1;
@@ -117,10 +126,15 @@ export class FitView {
       `Observed (${fit.units.concentration})`,
       fit.units.concentration,
       { min: 0, max: hi },
+      // x is the prediction here: a level's title is its time (the identity line has none).
+      (items) => {
+        const level = items.find((i) => i.datasetIndex === 1);
+        return level ? fitTimeTitle(used[level.dataIndex].time, fit.units.time, clockAt) : '';
+      },
     );
   }
 
-  private residualChart(el: HTMLCanvasElement, fit: FitAnswer): Chart<'line', XY[]> {
+  private residualChart(el: HTMLCanvasElement, fit: FitAnswer, clockAt: ClockAt): Chart<'line', XY[]> {
     const used = fit.predictions.filter((p) => p.weightedResidual !== null);
     const pts = used.map((p) => ({ x: p.time, y: p.weightedResidual as number }));
     const xs = fit.predictions.map((p) => p.time);
@@ -136,6 +150,8 @@ export class FitView {
       `Time (${fit.units.time})`,
       what,
       '',
+      undefined,
+      (items) => fitTimeTitle(items[0].parsed.x ?? NaN, fit.units.time, clockAt),
     );
   }
 }
@@ -145,7 +161,7 @@ function observedPoints(fit: FitAnswer): ChartDataset<'line', XY[]> {
   return { label: 'measured', data: pts, showLine: false, pointRadius: 4, borderColor: '#b4442e', backgroundColor: '#b4442e' };
 }
 
-function lineChart(el: HTMLCanvasElement, datasets: ChartDataset<'line', XY[]>[], xTitle: string, yTitle: string, unit: string, square?: { min: number; max: number }): Chart<'line', XY[]> {
+function lineChart(el: HTMLCanvasElement, datasets: ChartDataset<'line', XY[]>[], xTitle: string, yTitle: string, unit: string, square?: { min: number; max: number }, title?: (items: TooltipItem<'line'>[]) => string): Chart<'line', XY[]> {
   const config: ChartConfiguration<'line', XY[]> = {
     type: 'line',
     data: { datasets },
@@ -161,7 +177,7 @@ function lineChart(el: HTMLCanvasElement, datasets: ChartDataset<'line', XY[]>[]
       },
       plugins: {
         legend: { position: 'bottom', labels: { boxWidth: 14, filter: (item) => !/5th percentile/.test(item.text) } },
-        tooltip: { callbacks: { label: (c) => `${c.dataset.label ?? ''}: ${fmt(c.parsed.y)}${unit ? ` ${unit}` : ''}` } },
+        tooltip: { callbacks: { ...(title ? { title: (items: TooltipItem<'line'>[]) => (items.length ? title(items) : '') } : {}), label: (c) => `${c.dataset.label ?? ''}: ${fmt(c.parsed.y)}${unit ? ` ${unit}` : ''}` } },
       },
     },
   };

@@ -24,6 +24,7 @@ import { LevelsImport } from './levels-import.ts';
 import { ncaTables, cautionNote, markTerminalProblems, type TerminalHooks } from './levels-tables.ts';
 import type { FormHooks } from './model-form.ts';
 import type { PanelErrors } from './population-panel.ts';
+import { clockTimeOf } from './observations-overlay.ts';
 import { renderProposals } from './propose-view.ts';
 import type { ScenarioDoc, ScenarioStore } from './store.ts';
 
@@ -355,7 +356,8 @@ export function setUpLevels(store: ScenarioStore, hooks: FormHooks, errors: Pane
       shown.fit = fit;
       const inner = h('div', {});
       host.replaceChildren(h('h3', {}, 'Fit to the levels'), inner);
-      fitView.render(inner, fit, () => void openFitted(fit));
+      // Clock times as the main plot shows them: from the last run of this scenario (its clock and time unit).
+      fitView.render(inner, fit, () => void openFitted(fit), (t) => (lastResult ? clockTimeOf(lastResult, t) : null));
     } else {
       const proposals = value as ProposeResult;
       shown.proposals = proposals;
