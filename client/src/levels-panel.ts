@@ -303,7 +303,16 @@ export function setUpLevels(store: ScenarioStore, hooks: FormHooks, errors: Pane
   };
   const working: Record<Kind, string> = { nca: 'Computing the figures…', fit: 'Fitting…', propose: 'Searching the regimens…' };
 
+  /** nca.terminal problems with no table to hold their control: listed under the NCA heading (cleared by the next run). */
+  const terminalProblems = h('p', { class: 'field-error', role: 'alert', 'data-testid': 'levels-nca-terminal-problems', 'data-path': 'nca.terminal', hidden: true });
+  function showTerminalProblems(problems: readonly { path: string; message: string }[]): void {
+    const mine = problems.filter((q) => q.path === 'nca.terminal' || q.path.startsWith('nca.terminal['));
+    terminalProblems.textContent = mine.map((q) => `${q.path}: ${q.message}`).join(' ');
+    terminalProblems.hidden = mine.length === 0;
+  }
+
   async function act(kind: Kind, button: HTMLButtonElement): Promise<void> {
+    if (kind === 'nca') showTerminalProblems([]);
     inFlight[kind]?.abort();
     const controller = new AbortController();
     inFlight[kind] = controller;
@@ -328,7 +337,8 @@ export function setUpLevels(store: ScenarioStore, hooks: FormHooks, errors: Pane
       case 'invalid':
         details.open = true;
         errors.showInvalid(outcome.problems);
-        if (kind === 'nca') markTerminalProblems(outputs.nca, outcome.problems, ncaTerminalHooks());
+        // Terminal-line problems go beside their control when a table shows it, else beside the section's heading.
+        if (kind === 'nca' && !markTerminalProblems(outputs.nca, outcome.problems, ncaTerminalHooks())) showTerminalProblems(outcome.problems);
         status.textContent = 'Not computed: the scenario has problems, listed under the run button and beside the fields.';
         break;
       case 'failed':
@@ -449,6 +459,7 @@ export function setUpLevels(store: ScenarioStore, hooks: FormHooks, errors: Pane
       observationTable(),
       importer.element,
       h('h3', { class: 'sub' }, 'Non-compartmental analysis'),
+      terminalProblems,
       actionRow('nca', 'Non-compartmental figures', rule),
       h('h3', { class: 'sub' }, 'Individual parameters'),
       fitSettings(),
@@ -471,6 +482,7 @@ export function setUpLevels(store: ScenarioStore, hooks: FormHooks, errors: Pane
       sent[kind] = null;
     }
     fitView.clear();
+    showTerminalProblems([]);
     shown.nca = shown.fit = shown.proposals = null;
     resultsPanel.hidden = true;
     statuses.nca.textContent = 'Not computed yet.';
