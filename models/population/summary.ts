@@ -9,7 +9,8 @@ import type { Outcome } from '../scenario/problems.ts';
 import { STREAMS } from './covariates.ts';
 import type { Batch } from './batch.ts';
 import { FIGURES, figureColumn, periodIndex, windowColumn, type FigureLayout, type FigureName } from './layout.ts';
-import { histogramOfSorted, percentileOfSorted, percentilesBySelection, type Histogram } from './percentiles.ts';
+import { histogramOfSorted, percentileOfSorted, type Histogram } from './percentiles.ts';
+import { TrackedPercentiles } from './tracked-percentiles.ts';
 import type { PopulationPlan } from './plan.ts';
 import { SubjectRandom } from './random.ts';
 import { NO_STEADY_STATE } from './subject-run.ts';
@@ -303,7 +304,8 @@ const BLOCK = 64;
 /**
  * Percentile bands over time per compartment: the subjects' concentrations at each output time,
  * gathered a block of times at a time (each subject's run is contiguous in time, so a block is
- * read in short runs rather than one value per subject per time), then selected.
+ * read in short runs rather than one value per subject per time), then found near the previous
+ * time's (TrackedPercentiles).
  *
  * With a residual error, the bands of simulated observations instead: each concentration with a
  * proportional and an additive error, y = C·(1 + p·e₁) + a·e₂, e₁ and e₂ standard normal (the
@@ -320,6 +322,8 @@ function bandsOf(plan: PopulationPlan, batches: readonly Batch[], ids: string[],
   const out: Record<string, Record<string, number[]>> = {};
   for (let b = 0; b < B; b++) {
     const series = plan.percentiles.map(() => new Array<number>(T));
+    // Output times in order: each time's percentiles sought first near the previous time's.
+    const tracker = new TrackedPercentiles(N, plan.percentiles);
     for (let j0 = 0; j0 < T; j0 += BLOCK) {
       const width = Math.min(BLOCK, T - j0);
       let i = 0;
@@ -339,7 +343,7 @@ function bandsOf(plan: PopulationPlan, batches: readonly Batch[], ids: string[],
         }
       }
       for (let t = 0; t < width; t++) {
-        percentilesBySelection(block.subarray(t * N, (t + 1) * N), N, plan.percentiles, picked);
+        tracker.next(block.subarray(t * N, (t + 1) * N), picked);
         for (let q = 0; q < picked.length; q++) series[q][j0 + t] = picked[q];
       }
     }
