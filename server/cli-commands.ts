@@ -10,7 +10,7 @@
 import { readFileSync } from 'node:fs';
 import { summaryText } from '../models/result/summary-text.ts';
 import { describeProblems, normaliseScenario, resultToCsv, resultToJsonText, scenarioJsonSchema, simulate, type Problem } from '../models/index.ts';
-import { hasPopulation, planPopulation, runBatch, summarise, shardRange, type Batch, type PopulationPlan, type PopulationResult } from '../models/population/population.ts';
+import { hasPopulation, planPopulation, runBatch, summarise, shardRange, type Batch, type ComputedBands, type PopulationPlan, type PopulationResult } from '../models/population/population.ts';
 import { parseOptions, parseShard, parseTimeLimit, parseWhole, usage } from './cli-options.ts';
 import { withCovariateFile } from './covariate-csv.ts';
 import { withObservationsFile } from './observations-csv.ts';
@@ -163,8 +163,8 @@ export function preparePopulation(args: string[], context: CliContext & { cores?
   };
 }
 
-/** The outcome of a computed population job: the part file of a shard, else the summarised result. */
-export function finishPopulation(job: PopulationJob, batches: Batch[]): CliOutcome {
+/** The outcome of a computed population job: the part file of a shard, else the summarised result (with the bands the threads found, when they did). */
+export function finishPopulation(job: PopulationJob, batches: Batch[], computed?: ComputedBands): CliOutcome {
   if (job.shard) {
     const [batch] = batches.length === 1 ? batches : [joinBatches(batches)];
     const part = makePart(job.scenario, job.overrides, job.shard, batch);
@@ -172,7 +172,7 @@ export function finishPopulation(job: PopulationJob, batches: Batch[]): CliOutco
     const { index, of } = job.shard;
     return finish({ code: 0, stdout: '', stderr: `wrote part ${index} of ${of} (subjects ${job.range.first} to ${job.range.first + job.range.count - 1}) to ${visibleText(job.out as string)}\n`, file: { path: job.out as string, text } });
   }
-  const result = summarise(job.plan, batches);
+  const result = summarise(job.plan, batches, computed);
   if (!result.ok) return finish(problems(result.problems, 'population'));
   return deliver(result.value, job.format, job.out);
 }

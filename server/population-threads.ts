@@ -6,7 +6,7 @@
  * come back in subject order. Subject i's numbers depend only on (seed, i), so the result does
  * not depend on the number of threads or on who ran which chunk. Cancelling terminates the threads.
  */
-import { runBatch, type Batch, type PopulationOverrides, type PopulationPlan } from '../models/population/population.ts';
+import { bandValues, joinBandRanges, runBatch, type Batch, type ComputedBands, type GridPart, type PopulationOverrides, type PopulationPlan } from '../models/population/population.ts';
 import { chunkRanges } from '../models/population/ranges.ts';
 import type { Outcome, Problem } from '../models/scenario/problems.ts';
 import { startWorker, type WorkerModule } from './worker-pool.ts';
@@ -17,16 +17,34 @@ export interface ChunkRequest {
   /** The chunks, [first, count] pairs in subject order; chunk c is taken by whoever adds 1 to counter[0] and gets c. */
   chunks: Int32Array;
   counter: SharedArrayBuffer;
+  /** Keep the grids in SharedArrayBuffers (the bands are found by several threads later). */
+  sharedGrids: boolean;
 }
 
-/** What a population thread is asked: run chunks, or summarise finished batches into the result's JSON. */
-export type ThreadRequest = ({ kind: 'chunks' } & ChunkRequest) | { kind: 'summarise'; scenario: unknown; overrides: PopulationOverrides; batches: Batch[] };
+/** The bands over output times [from, to) of the population whose chunks the thread ran (its grids shared, not copied). */
+export interface BandsRequest {
+  parts: GridPart[];
+  from: number;
+  to: number;
+}
+
+/** What a population thread is asked: run chunks, then perhaps a share of the bands; or summarise finished batches into the result's JSON. */
+export type ThreadRequest = ({ kind: 'chunks' } & ChunkRequest) | ({ kind: 'bands' } & BandsRequest) | { kind: 'summarise'; scenario: unknown; overrides: PopulationOverrides; batches: Batch[] };
+
+/** A thread's share of the bands: concentrations, and simulated observations when the plan has a residual error. */
+export interface BandRange {
+  from: number;
+  to: number;
+  values: Float64Array;
+  observations: Float64Array | null;
+}
 
 export type BatchMessage =
   | { kind: 'ready' }
   | { kind: 'summary'; json: string }
   | { kind: 'batch'; batch: Batch }
   | { kind: 'finished' }
+  | ({ kind: 'bands' } & BandRange)
   | { kind: 'problems'; problems: Problem[] };
 
 /** The population worker's TypeScript source (tests, tsx); the built one lies beside the built server. */
@@ -54,6 +72,16 @@ export interface ThreadOptions {
   signal?: AbortSignal;
   /** JavaScript heap of each thread, MB. */
   heapMb?: number;
+  /**
+   * Also compute the bands (needs `plan`): when every chunk is done, the output times are split
+   * between the threads, each finding the percentiles of its share from the shared grids.
+   */
+  bands?: boolean;
+}
+
+/** bandValues over [from, to) for concentrations and, with a residual error, simulated observations. */
+export function bandRange(plan: PopulationPlan, parts: readonly GridPart[], from: number, to: number): BandRange {
+  return { from, to, values: bandValues(plan, parts, null, from, to), observations: plan.residual ? bandValues(plan, parts, plan.residual, from, to) : null };
 }
 
 /** Takes the next chunk index from the shared counter (Atomics: each index is handed out once). */
@@ -61,11 +89,17 @@ export function claimChunk(counter: Int32Array): number {
   return Atomics.add(counter, 0, 1);
 }
 
-/** Runs `range` (default: every subject) on up to `threads` threads; the batches in subject order. */
-export async function runThreads(scenario: unknown, overrides: PopulationOverrides, subjects: number, options: ThreadOptions): Promise<Outcome<Batch[]> & { cancelled?: boolean }> {
+/** Runs `range` (default: every subject) on up to `threads` threads; the batches in subject order, and the bands when asked. */
+export async function runThreads(
+  scenario: unknown,
+  overrides: PopulationOverrides,
+  subjects: number,
+  options: ThreadOptions,
+): Promise<Outcome<Batch[]> & { cancelled?: boolean; computed?: ComputedBands }> {
   const range = options.range ?? { first: 0, count: subjects };
   const threads = Math.max(1, options.threads);
   const chunks = chunkRanges(range, threads);
+  const sharedGrids = options.bands === true && options.plan !== undefined;
   const chunkCount = chunks.length / 2;
   const shared = new SharedArrayBuffer(4);
   const counter = new Int32Array(shared);
@@ -84,6 +118,9 @@ export async function runThreads(scenario: unknown, overrides: PopulationOverrid
     startWorker(options.worker, options.heapMb ? { resourceLimits: { maxOldGenerationSizeMb: options.heapMb } } : {}),
   );
   const stopAll = () => workers.forEach((w) => void w.terminate());
+  /** Who waits for each worker's share of the bands. */
+  const bandWaiters = new Map<(typeof workers)[number], (r: BandRange | null) => void>();
+  const finishedWorkers = new Set<(typeof workers)[number]>();
   const runs = workers.map(
     (w) =>
       new Promise<void>((resolve) => {
@@ -99,13 +136,23 @@ export async function runThreads(scenario: unknown, overrides: PopulationOverrid
           resolve();
         };
         w.on('message', (m: BatchMessage) => {
-          if (m.kind === 'ready') w.postMessage({ kind: 'chunks', scenario, overrides, chunks, counter: shared } satisfies ThreadRequest);
+          if (m.kind === 'ready') w.postMessage({ kind: 'chunks', scenario, overrides, chunks, counter: shared, sharedGrids } satisfies ThreadRequest);
           else if (m.kind === 'batch') take(m.batch);
-          else if (m.kind === 'finished') settle(null);
-          else if (m.kind === 'problems') settle(m.problems);
+          else if (m.kind === 'finished') {
+            finishedWorkers.add(w);
+            settle(null);
+          } else if (m.kind === 'bands') bandWaiters.get(w)?.(m);
+          else if (m.kind === 'problems') {
+            bandWaiters.get(w)?.(null);
+            settle(m.problems);
+          }
         });
-        w.on('error', (e) => settle([{ path: 'population', message: `a population thread failed: ${e.message}` }]));
-        w.on('exit', () => settle([{ path: 'population', message: options.signal?.aborted ? 'cancelled' : 'a population thread stopped unexpectedly' }]));
+        const gone = (message: string) => {
+          bandWaiters.get(w)?.(null);
+          settle([{ path: 'population', message }]);
+        };
+        w.on('error', (e) => gone(`a population thread failed: ${e.message}`));
+        w.on('exit', () => gone(options.signal?.aborted ? 'cancelled' : 'a population thread stopped unexpectedly'));
       }),
   );
   const onAbort = () => {
@@ -117,7 +164,7 @@ export async function runThreads(scenario: unknown, overrides: PopulationOverrid
     if (options.plan) {
       // The calling thread takes chunks too, letting the threads' messages in between chunks.
       for (let c = claimChunk(counter); c < chunkCount; c = claimChunk(counter)) {
-        const batch = runBatch(options.plan, chunks[2 * c], chunks[2 * c + 1]);
+        const batch = runBatch(options.plan, chunks[2 * c], chunks[2 * c + 1], undefined, options.bands === true);
         if (!batch.ok) {
           failure ??= batch.problems;
           Atomics.store(counter, 0, chunkCount);
@@ -132,11 +179,49 @@ export async function runThreads(scenario: unknown, overrides: PopulationOverrid
     if (options.signal?.aborted) return { ok: false, problems: [{ path: 'population', message: 'cancelled' }], cancelled: true };
     if (failure) return { ok: false, problems: failure };
     batches.sort((a, b) => a.first - b.first);
-    return { ok: true, value: batches };
+    if (!options.bands || !options.plan) return { ok: true, value: batches };
+    const computed = await bandsOnThreads(options.plan, batches, workers.filter((w) => finishedWorkers.has(w)), bandWaiters);
+    if (options.signal?.aborted) return { ok: false, problems: [{ path: 'population', message: 'cancelled' }], cancelled: true };
+    return { ok: true, value: batches, computed };
   } finally {
     options.signal?.removeEventListener('abort', onAbort);
     stopAll();
   }
+}
+
+/**
+ * The bands of finished batches, their output times split evenly between this thread and the
+ * workers (which read the grids where they lie when those are shared). A worker that fails
+ * leaves its share to this thread: the numbers are the same whoever finds them.
+ */
+async function bandsOnThreads(
+  plan: PopulationPlan,
+  batches: Batch[],
+  workers: ReturnType<typeof startWorker>[],
+  waiters: Map<ReturnType<typeof startWorker>, (r: BandRange | null) => void>,
+): Promise<ComputedBands> {
+  const T = plan.template.outputTimes.length;
+  const parts: GridPart[] = batches.map((b) => ({ first: b.first, count: b.count, grid: b.grid }));
+  const shares = Math.min(T, workers.length + 1);
+  const edge = (k: number) => Math.floor((T * k) / shares);
+  const asked = workers.slice(0, shares - 1).map(
+    (w, k) =>
+      new Promise<BandRange>((resolve) => {
+        const from = edge(k + 1);
+        const to = edge(k + 2);
+        waiters.set(w, (r) => {
+          waiters.delete(w);
+          resolve(r ?? bandRange(plan, parts, from, to));
+        });
+        w.postMessage({ kind: 'bands', parts, from, to } satisfies ThreadRequest);
+      }),
+  );
+  const own = bandRange(plan, parts, 0, edge(1));
+  const ranges = [own, ...(await Promise.all(asked))];
+  return {
+    bands: joinBandRanges(plan, ranges),
+    observationBands: plan.residual ? joinBandRanges(plan, ranges.map((r) => ({ from: r.from, to: r.to, values: r.observations as Float64Array }))) : null,
+  };
 }
 
 /**

@@ -29,8 +29,12 @@ export interface Batch {
   steadyMessage: string | null;
 }
 
-/** Runs subjects [first, first + count); `progress` is told after each subject. */
-export function runBatch(plan: PopulationPlan, first: number, count: number, progress?: (done: number) => void): Outcome<Batch> {
+/**
+ * Runs subjects [first, first + count); `progress` is told after each subject. With `sharedGrid`
+ * the concentrations live in a SharedArrayBuffer, so that threads summarising parts of the bands
+ * read them where they are rather than each a copy.
+ */
+export function runBatch(plan: PopulationPlan, first: number, count: number, progress?: (done: number) => void, sharedGrid = false): Outcome<Batch> {
   const B = plan.layout.banded.length;
   const T = plan.template.outputTimes.length;
   const columns = plan.layout.columns;
@@ -39,7 +43,7 @@ export function runBatch(plan: PopulationPlan, first: number, count: number, pro
   const batch: Batch = {
     first,
     count,
-    grid: new Float32Array(count * B * T),
+    grid: sharedGrid ? new Float32Array(new SharedArrayBuffer(count * B * T * Float32Array.BYTES_PER_ELEMENT)) : new Float32Array(count * B * T),
     figures: new Float64Array(count * columns),
     status: new Uint8Array(count),
     regimenFigures: new Float64Array(variants * count * regimenColumns),

@@ -7,7 +7,7 @@ import { buildModel, parseScenario } from '../scenario/normalize.ts';
 import type { Outcome, Problem } from '../scenario/problems.ts';
 import { runBatch, type Batch } from './batch.ts';
 import { readPlan, type PopulationPlan } from './plan.ts';
-import { summarise, type PopulationResult } from './summary.ts';
+import { bandValues, joinBandRanges, summarise, type ComputedBands, type GridPart, type PopulationResult } from './summary.ts';
 import { batchRanges, shardRange } from './ranges.ts';
 
 export interface PopulationOverrides {
@@ -49,4 +49,4 @@ export function simulatePopulation(input: unknown, overrides: PopulationOverride
   return summarise(plan.value, [batch.value]);
 }
 
-export { batchRanges, runBatch, shardRange, summarise, type Batch, type PopulationPlan, type PopulationResult };
+export { bandValues, batchRanges, joinBandRanges, runBatch, shardRange, summarise, type Batch, type ComputedBands, type GridPart, type PopulationPlan, type PopulationResult };

@@ -124,7 +124,13 @@ export function checkCoverage(batches: readonly Batch[], subjects: number): stri
   return next === subjects ? null : `subjects ${next} to ${subjects - 1} are missing`;
 }
 
-export function summarise(plan: PopulationPlan, unordered: readonly Batch[]): Outcome<PopulationResult> {
+/** Bands computed beforehand (in threads: bandValues over ranges, joined), for all times. */
+export interface ComputedBands {
+  bands: Float64Array;
+  observationBands: Float64Array | null;
+}
+
+export function summarise(plan: PopulationPlan, unordered: readonly Batch[], computed?: ComputedBands): Outcome<PopulationResult> {
   const batches = [...unordered].sort((a, b) => a.first - b.first);
   const gap = checkCoverage(batches, plan.subjects);
   if (gap) return { ok: false, problems: [{ path: 'population', message: `the parts do not make up the population of ${plan.subjects}: ${gap}` }] };
@@ -140,8 +146,8 @@ export function summarise(plan: PopulationPlan, unordered: readonly Batch[]): Ou
     for (const b of batches) for (let s = 0; s < b.count; s++) column[k++] = read(b, s);
   };
 
-  const bands = bandsOf(plan, batches, ids, null);
-  const observationBands = plan.residual ? bandsOf(plan, batches, ids, plan.residual) : null;
+  const bands = computed ? bandRecords(plan, ids, computed.bands) : bandsOf(plan, batches, ids, null);
+  const observationBands = !plan.residual ? null : computed?.observationBands ? bandRecords(plan, ids, computed.observationBands) : bandsOf(plan, batches, ids, plan.residual);
 
   const figureSummary = (col: number, read: (batch: Batch, s: number, col: number) => number): FigureSummary => {
     gather((batch, s) => read(batch, s, col));
@@ -312,20 +318,33 @@ const BLOCK = 64;
  * combined error model, common practice), from the subject's own residual stream at that
  * compartment and time, so an observation is the same whoever computes it.
  */
-function bandsOf(plan: PopulationPlan, batches: readonly Batch[], ids: string[], residual: { additive: number; proportional: number } | null): Record<string, Record<string, number[]>> {
+function bandsOf(plan: PopulationPlan, batches: readonly GridPart[], ids: string[], residual: { additive: number; proportional: number } | null): Record<string, Record<string, number[]>> {
+  return bandRecords(plan, ids, bandValues(plan, batches, residual, 0, plan.template.outputTimes.length));
+}
+
+/** A batch's concentrations and whose they are: all a band needs (what a thread is sent). */
+export type GridPart = Pick<Batch, 'first' | 'count' | 'grid'>;
+
+/**
+ * The bands over output times [from, to) — compartment b, percentile k, time j at
+ * ((b·K + k)·(to − from) + j − from) — from the batches in subject order. A range of times is
+ * one thread's share of the bands; ranges joined (joinBandRanges) give the bands of all times.
+ */
+export function bandValues(plan: PopulationPlan, batches: readonly GridPart[], residual: { additive: number; proportional: number } | null, from: number, to: number): Float64Array {
   const T = plan.template.outputTimes.length;
-  const B = ids.length;
+  const B = plan.layout.banded.length;
   const N = plan.subjects;
+  const K = plan.percentiles.length;
+  const span = to - from;
+  const values = new Float64Array(B * K * span);
   const block = new Float64Array(BLOCK * N);
-  const picked = new Float64Array(plan.percentiles.length);
+  const picked = new Float64Array(K);
   const randoms = residual ? batches.flatMap((batch) => Array.from({ length: batch.count }, (_, s) => new SubjectRandom(plan.seed, batch.first + s))) : [];
-  const out: Record<string, Record<string, number[]>> = {};
   for (let b = 0; b < B; b++) {
-    const series = plan.percentiles.map(() => new Array<number>(T));
     // Output times in order: each time's percentiles sought first near the previous time's.
     const tracker = new TrackedPercentiles(N, plan.percentiles);
-    for (let j0 = 0; j0 < T; j0 += BLOCK) {
-      const width = Math.min(BLOCK, T - j0);
+    for (let j0 = from; j0 < to; j0 += BLOCK) {
+      const width = Math.min(BLOCK, to - j0);
       let i = 0;
       for (const batch of batches) {
         const g = batch.grid;
@@ -344,12 +363,34 @@ function bandsOf(plan: PopulationPlan, batches: readonly Batch[], ids: string[],
       }
       for (let t = 0; t < width; t++) {
         tracker.next(block.subarray(t * N, (t + 1) * N), picked);
-        for (let q = 0; q < picked.length; q++) series[q][j0 + t] = picked[q];
+        for (let k = 0; k < K; k++) values[(b * K + k) * span + j0 - from + t] = picked[k];
       }
     }
-    const keyed: Record<string, number[]> = {};
-    plan.percentiles.forEach((q, k) => (keyed[percentKey(q)] = series[k]));
-    out[ids[b]] = keyed;
   }
+  return values;
+}
+
+/** Band values of consecutive time ranges covering [0, T), each as bandValues lays it out, as one for all times. */
+export function joinBandRanges(plan: PopulationPlan, ranges: readonly { from: number; to: number; values: Float64Array }[]): Float64Array {
+  const T = plan.template.outputTimes.length;
+  const rows = plan.layout.banded.length * plan.percentiles.length;
+  const out = new Float64Array(rows * T);
+  for (const r of ranges) {
+    const span = r.to - r.from;
+    for (let row = 0; row < rows; row++) out.set(r.values.subarray(row * span, (row + 1) * span), row * T + r.from);
+  }
+  return out;
+}
+
+/** Band values of all times (bandValues from 0 to T) as the result's records, compartment → percentile → series. */
+function bandRecords(plan: PopulationPlan, ids: string[], values: Float64Array): Record<string, Record<string, number[]>> {
+  const T = plan.template.outputTimes.length;
+  const K = plan.percentiles.length;
+  const out: Record<string, Record<string, number[]>> = {};
+  ids.forEach((id, b) => {
+    const keyed: Record<string, number[]> = {};
+    plan.percentiles.forEach((q, k) => (keyed[percentKey(q)] = Array.from(values.subarray((b * K + k) * T, (b * K + k + 1) * T))));
+    out[id] = keyed;
+  });
   return out;
 }

@@ -131,6 +131,7 @@ async function runHere(saturable: boolean, subjects: number, step: number, end?:
   const options: ThreadOptions = {
     threads,
     plan: plan.value,
+    bands: true,
     worker: { kind: 'built', url: new URL(`file://${join(root, 'dist', 'server', 'population-worker.js')}`) },
     onProgress: (done) => {
       if (done > 0 && Number.isNaN(firstDone)) firstDone = performance.now();
@@ -139,7 +140,7 @@ async function runHere(saturable: boolean, subjects: number, step: number, end?:
   const batches = await runThreads(scenario, {}, subjects, options);
   if (!batches.ok) throw new Error(JSON.stringify(batches.problems));
   const ran = performance.now();
-  const result = summarise(plan.value, batches.value);
+  const result = summarise(plan.value, batches.value, batches.computed);
   if (!result.ok) throw new Error(JSON.stringify(result.problems));
   const finished = performance.now();
   const seconds = (finished - start) / 1000;
