@@ -180,8 +180,8 @@ export async function runThreads(
     if (failure) return { ok: false, problems: failure };
     batches.sort((a, b) => a.first - b.first);
     if (!options.bands || !options.plan) return { ok: true, value: batches };
-    const computed = await bandsOnThreads(options.plan, batches, workers.filter((w) => finishedWorkers.has(w)), bandWaiters);
-    if (options.signal?.aborted) return { ok: false, problems: [{ path: 'population', message: 'cancelled' }], cancelled: true };
+    const computed = await bandsOnThreads(options.plan, batches, workers.filter((w) => finishedWorkers.has(w)), bandWaiters, options.signal);
+    if (options.signal?.aborted || computed === null) return { ok: false, problems: [{ path: 'population', message: 'cancelled' }], cancelled: true };
     return { ok: true, value: batches, computed };
   } finally {
     options.signal?.removeEventListener('abort', onAbort);
@@ -192,32 +192,37 @@ export async function runThreads(
 /**
  * The bands of finished batches, their output times split evenly between this thread and the
  * workers (which read the grids where they lie when those are shared). A worker that fails
- * leaves its share to this thread: the numbers are the same whoever finds them.
+ * leaves its share to this thread: the numbers are the same whoever finds them. Cancelled (the
+ * workers terminated): null at once, rather than this thread finding every share left.
  */
 async function bandsOnThreads(
   plan: PopulationPlan,
   batches: Batch[],
   workers: ReturnType<typeof startWorker>[],
   waiters: Map<ReturnType<typeof startWorker>, (r: BandRange | null) => void>,
-): Promise<ComputedBands> {
+  signal: AbortSignal | undefined,
+): Promise<ComputedBands | null> {
   const T = plan.template.outputTimes.length;
   const parts: GridPart[] = batches.map((b) => ({ first: b.first, count: b.count, grid: b.grid }));
   const shares = Math.min(T, workers.length + 1);
   const edge = (k: number) => Math.floor((T * k) / shares);
   const asked = workers.slice(0, shares - 1).map(
     (w, k) =>
-      new Promise<BandRange>((resolve) => {
+      new Promise<BandRange | null>((resolve) => {
         const from = edge(k + 1);
         const to = edge(k + 2);
         waiters.set(w, (r) => {
           waiters.delete(w);
-          resolve(r ?? bandRange(plan, parts, from, to));
+          resolve(r ?? (signal?.aborted ? null : bandRange(plan, parts, from, to)));
         });
         w.postMessage({ kind: 'bands', parts, from, to } satisfies ThreadRequest);
       }),
   );
   const own = bandRange(plan, parts, 0, edge(1));
-  const ranges = [own, ...(await Promise.all(asked))];
+  const others = await Promise.all(asked);
+  const found = others.filter((r): r is BandRange => r !== null);
+  if (signal?.aborted || found.length < others.length) return null;
+  const ranges = [own, ...found];
   return {
     bands: joinBandRanges(plan, ranges),
     observationBands: plan.residual ? joinBandRanges(plan, ranges.map((r) => ({ from: r.from, to: r.to, values: r.observations as Float64Array }))) : null,
