@@ -153,7 +153,9 @@ function readRow(cells: string[], columns: Column[], at: string, source: string)
     else o.compartment = compartment.v;
   }
   const subject = cell('subject');
-  if (subject.v !== '') o.subject = subject.v.slice(0, 80);
+  // Never cut short: two ids that share their first 80 characters would become one subject.
+  if (subject.c && subject.v.length > 80) errors.push(`${where(subject.c)}: the subject id has ${subject.v.length} characters; at most 80`);
+  else if (subject.v !== '') o.subject = subject.v;
   const label = cell('label');
   if (label.v !== '') o.label = label.v.slice(0, 120);
   return errors.length > 0 ? { errors } : { observation: o as ObservationLine };

@@ -29,6 +29,15 @@ describe('the levels CSV parser in the core', () => {
     expect(splitCsv).toBe(coreSplit);
   });
 
+  it('refuses a subject id over 80 characters rather than cutting it (two ids would become one subject)', () => {
+    const long = 'P'.repeat(80);
+    const text = `time,concentration,subject\n1,2,${long}A\n2,1,${long}B\n3,1,${long}\n`;
+    expect(parseCore(text, 'c.csv')).toEqual({
+      ok: false,
+      errors: ['c.csv line 2, column subject: the subject id has 81 characters; at most 80', 'c.csv line 3, column subject: the subject id has 81 characters; at most 80'],
+    });
+  });
+
   it('offers the file\'s headers without their units and names the needed fields no column holds', () => {
     const text = 'Patient,Sample drawn [h],Level [mg/L],\n';
     expect(observationsCsvColumns(text)).toEqual({ headers: ['Patient', 'Sample drawn', 'Level'], missing: ['time', 'concentration'] });
