@@ -6,9 +6,10 @@
  * come back in subject order. Subject i's numbers depend only on (seed, i), so the result does
  * not depend on the number of threads or on who ran which chunk. Cancelling terminates the threads.
  */
-import { bandValues, joinBandRanges, runBatch, type Batch, type ComputedBands, type GridPart, type PopulationOverrides, type PopulationPlan } from '../models/population/population.ts';
+import type { Batch, ComputedBands, GridPart, PopulationOverrides, PopulationPlan } from '../models/population/population.ts';
 import { chunkRanges } from '../models/population/ranges.ts';
 import type { Outcome, Problem } from '../models/scenario/problems.ts';
+import type { BandRange } from './population-local.ts';
 import { startWorker, type WorkerModule } from './worker-pool.ts';
 
 export interface ChunkRequest {
@@ -30,14 +31,6 @@ export interface BandsRequest {
 
 /** What a population thread is asked: run chunks, then perhaps a share of the bands; or summarise finished batches into the result's JSON. */
 export type ThreadRequest = ({ kind: 'chunks' } & ChunkRequest) | ({ kind: 'bands' } & BandsRequest) | { kind: 'summarise'; scenario: unknown; overrides: PopulationOverrides; batches: Batch[] };
-
-/** A thread's share of the bands: concentrations, and simulated observations when the plan has a residual error. */
-export interface BandRange {
-  from: number;
-  to: number;
-  values: Float64Array;
-  observations: Float64Array | null;
-}
 
 export type BatchMessage =
   | { kind: 'ready' }
@@ -79,10 +72,8 @@ export interface ThreadOptions {
   bands?: boolean;
 }
 
-/** bandValues over [from, to) for concentrations and, with a residual error, simulated observations. */
-export function bandRange(plan: PopulationPlan, parts: readonly GridPart[], from: number, to: number): BandRange {
-  return { from, to, values: bandValues(plan, parts, null, from, to), observations: plan.residual ? bandValues(plan, parts, plan.residual, from, to) : null };
-}
+/** The engine's side of this thread (population-local.ts), loaded only when this thread computes. */
+type Local = typeof import('./population-local.ts');
 
 /** Takes the next chunk index from the shared counter (Atomics: each index is handed out once). */
 export function claimChunk(counter: Int32Array): number {
@@ -161,10 +152,11 @@ export async function runThreads(
   };
   options.signal?.addEventListener('abort', onAbort, { once: true });
   try {
-    if (options.plan) {
+    const local: Local | null = options.plan ? await import('./population-local.ts') : null;
+    if (options.plan && local) {
       // The calling thread takes chunks too, letting the threads' messages in between chunks.
       for (let c = claimChunk(counter); c < chunkCount; c = claimChunk(counter)) {
-        const batch = runBatch(options.plan, chunks[2 * c], chunks[2 * c + 1], undefined, options.bands === true);
+        const batch = local.runBatch(options.plan, chunks[2 * c], chunks[2 * c + 1], undefined, options.bands === true);
         if (!batch.ok) {
           failure ??= batch.problems;
           Atomics.store(counter, 0, chunkCount);
@@ -179,8 +171,8 @@ export async function runThreads(
     if (options.signal?.aborted) return { ok: false, problems: [{ path: 'population', message: 'cancelled' }], cancelled: true };
     if (failure) return { ok: false, problems: failure };
     batches.sort((a, b) => a.first - b.first);
-    if (!options.bands || !options.plan) return { ok: true, value: batches };
-    const computed = await bandsOnThreads(options.plan, batches, workers.filter((w) => finishedWorkers.has(w)), bandWaiters, options.signal);
+    if (!options.bands || !options.plan || !local) return { ok: true, value: batches };
+    const computed = await bandsOnThreads(local, options.plan, batches, workers.filter((w) => finishedWorkers.has(w)), bandWaiters, options.signal);
     if (options.signal?.aborted || computed === null) return { ok: false, problems: [{ path: 'population', message: 'cancelled' }], cancelled: true };
     return { ok: true, value: batches, computed };
   } finally {
@@ -196,6 +188,7 @@ export async function runThreads(
  * workers terminated): null at once, rather than this thread finding every share left.
  */
 async function bandsOnThreads(
+  local: Local,
   plan: PopulationPlan,
   batches: Batch[],
   workers: ReturnType<typeof startWorker>[],
@@ -213,19 +206,19 @@ async function bandsOnThreads(
         const to = edge(k + 2);
         waiters.set(w, (r) => {
           waiters.delete(w);
-          resolve(r ?? (signal?.aborted ? null : bandRange(plan, parts, from, to)));
+          resolve(r ?? (signal?.aborted ? null : local.bandRange(plan, parts, from, to)));
         });
         w.postMessage({ kind: 'bands', parts, from, to } satisfies ThreadRequest);
       }),
   );
-  const own = bandRange(plan, parts, 0, edge(1));
+  const own = local.bandRange(plan, parts, 0, edge(1));
   const others = await Promise.all(asked);
   const found = others.filter((r): r is BandRange => r !== null);
   if (signal?.aborted || found.length < others.length) return null;
   const ranges = [own, ...found];
   return {
-    bands: joinBandRanges(plan, ranges),
-    observationBands: plan.residual ? joinBandRanges(plan, ranges.map((r) => ({ from: r.from, to: r.to, values: r.observations as Float64Array }))) : null,
+    bands: local.joinBandRanges(plan, ranges),
+    observationBands: plan.residual ? local.joinBandRanges(plan, ranges.map((r) => ({ from: r.from, to: r.to, values: r.observations as Float64Array }))) : null,
   };
 }
 

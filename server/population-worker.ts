@@ -6,7 +6,8 @@
  */
 import { parentPort } from 'node:worker_threads';
 import { planPopulation, runBatch, summarise, type Batch, type PopulationPlan } from '../models/population/population.ts';
-import { bandRange, claimChunk, type BatchMessage, type ThreadRequest } from './population-threads.ts';
+import { claimChunk, type BatchMessage, type ThreadRequest } from './population-threads.ts';
+import { bandRange } from './population-local.ts';
 
 function post(message: BatchMessage, transfer: ArrayBuffer[] = []): void {
   parentPort?.postMessage(message, transfer);
