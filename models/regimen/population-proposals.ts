@@ -48,7 +48,12 @@ const grouped = (n: number) => n.toLocaleString('en-US');
 /** One candidate regimen, in the model's units. */
 type Spec = { amount: number; interval: number; duration: number };
 
-/** The scenario the population engine runs: only the proposed line, the candidates as its regimen grid, steady state only. */
+/**
+ * The scenario the population engine runs: the proposed line with the candidates as its regimen
+ * grid, steady state only. The other dose lines stay where they are, each made one dose of
+ * nothing (its route, bioavailability and lag kept): the varying quantities, their order and
+ * correlations, and so every subject's numbers, are those of the scenario's own population.
+ */
 function gridScenario(s: Scenario, model: Model, settings: ProposeSettings): Scenario {
   const p = s.propose as NonNullable<Scenario['propose']>;
   const population = s.population as NonNullable<Scenario['population']>;
@@ -64,23 +69,26 @@ function gridScenario(s: Scenario, model: Model, settings: ProposeSettings): Sce
   const boluses = p.durations !== undefined && settings.durations.every((d) => d === 0);
   if (boluses) delete dose.duration;
   const { propose: _propose, fit: _fit, observations: _observations, ...rest } = s;
+  const inert = (d: DoseLine): DoseLine => {
+    const { every: _e, count: _c, through: _t, duration: _d, rate: _r, ...once } = d;
+    return { ...once, amount: `0 ${model.units.amount}` };
+  };
   return {
     ...rest,
-    doses: [dose],
+    doses: s.doses.map((d, i) => (i === p.line ? dose : inert(d))),
     population: {
       ...population,
       targets: p.targets,
       periods: ['steady state'],
-      regimens: { line: 0, amounts, intervals: p.intervals, ...(p.durations && !boluses ? { durations: p.durations } : {}), ceilingAtLeast: 0 },
+      regimens: { line: p.line, amounts, intervals: p.intervals, ...(p.durations && !boluses ? { durations: p.durations } : {}), ceilingAtLeast: 0 },
     },
   };
 }
 
 /** The paths of problems found on the engine's copy, as the user wrote them. */
-function userPaths(problems: Problem[], line: number): Problem[] {
+function userPaths(problems: Problem[]): Problem[] {
   return problems.map((q) => {
     if (q.path.startsWith('population.regimens') || q.path.startsWith('population.targets')) return { path: 'propose', message: `${q.path.replace(/^population\./, 'propose ')}: ${q.message}` };
-    if (q.path.startsWith('doses[0]')) return { ...q, path: q.path.replace(/^doses\[0\]/, `doses[${line}]`) };
     return q;
   });
 }
@@ -215,7 +223,7 @@ function planProposals(s: Scenario, model: Model, settings: ProposeSettings, lim
   const over = limitProblems(s.population.subjects, specs.length, limits);
   if (over.length > 0) return { ok: false, problems: over };
   const plan = planPopulation(gridScenario(s, model, settings));
-  if (!plan.ok) return { ok: false, problems: userPaths(plan.problems, (s.propose as NonNullable<Scenario['propose']>).line) };
+  if (!plan.ok) return { ok: false, problems: userPaths(plan.problems) };
   if (plan.value.regimens.length !== specs.length) throw new Error(`internal: ${plan.value.regimens.length} regimens for ${specs.length} candidates`);
   return { ok: true, value: { plan: plan.value, specs } };
 }
@@ -233,7 +241,7 @@ export function proposeForPopulation(s: Scenario, model: Model, settings: Propos
   const { plan: pl, specs } = planned.value;
   const line = (s.propose as NonNullable<Scenario['propose']>).line;
   const batch = runBatch(pl, 0, pl.subjects);
-  if (!batch.ok) return { ok: false, problems: userPaths(batch.problems, line) };
+  if (!batch.ok) return { ok: false, problems: userPaths(batch.problems) };
   const N = pl.subjects;
   const scratch = Array.from({ length: 5 }, () => new Float64Array(N));
   const rows = specs.map((spec, r) => regimenRow(pl, batch.value.regimenFigures, r, spec, scratch));

@@ -114,6 +114,24 @@ describe('attainment against the log-normal CDF (continuous infusion at steady s
   });
 });
 
+describe('other dose lines', () => {
+  it('keep their varying quantities and correlations, deliver nothing, and leave every subject as it was', () => {
+    // A second line with a varying bioavailability correlated with CL: before, its removal broke the correlation.
+    const base = infusionScenario(60);
+    const withLine = {
+      ...base,
+      compartments: [...base.compartments, { id: 'gut' }],
+      transfers: [...base.transfers, { from: 'gut', to: 'central', k: '1 1/h' }],
+      doses: [...base.doses, { into: 'gut', amount: '100 mg', at: '2 h', bioavailability: { typical: 0.6, cv: '20%', name: 'F' } }],
+      population: { ...base.population, correlations: [{ between: ['CL', 'F'], value: 0.3 }] },
+    };
+    const a = small.proposals.map((p) => [p.amount, row(p).joint.probability]);
+    const b = propose(withLine).proposals.map((p) => [p.amount, row(p).joint.probability]);
+    // CL is the first varying quantity in both, so its draws (the first row of the Cholesky factor) are the same.
+    expect(b).toEqual(a);
+  });
+});
+
 describe('ranking rule', () => {
   const day = 24;
   const rows: PopulationRankable[] = [
