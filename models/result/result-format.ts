@@ -5,6 +5,7 @@
 import type { CompartmentFigures } from '../figures/exposure.ts';
 import type { Diagnostics, SimulationEvent, SimulationResult, ResultUnits } from '../simulate.ts';
 import type { SteadyStateFigures } from '../figures/steady-state.ts';
+import { isoDateTime } from '../levels/clock.ts';
 
 export interface CompartmentSeriesJson {
   label: string;
@@ -66,10 +67,20 @@ function csvField(text: string): string {
   return /[",\n]/.test(text) ? `"${text.replace(/"/g, '""')}"` : text;
 }
 
-/** One row per reported time: time, then amount and concentration of each compartment. */
+/** The ISO 8601 date-time (with its offset) of elapsed time `t` in the result's time unit, by the clock's own rule. */
+function clockTimeIso(t: number, clock: NonNullable<SimulationResult['clock']>): string {
+  return isoDateTime(clock.originMs + t * clock.hoursPerTimeUnit * 3_600_000, clock.zoneMinutes);
+}
+
+/**
+ * One row per reported time: time, its clock time when the scenario has a clock (ISO 8601
+ * with the offset, e.g. 2026-03-04T09:00+01:00), then amount and concentration of each compartment.
+ */
 export function resultToCsv(result: SimulationResult): string {
   const u = result.units;
+  const clock = result.clock;
   const header = [`time (${u.time})`];
+  if (clock) header.push('clock time');
   for (const s of result.compartments) {
     header.push(`${s.id} amount (${u.amount})`);
     if (s.concentration) header.push(`${s.id} concentration (${u.concentration})`);
@@ -79,6 +90,7 @@ export function resultToCsv(result: SimulationResult): string {
   for (let r = 0; r < result.times.length; r++) {
     row.length = 0;
     row.push(String(result.times[r]));
+    if (clock) row.push(clockTimeIso(result.times[r], clock));
     for (const s of result.compartments) {
       row.push(String(s.amount[r]));
       if (s.concentration) row.push(String(s.concentration[r]));
