@@ -435,9 +435,10 @@ export class LinearTrajectory implements Trajectory {
   }
 
   /**
-   * From the nearest knot of the piece at or before t, by the action of the matrix
-   * exponential over what remains (at most a 24th of the piece): a few matrix–vector
-   * products where a fresh propagator would cost a Padé exponential at every probe.
+   * From the nearest knot of the piece at or before t (or from one of the last two rows
+   * sample() handed out, when t lies shortly after it in the same piece), by the action of the
+   * matrix exponential over what remains: a few matrix–vector products where a fresh
+   * propagator would cost a Padé exponential at every probe.
    */
   stateAt(t: number, side: 'left' | 'right', out: Float64Array): void {
     const n = this.dimension;
