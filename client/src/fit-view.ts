@@ -6,17 +6,36 @@
  * line, and residuals against time. The estimates are model outputs, not dosing advice.
  */
 import { Chart, Filler, Legend, LinearScale, LineController, LineElement, PointElement, Tooltip, type ChartConfiguration, type ChartDataset, type TooltipItem } from 'chart.js';
+import { clockLabel, clockOf } from '../../models/levels/clock.ts';
 import { fmt } from '../../models/result/summary-text.ts';
 import { h } from './dom.ts';
 import type { FitAnswer } from './levels-api.ts';
+import { timeFactor } from './quantity.ts';
 import { cautionNote, figureTable, present } from './levels-tables.ts';
 
 Chart.register(LineController, LineElement, PointElement, LinearScale, Filler, Tooltip, Legend);
 
 type XY = { x: number; y: number };
 
-/** The clock time of an elapsed time in the fit's time unit, or null without a clock (the main plot's way: observations-overlay clockTimeOf). */
+/** The clock time of an elapsed time in the fit's time unit, or null without a clock (fitClockAt). */
 export type ClockAt = (t: number) => string | null;
+
+const isObject = (v: unknown): v is Record<string, unknown> => typeof v === 'object' && v !== null && !Array.isArray(v);
+
+/**
+ * Clock times for the fit's plots, read from the scenario the fit was computed on (the origin
+ * rule clockOf, as the server reads it) and the fit's own time unit: the last simulation run may
+ * be older than the fit, with another first dose, zone or time unit, and would lend its tooltips
+ * a wrong clock time. Null without a clock, or for a time unit the page cannot convert.
+ */
+export function fitClockAt(scenario: unknown, timeUnit: string): ClockAt {
+  const s = isObject(scenario) ? scenario : {};
+  const settings = isObject(s.clock) ? (s.clock as { origin?: string; zone?: string }) : undefined;
+  const doseTimes = Array.isArray(s.doses) ? s.doses.map((d) => (isObject(d) ? d.at : undefined)) : [];
+  const clock = clockOf(settings, doseTimes).clock;
+  const hours = timeFactor(timeUnit, 'h');
+  return (t) => (clock !== null && hours !== null && Number.isFinite(t) ? clockLabel(t * hours, clock) : null);
+}
 
 /** "t = 12 h", with the clock time beside it when there is one: the tooltip title of the plots against time. */
 export function fitTimeTitle(t: number, unit: string, clockAt: ClockAt): string {

@@ -18,13 +18,12 @@ import type { Scenario } from '../../models/scenario/schema.ts';
 import { fmt } from '../../models/result/summary-text.ts';
 import { byId, fieldId, findByFocusKey, focusKey, h } from './dom.ts';
 import { selectField } from './fields.ts';
-import { FitView } from './fit-view.ts';
+import { FitView, fitClockAt } from './fit-view.ts';
 import { postFit, postNca, postPropose, type FitAnswer, type LevelsOutcome } from './levels-api.ts';
 import { LevelsImport } from './levels-import.ts';
 import { ncaTables, cautionNote, markTerminalProblems, type TerminalHooks } from './levels-tables.ts';
 import type { FormHooks } from './model-form.ts';
 import type { PanelErrors } from './population-panel.ts';
-import { clockTimeOf } from './observations-overlay.ts';
 import { renderProposals } from './propose-view.ts';
 import type { ScenarioDoc, ScenarioStore } from './store.ts';
 
@@ -366,8 +365,8 @@ export function setUpLevels(store: ScenarioStore, hooks: FormHooks, errors: Pane
       shown.fit = fit;
       const inner = h('div', {});
       host.replaceChildren(h('h3', {}, 'Fit to the levels'), inner);
-      // Clock times as the main plot shows them: from the last run of this scenario (its clock and time unit).
-      fitView.render(inner, fit, () => void openFitted(fit), (t) => (lastResult ? clockTimeOf(lastResult, t) : null));
+      // Clock times from the scenario the fit was computed on, not from the last run, which may be older.
+      fitView.render(inner, fit, () => void openFitted(fit), fitClockAt(sent.fit, fit.units.time));
     } else {
       const proposals = value as ProposeResult;
       shown.proposals = proposals;
