@@ -78,17 +78,30 @@ function terminalControl(p: ScenarioNcaProfile, k: number, nca: ScenarioNca, hoo
   const input = h('input', { type: 'text', id, class: 'levels-input', value: own && own.from !== 'automatic' ? own.from : '', placeholder: 'e.g. 96 h or 2026-03-08T08:00', autocomplete: 'off', spellcheck: 'false', 'data-testid': id, 'aria-describedby': `${id}-now` });
   const fix = h('button', { type: 'button', 'data-testid': `levels-terminal-fix-${k}` }, 'Fix from this time');
   const automatic = h('button', { type: 'button', class: 'quiet', 'data-testid': `levels-terminal-automatic-${k}`, disabled: !p.terminalFixed && own === null }, 'Automatic');
-  fix.addEventListener('click', () => hooks.fix(p.subject, p.compartment, input.value));
+  // An empty box fixes nothing: writing `from: ""` would leave the scenario invalid (and every run refused) until mended.
+  const fixTyped = () => {
+    control.querySelectorAll('.field-error').forEach((e) => e.remove());
+    if (input.value.trim() !== '') {
+      hooks.fix(p.subject, p.compartment, input.value);
+      return;
+    }
+    const msg = h('p', { class: 'field-error', id: `${id}-error`, role: 'alert' }, 'Type the time the line starts at (e.g. 96 h or a date-time), or choose Automatic.');
+    control.querySelector('.run-row')?.after(msg);
+    input.setAttribute('aria-invalid', 'true');
+    input.setAttribute('aria-describedby', `${id}-error ${id}-now`);
+    input.focus();
+  };
+  fix.addEventListener('click', fixTyped);
   input.addEventListener('keydown', (e) => {
     if (e.key === 'Enter') {
       e.preventDefault();
-      hooks.fix(p.subject, p.compartment, input.value);
+      fixTyped();
     }
   });
   automatic.addEventListener('click', () => hooks.automatic(p.subject, p.compartment));
   // A fixed line of too few levels is flagged; the flag is repeated here, where it can be mended.
   const few = p.terminalFixed ? p.result.flags.filter((f) => f.figure === 'terminalRate' && f.message.startsWith(p.terminalFixed?.path ?? '')) : [];
-  return h(
+  const control = h(
     'div',
     {
       class: 'levels-terminal',
@@ -102,6 +115,7 @@ function terminalControl(p: ScenarioNcaProfile, k: number, nca: ScenarioNca, hoo
     h('p', { class: 'note', id: `${id}-now` }, `Now ${terminalWords(p, nca.units.time)}. A time takes the levels at or after it that come after Cmax; it is written to the scenario's nca.terminal.`),
     few.length ? h('ul', { class: 'warnings' }, ...few.map((f) => h('li', {}, f.message))) : null,
   );
+  return control;
 }
 
 /**
