@@ -18,6 +18,7 @@ const FIRST_ROWS = 10;
 export function renderProposals(host: HTMLElement, result: ProposeResult, tryRow: (p: Proposal) => void): void {
   const u = result.units;
   const basis = result.population ?? null;
+  const notes = result.proposals.filter((p) => p.note !== null);
   const rows = result.proposals.map((p, i) => (basis ? populationRow(p, i, tryRow) : row(p, i, result, tryRow)));
   const head = basis
     ? ['Rank', 'Tier', `Amount (${u.amount})`, `Interval (${u.time})`, `Infusion (${u.time})`, 'All targets (% ± SE)', 'Each target (% ± SE)', `Trough (${u.concentration}) median [5th–95th]`, `Peak (${u.concentration}) median [5th–95th]`, '']
@@ -45,6 +46,8 @@ export function renderProposals(host: HTMLElement, result: ProposeResult, tryRow
     basis ? h('p', { class: 'note' }, `Shares ± one Monte Carlo standard error √(p(1 − p)/N); trough and peak in the compartment of the first target, ${basis.percentileRule}.`) : null,
     h('p', { class: 'note' }, `Time to the window: ${result.timeToWindowDefinition}.`),
     basis?.loading ? h('p', { class: 'note' }, `Loading dose: ${basis.loading}.`) : null,
+    // Said in words, as the command line and the report say them (subjects without a steady state count as not attaining).
+    basis && notes.length ? h('ul', { class: 'warnings', 'data-testid': 'levels-proposal-notes' }, ...notes.map((p) => h('li', {}, `Rank ${p.rank}: ${p.note}`))) : null,
     ),
   );
 }
