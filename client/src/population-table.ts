@@ -329,9 +329,16 @@ export class CovariateTableEditor {
   }
 
   private renameColumn(from: string, to: string, k: number, input: HTMLInputElement): void {
+    const head = input.closest('th');
+    head?.querySelectorAll('.field-error').forEach((e) => e.remove());
+    input.removeAttribute('aria-invalid');
     if (to === from) return;
+    // The name as typed stays in the box, with the reason beside it, so it can be mended; the column keeps its name meanwhile.
     const refuse = (why: string) => {
-      input.value = from;
+      const id = `${fieldId(`covariate-column-${k}`)}-error`;
+      head?.append(h('p', { class: 'field-error', id, role: 'alert' }, why));
+      input.setAttribute('aria-invalid', 'true');
+      input.setAttribute('aria-describedby', id);
       this.hooks.announce(why);
     };
     if (!namePattern.test(to)) return refuse(`'${to}' is not a covariate name: a letter, then letters, digits or "_". Column ${from} keeps its name.`);
