@@ -8,6 +8,7 @@
  * and 5th–95th percentiles of the steady-state trough and peak, under the population's caution.
  */
 import type { Proposal, ProposeResult } from '../../models/regimen/propose.ts';
+import { formatNumber } from '../../models/result/format-number.ts';
 import { fmt } from '../../models/result/summary-text.ts';
 import { h } from './dom.ts';
 import { cautionNote, figureTable, present } from './levels-tables.ts';
@@ -75,8 +76,9 @@ function row(p: Proposal, i: number, result: ProposeResult, tryRow: (p: Proposal
   ];
 }
 
-function percentWithError(x: { probability: number; standardError: number }): string {
-  return `${(x.probability * 100).toFixed(1)}% ± ${(x.standardError * 100).toFixed(1)}`;
+/** "83.4% ± 1.7" (83% when the tenth is 0), written as the command line and the report write it. */
+export function percentWithError(x: { probability: number; standardError: number }): string {
+  return `${formatNumber(Number((x.probability * 100).toFixed(1)))}% ± ${formatNumber(Number((x.standardError * 100).toFixed(1)))}`;
 }
 
 function spread(x: { p5: number; p50: number; p95: number }): string {
