@@ -107,11 +107,17 @@ export function switchSource(population: TableRow, aside: SetAside, to: Covariat
   const wantDrawn = to !== 'table';
   const wantTable = to !== 'distributions';
   if (!wantDrawn && population.covariates !== undefined) {
-    aside.distributions = population.covariates;
+    // An empty set of distributions holds no typed work: nothing to set aside.
+    if (!isObject(population.covariates) || Object.keys(population.covariates).length > 0) aside.distributions = population.covariates;
     delete population.covariates;
-  } else if (wantDrawn && population.covariates === undefined && aside.distributions !== undefined) {
-    population.covariates = aside.distributions;
-    delete aside.distributions;
+  } else if (wantDrawn && population.covariates === undefined) {
+    if (aside.distributions !== undefined) {
+      population.covariates = aside.distributions;
+      delete aside.distributions;
+    } else if (to === 'both') {
+      // Nothing drawn yet: an empty set to add distributions to, or "both" would read back as "table" (covariateSource).
+      population.covariates = {};
+    }
   }
   if (!wantTable && population.covariateTable !== undefined) {
     aside.table = population.covariateTable;
