@@ -361,12 +361,17 @@ function run(args: string[], context: CliContext): CliOutcome {
       const result = simulate(input.value);
       if (!result.ok) return problems(result.problems, parsed.positional[0]);
       const r = result.value;
-      // The summary is read on a terminal: the title and warnings (user text) on one line each.
+      // The summary is read on a terminal: the title, warnings and subject ids (user text) on one line each.
       const text =
         format === 'csv'
           ? resultToCsv(r)
           : format === 'text'
-            ? summaryText({ ...r, title: visibleText(r.title), diagnostics: { ...r.diagnostics, warnings: r.diagnostics.warnings.map(visibleText) } })
+            ? summaryText({
+                ...r,
+                title: visibleText(r.title),
+                diagnostics: { ...r.diagnostics, warnings: r.diagnostics.warnings.map(visibleText) },
+                observations: r.observations.map((o) => ({ ...o, subject: o.subject === null ? null : visibleText(o.subject) })),
+              })
             : resultToJsonText(r, 2) + '\n';
       const warnings = input.notes.map((n) => `note: ${n}\n`).join('') + (format === 'text' ? '' : r.diagnostics.warnings.map((w) => `warning: ${visibleText(w)}\n`).join(''));
       return out !== undefined

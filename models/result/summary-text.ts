@@ -73,11 +73,17 @@ function measuredText(o: ObservationFit): string {
 /** The compartment's measured levels beside the model at their times, with clock times when there is a clock. */
 function measuredLevels(levels: readonly ObservationFit[], clock: ResultClock | null): string[] {
   if (levels.length === 0) return [];
-  const rows = [['time', ...(clock ? ['clock time'] : []), 'measured', 'model', 'residual']];
-  for (const o of levels) {
-    rows.push([fmt(o.time), ...(clock ? [clockAt(o.time, clock) ?? '—'] : []), measuredText(o), fmt(o.predicted), fmt(o.residual)]);
-  }
-  return ['  Measured levels (residual = measured − model):', indent(table(rows, clock ? [1] : []))];
+  // One table per subject (in the order they first appear), so two patients' levels never read as one series.
+  const subjects = [...new Set(levels.map((o) => o.subject))];
+  return subjects.flatMap((subject) => {
+    const rows = [['time', ...(clock ? ['clock time'] : []), 'measured', 'model', 'residual']];
+    for (const o of levels) {
+      if (o.subject !== subject) continue;
+      rows.push([fmt(o.time), ...(clock ? [clockAt(o.time, clock) ?? '—'] : []), measuredText(o), fmt(o.predicted), fmt(o.residual)]);
+    }
+    const whose = subject === null ? (subjects.length > 1 ? ' (no subject named)' : '') : ` of ${subject}`;
+    return [`  Measured levels${whose} (residual = measured − model):`, indent(table(rows, clock ? [1] : []))];
+  });
 }
 
 export function summaryText(result: SimulationResult, maxIntervals = 6): string {

@@ -84,4 +84,17 @@ describe('clock times in the text summary', () => {
     // Every line of the tables fits 80 columns.
     for (const line of text.split('\n').filter((l) => l.startsWith('  ') && !l.startsWith('  Window'))) expect(line.length).toBeLessThanOrEqual(80);
   });
+
+  it("lists each subject's levels in a table of its own, so two patients never read as one series", () => {
+    const scenario = sample('orvanix-levels.json') as { observations: { subject?: string }[] };
+    scenario.observations = scenario.observations.map((o, i) => ({ ...o, subject: i % 2 === 0 ? 'P-017' : 'P-018' }));
+    const text = summaryText(run(scenario));
+    const a = text.indexOf('Measured levels of P-017');
+    const b = text.indexOf('Measured levels of P-018');
+    expect(a).toBeGreaterThan(0);
+    expect(b).toBeGreaterThan(a);
+    // P-017's table holds the levels written at even positions only: 3 of the 6.
+    const first = text.slice(a, b).split('\n').filter((l) => /^ +\d/.test(l));
+    expect(first).toHaveLength(3);
+  });
 });
