@@ -2,7 +2,7 @@
  * Files: save the scenario as JSON, open one back, export the curves as CSV. The saved
  * file is the scenario object itself, so nothing the form does not show is lost.
  */
-import type { SimulationResultJson } from '../../models/result/result-format.ts';
+import { clockTimeIso, type SimulationResultJson } from '../../models/result/result-format.ts';
 import { download, slug } from './dom.ts';
 import { formProblem, type ScenarioDoc } from './store.ts';
 
@@ -42,7 +42,10 @@ function num(v: number | null | undefined): string {
 export function curvesCsv(result: SimulationResultJson): string {
   const u = result.units;
   const entries = Object.entries(result.compartments);
+  const clock = result.clock;
   const header = [`time (${u.time})`];
+  // The clock time beside each elapsed time when the scenario has a clock, as the command line's CSV.
+  if (clock) header.push('clock time');
   for (const [id, s] of entries) {
     header.push(`${id} amount (${u.amount})`);
     if (s.concentration) header.push(`${id} concentration (${u.concentration})`);
@@ -50,6 +53,7 @@ export function curvesCsv(result: SimulationResultJson): string {
   const lines = [header.map(csvField).join(',')];
   for (let r = 0; r < result.times.length; r++) {
     const row = [num(result.times[r])];
+    if (clock) row.push(clockTimeIso(result.times[r], clock));
     for (const [, s] of entries) {
       row.push(num(s.amount[r]));
       if (s.concentration) row.push(num(s.concentration[r]));

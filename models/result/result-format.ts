@@ -68,7 +68,7 @@ function csvField(text: string): string {
 }
 
 /** The ISO 8601 date-time (with its offset) of elapsed time `t` in the result's time unit, by the clock's own rule. */
-function clockTimeIso(t: number, clock: NonNullable<SimulationResult['clock']>): string {
+export function clockTimeIso(t: number, clock: NonNullable<SimulationResult['clock']>): string {
   return isoDateTime(clock.originMs + t * clock.hoursPerTimeUnit * 3_600_000, clock.zoneMinutes);
 }
 
