@@ -226,9 +226,9 @@ function regimenSection(doc: PDFKit.PDFDocument, model: Model, result: Simulatio
       columns: [
         { header: '#', width: 0.35, align: 'right' },
         { header: 'Label', width: clocked ? 0.9 : 1.1 },
-        { header: 'Regimen (one row per dose line)', width: clocked ? 2.9 : 4.7 },
-        // Wide enough for "first 2026-03-04 08:00 (+01:00)" on one line.
-        ...(clocked ? [{ header: 'Clock time of the doses', width: 2.65 }] : []),
+        { header: 'Regimen (one row per dose line)', width: clocked ? 2.75 : 4.7 },
+        // Wide enough for "first 2026-03-04 08:00:30 (+05:30)" (a time with seconds) on one line.
+        ...(clocked ? [{ header: 'Clock time of the doses', width: 2.8 }] : []),
         { header: 'Doses in span', width: clocked ? 0.75 : 0.7, align: 'right' },
         { header: 'Total', width: clocked ? 1.65 : 1.7, align: 'right' },
       ],
