@@ -168,7 +168,18 @@ export class LevelsImport {
       doc.observations = [...before, ...parsed.observations];
     });
     const n = parsed.observations.length;
-    const how = this.mode === 'append' ? (kept ? `, after the ${kept} already there` : '') : replaced ? `, in place of the ${replaced} there were` : '';
+    // Replacing a file reference is said in words, with the file's name: the scenario no longer names it.
+    const fileName = fromFile ? String((existing as { file?: unknown }).file ?? '') : '';
+    const how =
+      this.mode === 'append'
+        ? kept
+          ? `, after the ${kept} already there`
+          : ''
+        : fromFile
+          ? `, in place of the scenario's levels file${fileName ? ` "${fileName}"` : ''} (no longer named)`
+          : replaced
+            ? `, in place of the ${replaced} there were`
+            : '';
     const words = `Imported ${n} observation${n === 1 ? '' : 's'} from ${source.name}${how}.`;
     this.status.textContent = words;
     this.status.classList.remove('levels-import-refused');
