@@ -21,7 +21,7 @@ import { selectField } from './fields.ts';
 import { FitView, fitClockAt } from './fit-view.ts';
 import { postFit, postNca, postPropose, type FitAnswer, type LevelsOutcome } from './levels-api.ts';
 import { LevelsImport } from './levels-import.ts';
-import { ncaTables, cautionNote, markTerminalProblems, type TerminalHooks } from './levels-tables.ts';
+import { ncaTables, cautionNote, forgetTypedTerminals, markTerminalProblems, type TerminalHooks } from './levels-tables.ts';
 import type { FormHooks } from './model-form.ts';
 import type { PanelErrors } from './population-panel.ts';
 import { renderProposals } from './propose-view.ts';
@@ -495,6 +495,7 @@ export function setUpLevels(store: ScenarioStore, hooks: FormHooks, errors: Pane
       details.open = observations().length > 0 || s.fit !== undefined || s.propose !== undefined;
       clearOutputs();
       importer.reset();
+      forgetTypedTerminals();
       lastResult = null;
       render();
     } else if (kind === 'structure' && !formHost.contains(document.activeElement)) {

@@ -69,19 +69,34 @@ function terminalWords(p: ScenarioNcaProfile, timeUnit: string): string {
 }
 
 /**
+ * Times typed in a profile's box but not yet fixed, by subject and compartment: the tables are
+ * drawn again when another profile's line is fixed, and what was typed must survive that.
+ */
+const typedTerminals = new Map<string, string>();
+const profileKey = (subject: string | null, compartment: string) => JSON.stringify([subject, compartment]);
+
+/** Forgets the typed times (another scenario was opened: its profiles are others). */
+export function forgetTypedTerminals(): void {
+  typedTerminals.clear();
+}
+
+/**
  * "Terminal line from [time] Fix / Automatic": the control writes nca.terminal, the panel reruns.
  * Problems with the entry (a 400 at its path) go beside the field: markTerminalProblems.
  */
 function terminalControl(p: ScenarioNcaProfile, k: number, nca: ScenarioNca, hooks: TerminalHooks): HTMLElement {
   const own = hooks.own(p.subject, p.compartment);
   const id = `levels-terminal-from-${k}`;
-  const input = h('input', { type: 'text', id, class: 'levels-input', value: own && own.from !== 'automatic' ? own.from : '', placeholder: 'e.g. 96 h or 2026-03-08T08:00', autocomplete: 'off', spellcheck: 'false', 'data-testid': id, 'aria-describedby': `${id}-now` });
+  const key = profileKey(p.subject, p.compartment);
+  const written = own && own.from !== 'automatic' ? own.from : '';
+  const input = h('input', { type: 'text', id, class: 'levels-input', value: typedTerminals.get(key) ?? written, placeholder: 'e.g. 96 h or 2026-03-08T08:00', autocomplete: 'off', spellcheck: 'false', 'data-testid': id, 'aria-describedby': `${id}-now` });
   const fix = h('button', { type: 'button', 'data-testid': `levels-terminal-fix-${k}` }, 'Fix from this time');
   const automatic = h('button', { type: 'button', class: 'quiet', 'data-testid': `levels-terminal-automatic-${k}`, disabled: !p.terminalFixed && own === null }, 'Automatic');
   // An empty box fixes nothing: writing `from: ""` would leave the scenario invalid (and every run refused) until mended.
   const fixTyped = () => {
     control.querySelectorAll('.field-error').forEach((e) => e.remove());
     if (input.value.trim() !== '') {
+      typedTerminals.delete(key);
       hooks.fix(p.subject, p.compartment, input.value);
       return;
     }
@@ -92,13 +107,17 @@ function terminalControl(p: ScenarioNcaProfile, k: number, nca: ScenarioNca, hoo
     input.focus();
   };
   fix.addEventListener('click', fixTyped);
+  input.addEventListener('input', () => (input.value === written ? typedTerminals.delete(key) : typedTerminals.set(key, input.value)));
   input.addEventListener('keydown', (e) => {
     if (e.key === 'Enter') {
       e.preventDefault();
       fixTyped();
     }
   });
-  automatic.addEventListener('click', () => hooks.automatic(p.subject, p.compartment));
+  automatic.addEventListener('click', () => {
+    typedTerminals.delete(key);
+    hooks.automatic(p.subject, p.compartment);
+  });
   // A fixed line of too few levels is flagged; the flag is repeated here, where it can be mended.
   const few = p.terminalFixed ? p.result.flags.filter((f) => f.figure === 'terminalRate' && f.message.startsWith(p.terminalFixed?.path ?? '')) : [];
   const control = h(
