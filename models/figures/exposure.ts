@@ -5,6 +5,7 @@
  * slope and threshold crossings as roots of C − level, on the continuous solution.
  */
 import type { Model } from '../building/model.ts';
+import type { Schedule } from '../building/events.ts';
 import type { StateLayout } from '../building/system.ts';
 import { CurveProbe } from './curve-probe.ts';
 import { refineRoot } from './root-finding.ts';
@@ -197,6 +198,32 @@ function membership(times: Float64Array, members: Float64Array): Uint8Array {
   return out;
 }
 
+/** Breakpoint times per schedule: a population's subjects share one schedule and read many windows of it. */
+const breakpointTimes = new WeakMap<Schedule, Float64Array>();
+
+/** The schedule's breakpoint times in [from, to], a view of its (cached) times found by bisection, not a filtered copy. */
+function breakpointTimesWithin(schedule: Schedule, from: number, to: number): Float64Array {
+  let times = breakpointTimes.get(schedule);
+  if (!times) {
+    times = new Float64Array(schedule.breakpoints.length);
+    for (let k = 0; k < times.length; k++) times[k] = schedule.breakpoints[k].time;
+    breakpointTimes.set(schedule, times);
+  }
+  return times.subarray(firstAtLeast(times, from), firstAtLeast(times, to, true));
+}
+
+/** The first index whose time is ≥ t (> t when `after`), in ascending times. */
+function firstAtLeast(times: Float64Array, t: number, after = false): number {
+  let lo = 0;
+  let hi = times.length;
+  while (lo < hi) {
+    const mid = (lo + hi) >>> 1;
+    if (after ? times[mid] <= t : times[mid] < t) lo = mid + 1;
+    else hi = mid;
+  }
+  return lo;
+}
+
 /** A part of the span to read figures over (one dosing interval of a virtual subject, say). */
 export interface FigureWindow {
   start: number;
@@ -212,7 +239,7 @@ export interface FigureWindow {
 export function exposureFigures(whole: Model, layout: StateLayout, probe: CurveProbe, window?: FigureWindow): CompartmentFigures[] {
   const model: Model = window ? { ...whole, start: window.start, end: window.end } : whole;
   const schedule = probe.schedule;
-  const bpTimes = Float64Array.from(schedule.breakpoints, (b) => b.time).filter((t) => t >= model.start && t <= model.end);
+  const bpTimes = breakpointTimesWithin(schedule, model.start, model.end);
   const starts = intervalStarts(model, bpTimes);
   const scan = mergeTimes([probe.trajectory.knots(model.start, model.end), bpTimes, starts, Float64Array.of(model.start, model.end)]).filter(
     (t) => t >= model.start && t <= model.end,

@@ -415,7 +415,10 @@ export class LinearTrajectory implements Trajectory {
 
   /** State just after the breakpoint that opens piece k. */
   pieceState(k: number, out: Float64Array): void {
-    out.set(this.states.subarray(k * this.dimension, (k + 1) * this.dimension));
+    // A copy by index: a subarray per piece would be garbage made for every dose of every subject.
+    const n = this.dimension;
+    const states = this.states;
+    for (let i = 0, at = k * n; i < n; i++) out[i] = states[at + i];
   }
 
   pieceKey(k: number): number {
@@ -444,7 +447,7 @@ export class LinearTrajectory implements Trajectory {
     const n = this.dimension;
     const k = this.locate(t, side);
     if (t <= this.times[k]) {
-      out.set(this.states.subarray(k * n, (k + 1) * n));
+      this.pieceState(k, out);
       return;
     }
     // Shortly after one of the last two rows sampled, in the same piece: one short step from there.
