@@ -87,6 +87,45 @@ function productFor(rowStart: Int32Array, cols: Int32Array, n: number): Product 
   return product;
 }
 
+/**
+ * A run of rows of a regular grid within one piece, amounts only: `count` times
+ * x ← Φ_lead·x + g_lead, each new state's picked amounts divided by their volumes into
+ * out[bases[b] + row0 + r] — the arithmetic of applyLeading row by row (the same bits), with
+ * the state in local variables rather than loaded and stored at every row.
+ */
+type LeadingRun = (vals: Float64Array, g: Float64Array, x: Float64Array, count: number, out: Float32Array, bases: Int32Array, volumes: Float64Array, row0: number) => void;
+
+const leadingRuns = new Map<string, LeadingRun | null>();
+
+/** The leading run for p's pattern and these picks (code generated once per pattern), or null. */
+function leadingRunFor(p: SparsePropagator, picks: Int32Array): LeadingRun | null {
+  const L = p.leadingRows;
+  const end = p.rowStart[L];
+  const key = `${L}|${Array.from(p.rowStart.subarray(0, L + 1)).join(',')}|${Array.from(p.cols.subarray(0, end)).join(',')}|${Array.from(picks).join(',')}`;
+  if (leadingRuns.has(key)) return leadingRuns.get(key) ?? null;
+  if (leadingRuns.size >= MAX_PRODUCTS) leadingRuns.clear();
+  let run: LeadingRun | null = null;
+  if (codeGenerationEnabled() && end <= 4096) {
+    const lines: string[] = ['"use strict";'];
+    for (let j = 0; j < L; j++) lines.push(`let x${j} = x[${index(j)}];`, `const g${j} = g[${index(j)}];`);
+    for (let e = 0; e < end; e++) lines.push(`const v${e} = vals[${index(e)}];`);
+    picks.forEach((_, b) => lines.push(`const w${b} = volumes[${index(b)}];`, `const o${b} = bases[${index(b)}] + row0;`));
+    lines.push('for (let r = 0; r < count; r++) {');
+    for (let i = 0; i < L; i++) {
+      let expr = `g${i}`;
+      for (let e = p.rowStart[i]; e < p.rowStart[i + 1]; e++) expr += ` + v${e} * x${index(p.cols[e])}`;
+      lines.push(`const y${i} = ${expr};`);
+    }
+    for (let i = 0; i < L; i++) lines.push(`x${i} = y${i};`);
+    picks.forEach((c, b) => lines.push(`out[o${b} + r] = x${index(c)} / w${b};`));
+    lines.push('}');
+    for (let j = 0; j < L; j++) lines.push(`x[${index(j)}] = x${j};`);
+    run = compileSource<LeadingRun>(['vals', 'g', 'x', 'count', 'out', 'bases', 'volumes', 'row0'], lines.join('\n'));
+  }
+  leadingRuns.set(key, run);
+  return run;
+}
+
 function sparsePropagator(p: Propagator, n: number, leadingRows: number): SparsePropagator {
   const cols: number[] = [];
   const vals: number[] = [];
@@ -610,6 +649,10 @@ export class LinearTrajectory implements Trajectory {
     // The propagator of the last step, kept while steps repeat (a regular grid) in one piece.
     let step: SparsePropagator | null = null;
     let stepH = NaN;
+    // Concentrations into `out`: the generated run for the step in use (see leadingRunFor).
+    let runStep: SparsePropagator | null = null;
+    let run: LeadingRun | null = null;
+    const bases = picks ? Int32Array.from(picks, (_, b) => b * stride) : new Int32Array(0);
     for (let row = 0; row < times.length; row++) {
       const t = times[row];
       // Rows ascend, so the piece only moves forward: the last one starting before t (left
@@ -630,8 +673,28 @@ export class LinearTrajectory implements Trajectory {
           step = this.matrixNorm * h > FIRST_STEP_ACTION_LIMIT ? this.cache.get(h, this.keys[k]) : this.cache.getIfRepeated(h, this.keys[k]);
           stepH = h;
         }
-        if (step && amountsOnly && step.leadingRows > highestPick) applyLeading(step, x, next);
-        else if (step) apply(step, x, n, next);
+        if (step && amountsOnly && step.leadingRows > highestPick) {
+          if (step !== runStep) {
+            runStep = step;
+            run = picks && picks.length > 0 ? leadingRunFor(step, picks) : null;
+          }
+          if (run && out && volumes) {
+            // The rows that follow at the same step in this piece go in one run.
+            let count = 1;
+            for (let r = row + 1; r < times.length; r++) {
+              const tr = times[r];
+              const hr = tr - times[r - 1];
+              const leaves = k < last && (sides[r] === 0 ? starts[k + 1] < tr : starts[k + 1] <= tr);
+              if (leaves || !(hr > 0) || Math.abs(hr - stepH) > 1e-12 * hr) break;
+              count++;
+            }
+            run(step.vals, step.g, x, count, out, bases, volumes, row);
+            row += count - 1;
+            at = times[row];
+            continue;
+          }
+          applyLeading(step, x, next);
+        } else if (step) apply(step, x, n, next);
         else this.act(x, h, this.inputs[this.keys[k]], next);
         const swap = x;
         x = next;
