@@ -7,18 +7,7 @@
 import { describe, expect, it } from 'vitest';
 import { percentileOfSorted } from '../../models/population/percentiles.ts';
 import { TrackedPercentiles } from '../../models/population/tracked-percentiles.ts';
-
-/** A small deterministic generator (mulberry32, common practice for reproducible test data). */
-function generator(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+import { mulberry32 } from '../helpers/mulberry32.ts';
 
 function byDefinition(values: Float64Array, percentiles: number[]): number[] {
   const sorted = values.slice().sort();
@@ -27,7 +16,7 @@ function byDefinition(values: Float64Array, percentiles: number[]): number[] {
 
 /** Samples of n subjects over `times` steps: random walks, with jumps, ties and constant stretches. */
 function* series(n: number, times: number, seed: number): Generator<Float64Array> {
-  const random = generator(seed);
+  const random = mulberry32(seed);
   const x = Float64Array.from({ length: n }, () => random());
   for (let t = 0; t < times; t++) {
     const phase = Math.floor(t / 25) % 4;

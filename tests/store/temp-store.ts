@@ -11,6 +11,7 @@ import Database from 'better-sqlite3';
 import type { Db } from '../../server/store/open.ts';
 import { openStore } from '../../server/store/open.ts';
 import { storeFileName } from '../../server/store/location.ts';
+import { mulberry32 } from '../helpers/mulberry32.ts';
 
 export const repoRoot = fileURLToPath(new URL('../../', import.meta.url));
 
@@ -132,18 +133,6 @@ export async function sendJson(base: string, method: string, path: string, body:
   return { status: res.status, body: parsed };
 }
 
-/** Mulberry32: a small seeded generator, so a kill check's delays can be repeated (common practice). */
-export function seededRandom(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
-
 /** A version the server acknowledged (200 or 201), with the JSON text it must keep. */
 export interface Acknowledged {
   id: number;
@@ -246,7 +235,7 @@ export interface KillRound {
  * the store is available. One data folder for all rounds, so each restart recovers the last.
  */
 export async function killRounds(main: string, folder: string, rounds: number, seed: number, onRound?: (r: KillRound) => void): Promise<KillRound[]> {
-  const random = seededRandom(seed);
+  const random = mulberry32(seed);
   const file = join(folder, storeFileName);
   const all: Acknowledged[] = [];
   const results: KillRound[] = [];
