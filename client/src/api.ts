@@ -3,6 +3,7 @@
  * exception object or server text other than the listed problems reaches the user.
  */
 import type { SimulationResultJson } from '../../models/result/result-format.ts';
+import { blankCellProblems } from './covariate-table-model.ts';
 
 export interface Problem {
   path: string;
@@ -47,6 +48,15 @@ export function failureOf(status: number, body: unknown, action: 'run' | 'report
   }
 }
 
+/**
+ * What the page refuses itself before sending, as a 400 would read, so the problems go beside
+ * their fields the same way: an empty covariate cell is never sent. Null: send it.
+ */
+export function refusedBeforeSending(scenario: unknown): Failure | null {
+  const problems = blankCellProblems(scenario);
+  return problems.length > 0 ? { kind: 'invalid', problems } : null;
+}
+
 function problemsOf(v: unknown): Problem[] {
   if (!isProblemList(v)) return [];
   return v.problems.map((p) => ({ path: typeof p.path === 'string' ? p.path : '', message: p.message }));
@@ -73,6 +83,8 @@ const unreachable = 'The Tidemark server could not be reached. Check that it is 
  * exactly) the library records the run; `recorded` is the server's X-Tidemark-Run answer.
  */
 export async function simulate(scenario: unknown, signal: AbortSignal, record?: { id: number; version: number }): Promise<SimulateOutcome> {
+  const refused = refusedBeforeSending(scenario);
+  if (refused) return refused;
   let res: Response;
   const query = record ? `?${new URLSearchParams({ scenario: String(record.id), version: String(record.version) })}` : '';
   try {

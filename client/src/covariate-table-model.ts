@@ -5,6 +5,8 @@
  * scenario holds rows of { name: value } (population.covariateTable.rows); the columns are read
  * from them each time, so nothing is stored twice.
  */
+import { covariateNameProblem } from '../../models/scenario/covariate-name.ts';
+import type { Problem } from './api.ts';
 import { isNumberText } from './quantity.ts';
 
 export type TableRow = Record<string, unknown>;
@@ -59,7 +61,8 @@ export function cellText(value: unknown, unit: string | null): string {
 /**
  * What typing in a cell writes, by the command line's CSV rule: a number in a column with a unit
  * becomes "64 kg", a number without one stays a number, anything else (a category word, a
- * quantity with its own unit, a typo) is kept as typed for the server to read or name.
+ * quantity with its own unit, a typo) is kept as typed for the server to read or name. A blank
+ * cell is kept blank (the column stays in place) and refused before sending: blankCellProblems.
  */
 export function cellValue(text: string, unit: string | null): string | number {
   const t = text.trim();
@@ -126,4 +129,66 @@ export function switchSource(population: TableRow, aside: SetAside, to: Covariat
     population.covariateTable = aside.table ?? fresh();
     delete aside.table;
   }
+}
+
+/** Where the table's rows are in the scenario. */
+export const rowsPath = 'population.covariateTable.rows';
+/** The most empty cells named at once; the rest are counted in one line. */
+const maxBlankProblems = 20;
+
+function isBlank(value: unknown): boolean {
+  return value === undefined || value === null || (typeof value === 'string' && value.trim() === '');
+}
+
+/**
+ * The covariate table's empty cells, each at its own path with the row as the page numbers it
+ * (from 1), found before the scenario is sent: the server would refuse an empty string, and a row
+ * without a covariate would silently take the scenario subject's value. A cell shown in the grid
+ * counts, so a row missing a column the other rows have is named too. Columns whose names break
+ * the covariate-name rule are left to that rule's problem (their cells have no path of their own).
+ */
+export function blankCellProblems(scenario: unknown): Problem[] {
+  const population = isObject(scenario) ? scenario.population : undefined;
+  const table = isObject(population) ? population.covariateTable : undefined;
+  const rows = isObject(table) ? table.rows : undefined;
+  if (!Array.isArray(rows)) return [];
+  const columns = tableColumns(rows).filter((c) => covariateNameProblem(c.name) === null);
+  const problems: Problem[] = [];
+  let more = 0;
+  rows.forEach((row, i) => {
+    for (const c of columns) {
+      if (!isBlank(isObject(row) ? row[c.name] : undefined)) continue;
+      if (problems.length < maxBlankProblems) problems.push({ path: `${rowsPath}[${i}].${c.name}`, message: `row ${i + 1}, ${c.name}: empty; every subject needs a value` });
+      else more++;
+    }
+  });
+  if (more > 0) problems.push({ path: rowsPath, message: `and ${more} more empty cell${more === 1 ? '' : 's'}` });
+  return problems;
+}
+
+/**
+ * What the table editor keeps beside the scenario, as the page's draft stores it: the set-aside
+ * source and the units of columns with no number written yet (they are in no cell).
+ */
+export interface KeptTable {
+  aside: SetAside;
+  units: Map<string, string>;
+}
+
+/** The draft's form of KeptTable (JSON); undefined when there is nothing to keep. */
+export function writeKeptTable(kept: KeptTable): { aside?: SetAside; units?: Record<string, string> } | undefined {
+  const hasAside = kept.aside.distributions !== undefined || kept.aside.table !== undefined;
+  if (!hasAside && kept.units.size === 0) return undefined;
+  return { ...(hasAside ? { aside: kept.aside } : {}), ...(kept.units.size > 0 ? { units: Object.fromEntries(kept.units) } : {}) };
+}
+
+/** KeptTable read back from the draft, keeping only what has the right shape (a draft of another page version may differ). */
+export function readKeptTable(value: unknown): KeptTable {
+  const kept: KeptTable = { aside: {}, units: new Map() };
+  if (!isObject(value)) return kept;
+  const aside = value.aside;
+  if (isObject(aside) && isObject(aside.distributions)) kept.aside.distributions = aside.distributions;
+  if (isObject(aside) && isObject(aside.table)) kept.aside.table = aside.table;
+  if (isObject(value.units)) for (const [name, unit] of Object.entries(value.units)) if (typeof unit === 'string' && unit !== '') kept.units.set(name, unit);
+  return kept;
 }

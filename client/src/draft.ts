@@ -2,7 +2,9 @@
  * Nothing typed is lost: the scenario on screen is compared with what it was opened from (or
  * last saved as) by fingerprint, and while it differs it is kept in localStorage as a draft,
  * with the time and its origin. On start a kept draft that differs from what the page opens is
- * offered back (Restore / Discard); it is never dropped without the user choosing.
+ * offered back (Restore / Discard); it is never dropped without the user choosing. Work the page
+ * holds beside the scenario, not in it (the covariate source set aside), is kept in the same
+ * draft and given back with it.
  */
 import { scenarioFingerprint } from '../../models/scenario/fingerprint.ts';
 import { h } from './dom.ts';
@@ -22,6 +24,21 @@ export interface Draft {
   origin: Origin;
   /** Fingerprint of what the draft was edited from, so a restored draft is still "unsaved". */
   baseFingerprint: string;
+  /** What the page kept beside the scenario, by keeper name (see KeptBeside); absent when nothing. */
+  beside?: Record<string, unknown>;
+}
+
+/**
+ * Work a part of the page keeps beside the scenario (never sent, saved or exported with it),
+ * written into the draft with the scenario so a restored draft brings it back.
+ */
+export interface KeptBeside {
+  /** What to keep now (JSON); undefined when there is nothing. */
+  read(): unknown;
+  /** Gives back what the restored draft held (undefined when it held nothing), after the scenario is on screen. */
+  restore(value: unknown): void;
+  /** The keeper calls `listener` when what it holds changes without a change to the scenario. */
+  onChange(listener: () => void): void;
 }
 
 export const draftKey = 'tidemark.draft';
@@ -75,6 +92,8 @@ export function readDraft(storage: Storage): Draft | null {
     const d = JSON.parse(text) as Partial<Draft>;
     if (typeof d.scenario !== 'object' || d.scenario === null || Array.isArray(d.scenario)) return null;
     if (typeof d.keptAt !== 'string' || typeof d.baseFingerprint !== 'string' || !isOrigin(d.origin)) return null;
+    // Kept work beside the scenario that cannot be read is dropped; the scenario itself is not.
+    if (d.beside !== undefined && (typeof d.beside !== 'object' || d.beside === null || Array.isArray(d.beside))) delete d.beside;
     return d as Draft;
   } catch {
     return null;
@@ -112,6 +131,7 @@ export class WorkTracker {
   private timer: ReturnType<typeof setTimeout> | null = null;
   private quotaReported = false;
   private listeners = new Set<WorkListener>();
+  private keepers = new Map<string, KeptBeside>();
   private dirtyCache: { revision: number; dirty: boolean } | null = null;
   /** A draft from before that the user has not yet restored or discarded. */
   held: Draft | null = null;
@@ -127,6 +147,17 @@ export class WorkTracker {
 
   onChange(fn: WorkListener): void {
     this.listeners.add(fn);
+  }
+
+  /** Keeps `keeper`'s work in the draft under `name`, written whenever it changes. */
+  keepBeside(name: string, keeper: KeptBeside): void {
+    this.keepers.set(name, keeper);
+    keeper.onChange(() => this.writeSoon());
+  }
+
+  /** Gives each keeper back what the restored `draft` held for it; call once the draft's scenario is on screen. */
+  restoreBeside(draft: Draft): void {
+    for (const [name, keeper] of this.keepers) keeper.restore(draft.beside?.[name]);
   }
 
   /** The stored scenario and version the screen is linked to, or null. */
@@ -197,7 +228,10 @@ export class WorkTracker {
   }
 
   private current(): Draft {
-    return { scenario: this.store.scenario, keptAt: new Date().toISOString(), origin: this.origin, baseFingerprint: this.baseFingerprint };
+    const draft: Draft = { scenario: this.store.scenario, keptAt: new Date().toISOString(), origin: this.origin, baseFingerprint: this.baseFingerprint };
+    const beside = [...this.keepers].map(([name, keeper]) => [name, keeper.read()] as const).filter(([, value]) => value !== undefined);
+    if (beside.length > 0) draft.beside = Object.fromEntries(beside);
+    return draft;
   }
 
   private write(draft: Draft): boolean {

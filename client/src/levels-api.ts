@@ -6,7 +6,7 @@
 import type { ScenarioNca } from '../../models/levels/nca-scenario.ts';
 import type { FitResult } from '../../models/fitting/result.ts';
 import type { ProposeResult } from '../../models/regimen/propose.ts';
-import { failureOf, unreachable, type Failure } from './api.ts';
+import { failureOf, refusedBeforeSending, unreachable, type Failure } from './api.ts';
 
 /** The fit as the API answers it: the result and the server's caution. */
 export type FitAnswer = FitResult & { caution: string };
@@ -25,6 +25,8 @@ function isObject(v: unknown): v is Record<string, unknown> {
 }
 
 async function post<T>(route: string, scenario: unknown, signal: AbortSignal, ok: (v: unknown) => v is T): Promise<LevelsOutcome<T>> {
+  const refused = refusedBeforeSending(scenario);
+  if (refused) return refused;
   let res: Response;
   try {
     res = await fetch(route, { method: 'POST', headers: { 'content-type': 'application/json', accept: 'application/json' }, body: JSON.stringify(scenario), signal });

@@ -25,6 +25,7 @@ import { addReportButton, type IssueTarget } from './report.ts';
 import { emptyScenario, formProblem, ScenarioStore, type ScenarioDoc } from './store.ts';
 import { renderPrintSummary } from './print-summary.ts';
 import { setUpPopulation } from './population-panel.ts';
+import { covariateTableKept } from './population-table.ts';
 import { setUpLevels } from './levels-panel.ts';
 import { setSubjectOutcome, subjectOutcome } from './covariate-relations.ts';
 import { SubjectForm } from './subject-form.ts';
@@ -88,6 +89,8 @@ const regimenForm = new RegimenForm(store, byId('regimen-form'), hooks);
 const outputForm = new OutputForm(store, byId('output-form'), hooks);
 const population = setUpPopulation(store, hooks, errors);
 const subjectForm = new SubjectForm(store, byId('subject-form'), hooks.rerender);
+// The covariate source set aside (and the table's remembered units) is kept in the draft beside the scenario, not in it.
+tracker.keepBeside('covariateTable', covariateTableKept(() => hooks.rerender()));
 
 function renderScenarioFields(): void {
   const host = byId('scenario-fields');
@@ -367,6 +370,7 @@ async function restoreDraft(draft: Draft): Promise<void> {
   // Writing resumes with the restored scenario itself, still unsaved against its origin.
   tracker.held = null;
   load(structuredClone(draft.scenario), draft.origin, draft.baseFingerprint);
+  tracker.restoreBeside(draft);
   sampleSelect.value = draft.origin.kind === 'sample' ? draft.origin.id : '';
   shownSample = sampleSelect.value;
   announce(`Restored the unsaved work “${store.scenario.title ?? 'untitled'}”.`);

@@ -3,7 +3,7 @@
  * ask how it goes, cancel it. The result's type is the engine's own (models/population/summary.ts).
  */
 import type { PopulationResult } from '../../models/population/summary.ts';
-import { failureOf, unreachable, type Failure, type Problem } from './api.ts';
+import { failureOf, refusedBeforeSending, unreachable, type Failure, type Problem } from './api.ts';
 
 export type StartOutcome = { kind: 'started'; id: string } | Failure;
 
@@ -28,6 +28,8 @@ function problemsIn(body: unknown): Problem[] {
 }
 
 export async function startPopulation(scenario: unknown): Promise<StartOutcome> {
+  const refused = refusedBeforeSending(scenario);
+  if (refused) return refused;
   let res: Response;
   try {
     res = await fetch('api/population', {

@@ -5,13 +5,18 @@
  * columns added and removed, and CSV pasted or imported by the command line's rules
  * (models/population/covariate-csv.ts). A CSV with any bad cell applies nothing; its problems are
  * listed beside the lines they are on. Every cell carries its JSON path
- * (population.covariateTable.rows[i].name), so the server's problems land beside it.
+ * (population.covariateTable.rows[i].name), so problems land beside it; an empty cell is refused
+ * before sending (covariate-table-model.ts blankCellProblems). A column whose name breaks the
+ * covariate-name rule (only possible from an opened file) is named under the grid and its cells
+ * are read-only until it is renamed, since writing by its path would nest the value.
  *
- * What the other choice held when the user switched away from it is kept aside on this page
- * until it is chosen again or discarded: switching never loses typed work.
+ * What the other choice held when the user switched away from it is kept aside until it is
+ * chosen again or discarded: switching never loses typed work. It is kept in the page's draft
+ * of unsaved work too (draft.ts, KeptBeside), so a reload that restores the work restores it.
  */
 import '../population-table.css';
 import { parseCovariateCsv } from '../../models/population/covariate-csv.ts';
+import { covariateNameProblem } from '../../models/scenario/covariate-name.ts';
 import { fieldId, h } from './dom.ts';
 import { button, selectField } from './fields.ts';
 import type { FormHooks } from './model-form.ts';
@@ -19,23 +24,25 @@ import {
   cellText,
   cellValue,
   covariateSource,
+  readKeptTable,
   relabel,
   renameKey,
+  rowsPath,
   switchSource,
   tableColumns,
   type CovariateSource,
   type SetAside,
   type TableColumn,
   type TableRow,
+  writeKeptTable,
 } from './covariate-table-model.ts';
+import type { KeptBeside } from './draft.ts';
 import type { ScenarioStore } from './store.ts';
 
 function isObject(v: unknown): v is TableRow {
   return typeof v === 'object' && v !== null && !Array.isArray(v);
 }
 
-const namePattern = /^[A-Za-z][A-Za-z0-9_]{0,39}$/;
-const rowsPath = 'population.covariateTable.rows';
 /** Rows drawn as inputs; a longer table (up to 100,000 rows) is kept whole but not drawn. */
 const maxShownRows = 500;
 
@@ -59,12 +66,41 @@ const state = {
   unfolded: false,
 };
 
+/** Told when what the editor keeps beside the scenario changes without a change to it (a discard), so the draft is rewritten; one keeper per page. */
+let asideChanged: () => void = () => undefined;
+
+/**
+ * The set-aside source (and the units of columns with no number yet) as the page's draft keeps
+ * them beside the scenario: written with the draft of unsaved work and given back when that
+ * draft is restored after a reload. `rerender` redraws the forms once they are back.
+ */
+export function covariateTableKept(rerender: () => void): KeptBeside {
+  return {
+    read: () => writeKeptTable(state),
+    restore: (value) => {
+      const kept = readKeptTable(value);
+      state.aside = kept.aside;
+      state.units = kept.units;
+      asideChanged();
+      rerender();
+    },
+    onChange: (fn) => {
+      asideChanged = fn;
+    },
+  };
+}
+
 /** A new scenario was opened: what was kept for the old one goes. */
 export function forgetCovariateTable(): void {
   state.aside = {};
   state.units.clear();
   state.paste = { open: false, text: '', source: '', problems: [] };
   state.unfolded = false;
+}
+
+/** The id of the note under the grid naming a column's bad name. */
+function columnProblemId(k: number): string {
+  return fieldId(`covariate-column-${k}-name-problem`);
 }
 
 const sourceWords: Record<CovariateSource, string> = {
@@ -125,13 +161,14 @@ export class CovariateTableEditor {
         : `a covariate table of ${plural(isObject(kept) && Array.isArray(kept.rows) ? kept.rows.length : 0, 'row')}${isObject(kept) && typeof kept.file === 'string' ? ` (file ${kept.file})` : ''}`;
     const discard = button(kind === 'distributions' ? 'Discard them' : 'Discard it', { class: 'quiet small', 'data-testid': `discard-aside-${kind}`, 'data-focus-key': `discard-aside-${kind}` }, () => {
       delete state.aside[kind];
+      asideChanged();
       this.hooks.rerender(`key:covariate-source:${this.source}`);
       this.hooks.announce(`Discarded the ${kind === 'distributions' ? 'covariate distributions' : 'covariate table'} set aside.`);
     });
     return h(
       'p',
       { class: 'note aside-note', 'data-testid': `aside-${kind}` },
-      `Set aside: ${what}, typed before the switch. Not used or saved while ${kind === 'distributions' ? 'only the table is' : 'only distributions are'} chosen; choose “${kind === 'distributions' ? sourceWords.distributions : sourceWords.table}” to use ${kind === 'distributions' ? 'them' : 'it'} again. `,
+      `Set aside: ${what}, typed before the switch. Not used, and not in a saved or exported scenario, while ${kind === 'distributions' ? 'only the table is' : 'only distributions are'} chosen; kept in this browser with the unsaved work, so restoring that work after a reload brings ${kind === 'distributions' ? 'them' : 'it'} back. Choose “${kind === 'distributions' ? sourceWords.distributions : sourceWords.table}” to use ${kind === 'distributions' ? 'them' : 'it'} again. `,
       discard,
     );
   }
@@ -196,6 +233,10 @@ export class CovariateTableEditor {
   }
 
   private grid(columns: TableColumn[], rows: TableRow[]): HTMLElement {
+    const nameProblems = columns.map((c, k) => {
+      const problem = covariateNameProblem(c.name);
+      return problem === null ? null : h('p', { class: 'csv-problem', id: columnProblemId(k), 'data-testid': `covariate-column-problem-${k}` }, `Column ${k + 1}: ${problem}. Rename it in its header; its cells cannot be edited until then.`);
+    });
     const head = h(
       'tr',
       {},
@@ -208,7 +249,7 @@ export class CovariateTableEditor {
         'tr',
         {},
         h('th', { scope: 'row', class: 'row-number' }, String(i + 1)),
-        ...columns.map((c) => h('td', {}, this.cell(row, i, c))),
+        ...columns.map((c, k) => h('td', {}, this.cell(row, i, c, k))),
         h('td', { class: 'remove-cell' }, button('×', { class: 'quiet small', 'data-focus-key': `remove-table-row-${i}`, 'aria-label': `Remove row ${i + 1}`, title: `Remove row ${i + 1}` }, () => this.removeRow(i))),
       ),
     );
@@ -229,6 +270,7 @@ export class CovariateTableEditor {
       {},
       // The wrapper carries the rows' path, so a problem with the rows as a whole is shown under the grid.
       h('div', { class: 'table-scroll', 'data-path': rowsPath, tabindex: '-1' }, table),
+      ...nameProblems.filter((x): x is HTMLParagraphElement => x !== null),
       empty,
       h(
         'div',
@@ -244,11 +286,16 @@ export class CovariateTableEditor {
     name.addEventListener('change', () => this.renameColumn(c.name, name.value.trim(), k, name));
     const unit = h('input', { type: 'text', class: 'column-unit', value: c.unit ?? '', placeholder: 'unit', 'aria-label': `Unit of ${c.name}`, title: 'The unit of this column’s numbers (empty: plain numbers or words). Changing it relabels the numbers; it does not convert them.', 'data-focus-key': `table-column-unit-${k}`, 'data-testid': `table-column-unit-${k}`, autocomplete: 'off', spellcheck: 'false', maxlength: '20' });
     unit.addEventListener('change', () => this.setColumnUnit(c, unit.value.trim(), k));
+    if (covariateNameProblem(c.name) !== null) name.setAttribute('aria-describedby', columnProblemId(k));
     const remove = button('×', { class: 'quiet small', 'aria-label': `Remove column ${c.name}`, title: `Remove column ${c.name}`, 'data-focus-key': `remove-table-column-${k}` }, () => this.removeColumn(c.name));
     return h('th', { scope: 'col', class: 'column-head' }, name, h('div', { class: 'column-unit-line' }, unit, remove));
   }
 
-  private cell(row: TableRow, i: number, c: TableColumn): HTMLElement {
+  private cell(row: TableRow, i: number, c: TableColumn, k: number): HTMLElement {
+    if (covariateNameProblem(c.name) !== null) {
+      // Its path would nest ("rows[0].a.b"): shown, not bound, until the column is renamed.
+      return h('input', { type: 'text', value: cellText(row[c.name], c.unit), readonly: true, 'aria-label': `Row ${i + 1}, ${c.name} (read-only until the column is renamed)`, 'aria-describedby': columnProblemId(k), class: 'table-cell' });
+    }
     const path = `${rowsPath}[${i}].${c.name}`;
     const input = h('input', {
       type: 'text',
@@ -260,7 +307,11 @@ export class CovariateTableEditor {
       spellcheck: 'false',
       class: 'table-cell',
     });
-    input.addEventListener('input', () => this.store.set(path, cellValue(input.value, c.unit)));
+    input.addEventListener('input', () => {
+      // The unit is remembered, so it outlives the column's last number being cleared (and a reload, via the draft).
+      if (c.unit !== null) state.units.set(c.name, c.unit);
+      this.store.set(path, cellValue(input.value, c.unit));
+    });
     return input;
   }
 
@@ -341,7 +392,8 @@ export class CovariateTableEditor {
       input.setAttribute('aria-describedby', id);
       this.hooks.announce(why);
     };
-    if (!namePattern.test(to)) return refuse(`'${to}' is not a covariate name: a letter, then letters, digits or "_". Column ${from} keeps its name.`);
+    const problem = covariateNameProblem(to);
+    if (problem !== null) return refuse(`${problem}. Column ${from} keeps its name.`);
     if (tableColumns(this.rows).some((c) => c.name === to)) return refuse(`There is already a column named ${to}; choose another name.`);
     const unit = state.units.get(from);
     if (unit !== undefined) {

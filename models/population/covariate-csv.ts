@@ -7,11 +7,11 @@
  * (`line N, …` for text with no file name, such as text pasted on the page); no row is ever
  * dropped. Pure text: the command line reads the file, the page reads what is pasted or chosen.
  */
+import { covariateNameProblem } from '../scenario/covariate-name.ts';
 import { isBlankRecord, splitCsv } from '../scenario/csv.ts';
 
 export type CovariateRow = Record<string, number | string>;
 
-const namePattern = /^[A-Za-z][A-Za-z0-9_]{0,39}$/;
 const numberPattern = /^[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?$/;
 
 /** The most problems reported at once: enough to fix a whole file, few enough to read. */
@@ -23,14 +23,17 @@ interface Column {
   numeric: boolean;
 }
 
-/** Reads a header field: a name, optionally followed by its unit in brackets. */
+/**
+ * Reads a header field: a name, optionally followed by its unit in brackets. A name that breaks
+ * the covariate-name rule is refused naming the character (a "." or "[" would nest the column's
+ * JSON path, population.covariateTable.rows[i].name).
+ */
 export function readCovariateHeader(field: string): { ok: true; name: string; unit: string | null } | { ok: false; message: string } {
-  const m = /^([^[\]]*?)\s*(?:\[([^[\]]*)\])?$/.exec(field);
-  const name = m?.[1].trim() ?? '';
-  if (!m || !namePattern.test(name)) {
-    return { ok: false, message: `'${field}' is not a covariate name (a letter, then letters, digits or "_"), optionally with its unit in brackets, e.g. "weight [kg]"` };
-  }
-  const unit = m[2] === undefined ? null : m[2].trim();
+  const m = /^(.*?)\s*\[([^[\]]*)\]\s*$/.exec(field);
+  const name = (m ? m[1] : field).trim();
+  const problem = covariateNameProblem(name);
+  if (problem !== null) return { ok: false, message: `${problem}; a unit goes in brackets after the name, e.g. "weight [kg]"` };
+  const unit = m ? m[2].trim() : null;
   if (unit === '') return { ok: false, message: `the brackets after '${name}' hold no unit` };
   return { ok: true, name, unit };
 }

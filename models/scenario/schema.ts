@@ -4,6 +4,7 @@
  * normaliser converts them. Types are inferred from this schema, never written twice.
  */
 import { z } from 'zod';
+import { covariateNameProblem } from './covariate-name.ts';
 
 /** A number in the scenario's units, or a string with its own unit. */
 export const quantity = z
@@ -201,6 +202,23 @@ export const targetSchema = z
   })
   .describe('A target a subject attains or not: exactly one of trough, peak, auc24, above or window.');
 
+/**
+ * A covariate table's column names follow the covariate-name rule: a "." or "[" would nest the
+ * cell's JSON path (rows[i].a.b). Each bad name is named once, at the first row holding it, so a
+ * long table gives one problem per column, not one per row.
+ */
+function refuseBadColumnNames(rows: Record<string, unknown>[], ctx: z.RefinementCtx): void {
+  const seen = new Set<string>();
+  rows.forEach((row, i) => {
+    for (const name of Object.keys(row)) {
+      if (seen.has(name)) continue;
+      seen.add(name);
+      const problem = covariateNameProblem(name);
+      if (problem !== null) ctx.addIssue({ code: 'custom', path: [i], message: `the column name ${problem}` });
+    }
+  });
+}
+
 export const populationSchema = z
   .strictObject({
     subjects: z.number().int().min(1).max(100_000).describe('Number of virtual subjects.'),
@@ -209,7 +227,13 @@ export const populationSchema = z
     covariates: z.record(z.string(), covariateDistributionSchema).optional().describe('Covariates drawn for each subject, by name (weight, height, age, sex, serumCreatinine or the subject\'s own); the rest are the scenario subject\'s.'),
     covariateTable: z
       .strictObject({
-        rows: z.array(z.record(z.string(), z.union([z.number(), z.string().trim().min(1)]))).min(1).max(100_000).optional().describe('Covariate rows, e.g. { "weight": "64 kg", "sex": "female" }.'),
+        rows: z
+          .array(z.record(z.string(), z.union([z.number(), z.string().trim().min(1)])))
+          .min(1)
+          .max(100_000)
+          .superRefine(refuseBadColumnNames)
+          .optional()
+          .describe('Covariate rows, e.g. { "weight": "64 kg", "sex": "female" }; the keys are covariate names (a letter, then letters, digits or "_").'),
         file: z.string().min(1).max(500).optional().describe('A CSV file of covariate rows (header: covariate names, with the unit in brackets, e.g. "weight [kg]"); read by the command line relative to the scenario file.'),
         draw: z.enum(['in turn', 'at random']).default('in turn').describe('in turn: subject i takes row i (wrapping round); at random: each subject takes a row drawn with replacement.'),
       })

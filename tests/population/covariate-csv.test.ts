@@ -3,6 +3,7 @@
 // Quoting follows RFC 4180 §2 (a quoted field may hold commas, line breaks and doubled quotes).
 import { describe, expect, it } from 'vitest';
 import { parseCovariateCsv } from '../../models/population/covariate-csv.ts';
+import { parseScenario } from '../../models/scenario/normalize.ts';
 import { parseCovariateCsv as parseCovariateFile } from '../../server/covariate-csv.ts';
 
 describe('covariate CSV text', () => {
@@ -39,5 +40,29 @@ describe('covariate CSV text', () => {
     // A terminal must not ring or act on what a file holds: the BEL is shown as \u0007.
     expect(parseCovariateFile(text, 'people.csv')).toEqual({ ok: false, errors: ["people.csv line 4, column weight: '6\\u0007' is not a number (the column is in kg)"] });
     expect(parseCovariateCsv(text, 'people.csv')).toEqual({ ok: false, errors: ["people.csv line 4, column weight: '6\u0007' is not a number (the column is in kg)"] });
+  });
+
+  // A name is a segment of the cell's JSON path (rows[i].name): "." or "[" in it would read as a
+  // nested field. The CSV header and a scenario's rows follow one rule (models/scenario/covariate-name.ts).
+  it('refuses a column name holding "." or "[" at line 1 and its column, naming the character; the rows of a scenario the same, once per name', () => {
+    const rule = 'a covariate name is a letter, then letters, digits or "_" (at most 40 characters)';
+    expect(parseCovariateCsv('weight [kg],body.mass [kg],dose[1] [mg],sex\n60,61,5,female\n', '')).toEqual({
+      ok: false,
+      errors: [
+        `line 1, column 2: 'body.mass' holds '.', which would split its JSON path: ${rule}; a unit goes in brackets after the name, e.g. "weight [kg]"`,
+        `line 1, column 3: 'dose[1]' holds '[', which would split its JSON path: ${rule}; a unit goes in brackets after the name, e.g. "weight [kg]"`,
+      ],
+    });
+    const scenario = {
+      title: 't',
+      compartments: [{ id: 'central', volume: '10 L' }],
+      output: { end: '24 h', step: '1 h' },
+      population: { subjects: 3, covariateTable: { rows: [{ weight: '60 kg', 'body.mass': 61 }, { weight: '62 kg', 'body.mass': 63, 'dose[1]': 5 }, { weight: '64 kg', 'body.mass': 65 }] } },
+    };
+    const parsed = parseScenario(scenario);
+    expect(parsed.ok ? [] : parsed.problems).toEqual([
+      { path: 'population.covariateTable.rows[0]', message: `the column name 'body.mass' holds '.', which would split its JSON path: ${rule}` },
+      { path: 'population.covariateTable.rows[1]', message: `the column name 'dose[1]' holds '[', which would split its JSON path: ${rule}` },
+    ]);
   });
 });
