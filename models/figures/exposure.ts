@@ -109,6 +109,25 @@ class Accumulator {
   }
 }
 
+/** One compartment's scan over the rows: its accumulators and the row before (one shape for every compartment). */
+class CompartmentScan {
+  current: Accumulator | null = null;
+  readonly intervals: IntervalFigures[] = [];
+  readonly crossings: Crossing[] = [];
+  crossingCount = 0;
+  prevS = 0;
+  lastC = 0;
+  constructor(
+    readonly index: number,
+    readonly volume: number,
+    readonly levels: Level[],
+    readonly thresholds: Model['thresholds'],
+    readonly overall: Accumulator,
+    public prevC: number,
+    public prevT: number,
+  ) {}
+}
+
 function windowFigures(
   thresholds: Model['thresholds'],
   levels: Level[],
@@ -140,10 +159,10 @@ function windowFigures(
 /** Times that open dosing intervals: distinct administration times within [start, end). */
 export function intervalStarts(model: Model, breakpoints: Float64Array): Float64Array {
   const tolerance = 1e-12 * Math.max(1, Math.abs(model.end), Math.abs(model.start));
-  const sorted = model.administrations
-    .map((a) => a.given)
-    .filter((t) => t >= model.start && t < model.end)
-    .sort((a, b) => a - b);
+  // Only the times in the span are gathered (a window of a long regimen holds one or two of them).
+  const within: number[] = [];
+  for (const a of model.administrations) if (a.given >= model.start && a.given < model.end) within.push(a.given);
+  const sorted = Float64Array.from(within).sort();
   // Times that differ by unit-conversion rounding ("8 h" × 3 against "1 day") are one start,
   // snapped to the breakpoint there so that the boundary rows and the start coincide exactly.
   const out: number[] = [];
@@ -284,20 +303,8 @@ export function exposureFigures(whole: Model, layout: StateLayout, probe: CurveP
       if (th.above !== null) levels.push({ value: th.above, threshold: th.index, edge: 'above' });
       if (th.below !== null) levels.push({ value: th.below, threshold: th.index, edge: 'below' });
     }
-    return {
-      ...c,
-      levels,
-      thresholds: model.thresholds.filter((th) => th.compartment === c.index),
-      overall: new Accumulator(model.start, levels.length, before[layout.auc[c.index]]),
-      current: null as Accumulator | null,
-      intervals: [] as IntervalFigures[],
-      crossings: [] as Crossing[],
-      crossingCount: 0,
-      prevC: before[c.index] / c.volume,
-      prevS: 0,
-      prevT: model.start,
-      lastC: 0,
-    };
+    const thresholds = model.thresholds.filter((th) => th.compartment === c.index);
+    return new CompartmentScan(c.index, c.volume, levels, thresholds, new Accumulator(model.start, levels.length, before[layout.auc[c.index]]), before[c.index] / c.volume, model.start);
   });
 
   const n = layout.size;
@@ -306,7 +313,7 @@ export function exposureFigures(whole: Model, layout: StateLayout, probe: CurveP
   const timeTolerance = 1e-10 * Math.max(1, Math.abs(model.end), Math.abs(model.start));
   let aucNow: Float64Array = new Float64Array(n);
 
-  const closeInterval = (pc: (typeof perCompartment)[number], t: number, c: number, trough: boolean) => {
+  const closeInterval = (pc: CompartmentScan, t: number, c: number, trough: boolean) => {
     const acc = pc.current;
     if (!acc) return;
     const span = t - acc.start;
@@ -409,7 +416,7 @@ export function exposureFigures(whole: Model, layout: StateLayout, probe: CurveP
     }
   });
 
-  function scanPair(pc: (typeof perCompartment)[number], a: number, ca: number, sa: number, b: number, cb: number, sb: number, inside: number): void {
+  function scanPair(pc: CompartmentScan, a: number, ca: number, sa: number, b: number, cb: number, sb: number, inside: number): void {
     if (!((sa > 0 && sb < 0) || (sa < 0 && sb > 0))) {
       if (pc.levels.length > 0) scanMonotone(pc, a, ca, sa, b, cb, sb, inside);
       return;
@@ -430,7 +437,7 @@ export function exposureFigures(whole: Model, layout: StateLayout, probe: CurveP
   }
 
   /** Time over each level on a piece where C is monotone: at most one crossing per level. */
-  function scanMonotone(pc: (typeof perCompartment)[number], p: number, cp: number, sp: number, q: number, cq: number, sq: number, inside: number): void {
+  function scanMonotone(pc: CompartmentScan, p: number, cp: number, sp: number, q: number, cq: number, sq: number, inside: number): void {
     for (let li = 0; li < pc.levels.length; li++) {
       const level = pc.levels[li];
       const dp = cp - level.value;
