@@ -43,6 +43,7 @@ export const entries = {
   cli: 'server/cli.ts',
   'cli-worker': 'server/cli-worker.ts',
   'population-worker': 'server/population-worker.ts',
+  'proposals-worker': 'server/proposals-worker.ts',
 };
 /** Packages left to node's own loading (see above). */
 const external = ['pdfkit', 'express', 'helmet', 'better-sqlite3'];

@@ -9,13 +9,13 @@ import { fitScenario } from '../models/fitting/fit.ts';
 import { readFitPlan, type Objective } from '../models/fitting/settings.ts';
 import { ncaOfModel } from '../models/levels/nca-scenario.ts';
 import type { NcaRule } from '../models/levels/nca.ts';
-import { proposeByBasis } from '../models/regimen/propose-basis.ts';
 import { checkPopulationProposals } from '../models/regimen/population-proposals.ts';
 import { readPropose } from '../models/regimen/settings.ts';
 import { buildModel, parseScenario } from '../models/scenario/normalize.ts';
 import type { Problem } from '../models/scenario/problems.ts';
 import { fitCaution } from './fit-cli.ts';
 import type { JobReply, JobRequest } from './jobs.ts';
+import { proposeOnThreads } from './proposals-threads.ts';
 import { populationProposalLimits } from './propose-cli.ts';
 
 type Reply = Omit<JobReply, 'id'>;
@@ -63,7 +63,8 @@ export function runLevelsJob(job: Pick<JobRequest, 'kind' | 'scenario' | 'object
       const checked = checkPopulationProposals(parsed.value, model.value, settings.value, populationProposalLimits);
       if (checked.length > 0) return problems(400, checked);
     }
-    const proposed = proposeByBasis(job.scenario, populationProposalLimits);
+    // A large population's subjects run across the machine's cores, this worker among them.
+    const proposed = proposeOnThreads(job.scenario, populationProposalLimits);
     return proposed.ok ? answer(proposed.value) : problems(422, proposed.problems);
   }
   return problems(500, [{ path: '', message: `internal error: no levels job '${job.kind}'` }]);

@@ -4,8 +4,10 @@
  * 24 h, each target met or not, time to the window), each row with "Try in compare". The first
  * rows are shown; the rest on request. Proposals are model outputs, not recommendations.
  * For a population (result.population) the columns are the attainment instead: the tier, the
- * share meeting every target and each target's share with their standard errors, and the median
- * and 5th–95th percentiles of the steady-state trough and peak, under the population's caution.
+ * share meeting every target and each target's share with their standard errors, the median
+ * and 5th–95th percentiles of the steady-state trough and peak, and on a line under each row
+ * the approach from the first dose (time to the window, the first interval without and with
+ * the loading dose, the first intervals), under the population's caution.
  */
 import type { Proposal, ProposeResult } from '../../models/regimen/propose.ts';
 import { formatNumber } from '../../models/result/format-number.ts';
@@ -22,15 +24,36 @@ export function renderProposals(host: HTMLElement, result: ProposeResult, tryRow
   const notes = result.proposals.filter((p) => p.note !== null);
   const rows = result.proposals.map((p, i) => (basis ? populationRow(p, i, tryRow) : row(p, i, result, tryRow)));
   const head = basis
-    ? ['Rank', 'Tier', `Amount (${u.amount})`, `Interval (${u.time})`, `Infusion (${u.time})`, 'All targets (% ± SE)', 'Each target (% ± SE)', `Trough (${u.concentration}) median [5th–95th]`, `Peak (${u.concentration}) median [5th–95th]`, '']
+    ? [
+        'Rank',
+        'Tier',
+        `Amount (${u.amount})`,
+        `Interval (${u.time})`,
+        `Infusion (${u.time})`,
+        'All targets (% ± SE)',
+        'Each target (% ± SE)',
+        `Trough (${u.concentration}) median [5th–95th]`,
+        `Peak (${u.concentration}) median [5th–95th]`,
+        '',
+      ]
     : ['Rank', `Amount (${u.amount})`, `Interval (${u.time})`, `Infusion (${u.time})`, `Loading (${u.amount})`, `Trough (${u.concentration})`, `Peak (${u.concentration})`, `AUC24 (${u.auc})`, 'Targets met', `To the window (${u.time})`, ''];
   const caption = basis
     ? `Proposed regimens for ${basis.subjects} virtual subjects (seed ${basis.seed}), ranked by the share meeting every target (${result.searched.regimens} searched on the same subjects)`
     : `Proposed regimens, ranked (${result.searched.regimens} searched, ${result.searched.method})`;
   const table = figureTable(caption, head, rows, 'levels-proposals');
   const body = table.querySelector('tbody');
-  const extra = body ? Array.from(body.children).slice(FIRST_ROWS) : [];
-  for (const tr of extra) (tr as HTMLElement).hidden = true;
+  const extra: HTMLElement[] = [];
+  Array.from(body?.children ?? []).forEach((tr, i) => {
+    const group = [tr as HTMLElement];
+    // A population row's approach from empty goes on a line of its own below it, the table no wider.
+    if (basis) {
+      const line = approachLine(result.proposals[i], i, result, head.length);
+      tr.after(line);
+      group.push(line);
+    }
+    if (i >= FIRST_ROWS) extra.push(...group);
+  });
+  for (const tr of extra) tr.hidden = true;
   const more = h('button', { type: 'button', class: 'quiet', 'data-testid': 'levels-proposals-all' }, `Show all ${result.proposals.length}`);
   more.addEventListener('click', () => {
     for (const tr of extra) (tr as HTMLElement).hidden = false;
@@ -45,6 +68,13 @@ export function renderProposals(host: HTMLElement, result: ProposeResult, tryRow
     extra.length ? more : null,
     h('p', { class: 'note' }, `Ranking: ${result.rankingRule}.`),
     basis ? h('p', { class: 'note' }, `Shares ± one Monte Carlo standard error √(p(1 − p)/N); trough and peak in the compartment of the first target, ${basis.percentileRule}.`) : null,
+    basis
+      ? h(
+          'p',
+          { class: 'note' },
+          `From the first dose (the line under each row): the time to the window, median [5th–95th percentile] over every subject, those who never reach it sorted last ("n.r.": the percentile falls among them); the share meeting every target in the first dosing interval${basis.loading ? ', without and with the loading dose' : ''}; and in each of the first intervals.`,
+        )
+      : null,
     h('p', { class: 'note' }, `Time to the window: ${result.timeToWindowDefinition}.`),
     basis?.loading ? h('p', { class: 'note' }, `Loading dose: ${basis.loading}.`) : null,
     // Said in words, as the command line and the report say them (subjects without a steady state count as not attaining).
@@ -83,6 +113,36 @@ export function percentWithError(x: { probability: number; standardError: number
 
 function spread(x: { p5: number; p50: number; p95: number }): string {
   return Number.isNaN(x.p50) || x.p50 === null ? '—' : `${fmt(x.p50)} [${fmt(x.p5)}–${fmt(x.p95)}]`;
+}
+
+/** "36 [24–n.r.]": median [5th–95th] of the time to the window, n.r. where a percentile falls among subjects who never reach it. */
+function timeSpread(t: { p5: number | null; p50: number | null; p95: number | null }): string {
+  const v = (x: number | null) => (x === null ? 'n.r.' : fmt(x));
+  return `${v(t.p50)} [${v(t.p5)}–${v(t.p95)}]`;
+}
+
+/** The reasons subjects never reach the window, for a tooltip. */
+function neverTitle(a: NonNullable<Proposal['population']>['approach'], subjects: number): string {
+  const n = a.neverReached;
+  return `${a.reached} of ${subjects} subjects reach the window; never: ${n.steadyStateMisses} whose steady state misses a target, ${n.noSteadyState} without a steady state, ${n.onlyAtSteadyState} only at the steady state, ${n.failed} failed runs`;
+}
+
+/** The line under a population row: time to the window, the first interval without and with the loading dose, the first intervals. */
+function approachLine(p: Proposal, i: number, result: ProposeResult, columns: number): HTMLElement {
+  const a = (p.population as NonNullable<Proposal['population']>).approach;
+  const subjects = result.population?.subjects ?? 0;
+  const first = a.firstInterval;
+  const loaded = first.withLoading && p.loading ? `, ${percentWithError(first.withLoading)} after a loading dose of ${fmt(p.loading.amount)} ${result.units.amount}` : '';
+  const byInterval = a.byInterval.map((x) => formatNumber(Math.round(x.probability * 100))).join(' · ');
+  const cell = h(
+    'td',
+    { colspan: String(columns), class: 'note', 'data-testid': `levels-approach-${i}`, title: neverTitle(a, subjects) },
+    `From the first dose: to the window ${timeSpread(a.timeToWindow)} ${result.units.time} (reached by ${a.reached} of ${subjects}); interval 1: ${percentWithError(first.without)}${loaded}; intervals 1–${a.byInterval.length}: ${byInterval}%`,
+  );
+  // The table's cells keep to one line; this one wraps within the table's width, left to right (CSSOM: no inline style attribute).
+  cell.style.whiteSpace = 'normal';
+  cell.style.textAlign = 'left';
+  return h('tr', { class: 'levels-approach' }, cell);
 }
 
 /** A population row: the joint share ranks it; each target's share, trough and peak percentiles beside it. */

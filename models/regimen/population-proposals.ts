@@ -11,20 +11,36 @@
  * subjects (plan, runBatch), and the targets are judged by population/targets.ts's `meets` on the
  * figures the engine wrote (layout.ts's columns).
  *
- * Not given for a population: a loading dose (it would need every subject's first interval
- * from empty with its own search) and the time to the window (a run from empty per subject and
- * regimen, up to limits.steadyStateCycles intervals each, many times the steady-state cost).
+ * From empty (population-approach.ts): every subject is also given every candidate from its first
+ * dose, for its time to the window, the joint attainment of the first intervals and, when a
+ * loading dose is asked for, the first interval after the typical subject's loading dose.
+ *
+ * The work is split by subjects (prepare once, runProposalChunk per range, summariseProposals of
+ * the chunks in subject order), so threads may each run some ranges: subject i's numbers depend
+ * only on (seed, i), never on who ran it (server/proposals-threads.ts).
  */
 import type { Model } from '../building/model.ts';
-import { figureColumn, windowColumn, type FigureLayout } from '../population/layout.ts';
+import { figureColumn, type FigureLayout } from '../population/layout.ts';
 import { percentileOfSorted } from '../population/percentiles.ts';
 import { planPopulation, runBatch, type PopulationPlan } from '../population/population.ts';
 import { POPULATION_CAUTION } from '../population/summary.ts';
-import { meets, type ReadTarget } from '../population/targets.ts';
+import type { ReadTarget } from '../population/targets.ts';
 import type { Outcome, Problem } from '../scenario/problems.ts';
 import type { DoseLine, Quantity, Scenario } from '../scenario/schema.ts';
 import { displayUnit } from '../scenario/units.ts';
-import { PROPOSAL_CAUTION, type PercentileSpread, type PopulationBasis, type Proposal, type ProposeResult, type ShareOfSubjects } from './propose.ts';
+import { APPROACH, APPROACH_INTERVALS_SHOWN, meetsTarget, runApproach, steadyColumn, TIME_TO_WINDOW_POPULATION_RULE, type ApproachChunk, type ApproachPlan } from './population-approach.ts';
+import {
+  PROPOSAL_CAUTION,
+  typicalLoading,
+  type LoadingDose,
+  type PercentileSpread,
+  type PopulationApproach,
+  type PopulationBasis,
+  type Proposal,
+  type ProposeResult,
+  type ShareOfSubjects,
+  type TimeSpread,
+} from './propose.ts';
 import { POPULATION_RANKING_RULE, rankPopulation } from './population-rank.ts';
 import { logDistance, troughWindow } from './rank.ts';
 import type { ProposeSettings } from './settings.ts';
@@ -35,11 +51,10 @@ export interface PopulationProposalLimits {
   runs: number;
 }
 
-export const LOADING_LEFT_OUT =
-  'not proposed for a population: a loading dose is judged on the first interval from empty, which each subject would need computed with its own search; ask for typical proposals (propose.basis "typical") to get one for the typical subject';
-
-export const TIME_TO_WINDOW_LEFT_OUT =
-  'not given for a population: it needs a run from empty for every subject and regimen (up to thousands of intervals each for a saturable model), many times the cost of the steady states; typical proposals give it for the typical subject';
+export const LOADING_RULE =
+  'chosen for the typical subject as typical proposals choose it (the first dose, in place of the first maintenance dose, whose first trough is the typical ' +
+  'steady-state trough: the closed form for a linear model, bisection otherwise, rounded onto the strengths), then given to every virtual subject; ' +
+  'the share meeting every target in the first dosing interval is given with and without it';
 
 export const PERCENTILE_RULE = 'percentiles by linear interpolation between order statistics (Hyndman & Fan 1996, definition 7) over the subjects with a steady state';
 
@@ -109,14 +124,6 @@ export function limitProblems(subjects: number, regimens: number, limits: Popula
   return [];
 }
 
-/** Columns of one target in the regimens' layout (steady state is period 0). */
-function targetColumn(layout: FigureLayout, plan: PopulationPlan, k: number): number {
-  const t = plan.targets[k];
-  const b = layout.banded.indexOf(t.compartment);
-  if (t.measure === 'above' || t.measure === 'window') return windowColumn(layout, 0, b, plan.targetWindows[k]);
-  return figureColumn(layout, 0, b, t.measure === 'peak' ? 'cmax' : t.measure);
-}
-
 function share(attained: number, n: number): ShareOfSubjects {
   const p = attained / n;
   return { probability: p, standardError: Math.sqrt((p * (1 - p)) / n), attained };
@@ -131,18 +138,167 @@ function spread(values: Float64Array, n: number): { spread: PercentileSpread; me
   return { spread: { p5: at(5), p50: at(50), p95: at(95) }, median: at(50) };
 }
 
+/** Definition 7 over a sorted sample whose tail may be +∞; an order statistic hit exactly is not interpolated (0·∞). */
+function percentileWithNever(sorted: Float64Array, q: number): number | null {
+  const n = sorted.length;
+  const h = ((n - 1) * q) / 100;
+  const v = h === Math.floor(h) ? sorted[h] : percentileOfSorted(sorted, n, q);
+  return Number.isFinite(v) ? v : null;
+}
+
+/** The candidates in the order readRegimens makes them: amounts, then intervals, then durations. */
+function candidates(settings: ProposeSettings): Spec[] {
+  const out: Spec[] = [];
+  for (const amount of settings.amounts) for (const interval of settings.intervals) for (const duration of settings.durations) out.push({ amount, interval, duration });
+  return out;
+}
+
+/** Everything a chunk of subjects needs, read once (in every thread alike). */
+export interface PreparedProposals {
+  scenario: Scenario;
+  model: Model;
+  settings: ProposeSettings;
+  limits: PopulationProposalLimits;
+  plan: PopulationPlan;
+  specs: Spec[];
+  /** The typical subject's loading dose per candidate (null: none asked for, or none found); amounts only in a worker thread. */
+  loadings: (LoadingDose | null)[] | null;
+  approach: ApproachPlan;
+}
+
+/** Subjects first … first + count − 1: their steady states (the engine's regimen grid) and their runs from empty. */
+export interface ProposalChunk {
+  first: number;
+  count: number;
+  /** runBatch's regimenFigures of the range. */
+  steady: Float64Array;
+  approach: ApproachChunk;
+}
+
+/**
+ * The population section, the limits, the engine's plan of the candidates and (unless given, as
+ * in a worker thread that is told them) the typical subject's loading doses, before any subject runs.
+ */
+export function prepareProposals(s: Scenario, model: Model, settings: ProposeSettings, limits: PopulationProposalLimits, loadingAmounts?: readonly (number | null)[]): Outcome<PreparedProposals> {
+  if (!s.population) {
+    return { ok: false, problems: [{ path: 'propose.basis', message: 'is "population", but the scenario has no `population` section: give at least { "subjects": 500 }, or use "typical"' }] };
+  }
+  const mixed = settings.durations.some((d) => d === 0) && settings.durations.some((d) => d > 0);
+  if (mixed) {
+    const k = settings.durations.indexOf(0);
+    return { ok: false, problems: [{ path: `propose.durations[${k}]`, message: 'a bolus (0) cannot be tried beside infusions for a population (each regimen of the population grid is an infusion of a given duration); try the bolus in a run of its own' }] };
+  }
+  const specs = candidates(settings);
+  const over = limitProblems(s.population.subjects, specs.length, limits);
+  if (over.length > 0) return { ok: false, problems: over };
+  const plan = planPopulation(gridScenario(s, model, settings));
+  if (!plan.ok) return { ok: false, problems: userPaths(plan.problems) };
+  if (plan.value.regimens.length !== specs.length) throw new Error(`internal: ${plan.value.regimens.length} regimens for ${specs.length} candidates`);
+  const line = (s.propose as NonNullable<Scenario['propose']>).line;
+  const loadings = loadingAmounts ? null : specs.map((spec) => (settings.loading ? typicalLoading(model, settings, spec) : null));
+  const amounts = loadingAmounts ?? (loadings as (LoadingDose | null)[]).map((l) => l?.amount ?? null);
+  if (amounts.length !== specs.length) throw new Error(`internal: ${amounts.length} loading doses for ${specs.length} candidates`);
+  const approach: ApproachPlan = { plan: plan.value, line, targets: plan.value.targets, specs, loadings: amounts };
+  return { ok: true, value: { scenario: s, model, settings, limits, plan: plan.value, specs, loadings, approach } };
+}
+
+/** Every problem population proposals would meet before their subjects run (the API answers them 400). */
+export function checkPopulationProposals(s: Scenario, model: Model, settings: ProposeSettings, limits: PopulationProposalLimits): Problem[] {
+  // The loading doses are not needed to find the problems: every candidate is told none.
+  const none = candidates(settings).map(() => null);
+  const planned = prepareProposals(s, model, settings, limits, none);
+  return planned.ok ? [] : planned.problems;
+}
+
+/** Subjects [first, first + count): their steady states and runs from empty under every candidate. */
+export function runProposalChunk(p: PreparedProposals, first: number, count: number): Outcome<ProposalChunk> {
+  const batch = runBatch(p.plan, first, count);
+  if (!batch.ok) return { ok: false, problems: userPaths(batch.problems) };
+  const approach = runApproach(p.approach, first, count, batch.value.regimenFigures);
+  if (!approach.ok) return approach;
+  return { ok: true, value: { first, count, steady: batch.value.regimenFigures, approach: approach.value } };
+}
+
+/** The chunks (every subject once, in any order) as one set of arrays over all N subjects: regimen r, subject s at r·N + s. */
+function joined(p: PreparedProposals, chunks: readonly ProposalChunk[]) {
+  const N = p.plan.subjects;
+  const R = p.specs.length;
+  const cols = (p.plan.regimenLayout as FigureLayout).columns;
+  const steady = new Float64Array(R * N * cols);
+  const intervals = new Int32Array(R * N);
+  const code = new Uint8Array(R * N);
+  const metByInterval = new Uint8Array(R * N);
+  const firstLoaded = new Uint8Array(R * N);
+  let covered = 0;
+  let simulated = 0;
+  for (const c of chunks) {
+    covered += c.count;
+    simulated += c.approach.simulated;
+    for (let r = 0; r < R; r++) {
+      steady.set(c.steady.subarray(r * c.count * cols, (r + 1) * c.count * cols), (r * N + c.first) * cols);
+      const from = r * c.count;
+      const to = (r + 1) * c.count;
+      intervals.set(c.approach.intervals.subarray(from, to), r * N + c.first);
+      code.set(c.approach.code.subarray(from, to), r * N + c.first);
+      metByInterval.set(c.approach.metByInterval.subarray(from, to), r * N + c.first);
+      firstLoaded.set(c.approach.firstLoaded.subarray(from, to), r * N + c.first);
+    }
+  }
+  if (covered !== N) throw new Error(`internal: chunks cover ${covered} of ${N} subjects`);
+  return { steady, intervals, code, metByInterval, firstLoaded, simulated };
+}
+
+type Joined = ReturnType<typeof joined>;
+
 interface Row {
   proposal: Proposal;
   distance: number;
 }
 
-/** One regimen's shares and percentiles over the subjects, from the figures the engine wrote. */
-function regimenRow(plan: PopulationPlan, figures: Float64Array, r: number, spec: Spec, scratch: Float64Array[]): Row {
+/** One regimen's runs from empty over the subjects. */
+function approachRow(j: Joined, r: number, N: number, interval: number, loaded: boolean): PopulationApproach {
+  const times = new Float64Array(N);
+  const never = { steadyStateMisses: 0, noSteadyState: 0, onlyAtSteadyState: 0, failed: 0 };
+  let reached = 0;
+  const byInterval = new Array<number>(APPROACH_INTERVALS_SHOWN).fill(0);
+  let withLoading = 0;
+  for (let s = 0; s < N; s++) {
+    const at = r * N + s;
+    const code = j.code[at];
+    if (code === APPROACH.reached) reached++;
+    else if (code === APPROACH.steadyMisses) never.steadyStateMisses++;
+    else if (code === APPROACH.noSteadyState) never.noSteadyState++;
+    else if (code === APPROACH.notMetBeforeSteady) never.onlyAtSteadyState++;
+    else never.failed++;
+    times[s] = code === APPROACH.reached ? j.intervals[at] : Infinity;
+    for (let k = 0; k < APPROACH_INTERVALS_SHOWN; k++) if (j.metByInterval[at] & (1 << k)) byInterval[k]++;
+    if (j.firstLoaded[at] === 1) withLoading++;
+  }
+  times.sort();
+  const at = (q: number) => {
+    const v = percentileWithNever(times, q);
+    return v === null ? null : v * interval;
+  };
+  const shares = byInterval.map((a) => share(a, N));
+  return {
+    timeToWindow: { p5: at(5), p50: at(50), p95: at(95) } satisfies TimeSpread,
+    reached,
+    neverReached: never,
+    byInterval: shares,
+    firstInterval: { without: shares[0], withLoading: loaded ? share(withLoading, N) : null },
+  };
+}
+
+/** One regimen's shares and percentiles over the subjects, from the figures the engine wrote and the runs from empty. */
+function regimenRow(p: PreparedProposals, j: Joined, r: number, scratch: Float64Array[]): Row {
+  const { plan, specs } = p;
+  const spec = specs[r];
+  const figures = j.steady;
   const layout = plan.regimenLayout as FigureLayout;
   const cols = layout.columns;
   const N = plan.subjects;
   const targets: readonly ReadTarget[] = plan.targets;
-  const probes = targets.map((_, k) => targetColumn(layout, plan, k));
+  const probes = targets.map((_, k) => steadyColumn(plan, k));
   const first = layout.banded.indexOf(targets[0].compartment);
   const troughCol = figureColumn(layout, 0, first, 'trough');
   const peakCol = figureColumn(layout, 0, first, 'cmax');
@@ -156,9 +312,7 @@ function regimenRow(plan: PopulationPlan, figures: Float64Array, r: number, spec
     const row = (r * N + s) * cols;
     let all = true;
     targets.forEach((t, k) => {
-      // A share target bounds the share from below only (its level sits in the window).
-      const ok = t.measure === 'above' || t.measure === 'window' ? meets(figures[row + probes[k]], t.atLeast, null) : meets(figures[row + probes[k]], t.atLeast, t.atMost);
-      if (ok) attained[k]++;
+      if (meetsTarget(t, figures[row + probes[k]])) attained[k]++;
       else all = false;
     });
     if (all) joint++;
@@ -177,21 +331,27 @@ function regimenRow(plan: PopulationPlan, figures: Float64Array, r: number, spec
   const medianTrough = window ? spread(extract(figures, r, N, cols, windowCol, windowTrough), N).median : NaN;
   const distance = window ? logDistance(medianTrough, window) : Infinity;
   const dosesPerDay = plan.day / spec.interval;
+  const loading = p.loadings?.[r] ?? null;
+  const approach = approachRow(j, r, N, spec.interval, loading !== null);
+  const notes: string[] = [];
+  if (undetermined > 0) notes.push(`${undetermined} of ${N} subjects have no steady state with this regimen; they count as not attaining`);
+  if (p.settings.loading && loading === null) notes.push('no loading dose: the typical subject has no steady-state trough with this regimen, or none was bracketed');
+  if (approach.neverReached.failed > 0) notes.push(`${approach.neverReached.failed} of ${N} subjects' runs from empty failed numerically; they count as never reaching the window`);
   const proposal: Proposal = {
     ...spec,
-    loading: null,
+    loading,
     steadyState: { trough: troughs.median, peak: peaks.median, auc24: spread(auc24, N).median, cavg: spread(cavg, N).median },
     targetValues: shares.map((x) => x.probability),
     targetsMet: shares.map((x) => x.probability >= 0.5),
     allMet: jointShare.probability >= 0.5,
-    timeToWindow: null,
-    intervalsToWindow: null,
+    timeToWindow: approach.timeToWindow.p50,
+    intervalsToWindow: approach.timeToWindow.p50 === null ? null : approach.timeToWindow.p50 / spec.interval,
     dosesPerDay,
     dailyAmount: spec.amount * dosesPerDay,
     troughDistance: window ? distance : null,
-    note: undetermined > 0 ? `${undetermined} of ${N} subjects have no steady state with this regimen; they count as not attaining` : null,
+    note: notes.length > 0 ? notes.join('; ') : null,
     rank: 0,
-    population: { joint: jointShare, targets: shares, trough: troughs.spread, peak: peaks.spread, undetermined, tier: 0 },
+    population: { joint: jointShare, targets: shares, trough: troughs.spread, peak: peaks.spread, undetermined, tier: 0, approach },
   };
   return { proposal, distance };
 }
@@ -202,58 +362,22 @@ function extract(figures: Float64Array, r: number, N: number, cols: number, col:
   return out;
 }
 
-/** The candidates in the order readRegimens makes them: amounts, then intervals, then durations. */
-function candidates(settings: ProposeSettings): Spec[] {
-  const out: Spec[] = [];
-  for (const amount of settings.amounts) for (const interval of settings.intervals) for (const duration of settings.durations) out.push({ amount, interval, duration });
-  return out;
-}
-
-/** The population section, the limits and the engine's plan of the candidates, before any subject runs. */
-function planProposals(s: Scenario, model: Model, settings: ProposeSettings, limits: PopulationProposalLimits): Outcome<{ plan: PopulationPlan; specs: Spec[] }> {
-  if (!s.population) {
-    return { ok: false, problems: [{ path: 'propose.basis', message: 'is "population", but the scenario has no `population` section: give at least { "subjects": 500 }, or use "typical"' }] };
-  }
-  const mixed = settings.durations.some((d) => d === 0) && settings.durations.some((d) => d > 0);
-  if (mixed) {
-    const k = settings.durations.indexOf(0);
-    return { ok: false, problems: [{ path: `propose.durations[${k}]`, message: 'a bolus (0) cannot be tried beside infusions for a population (each regimen of the population grid is an infusion of a given duration); try the bolus in a run of its own' }] };
-  }
-  const specs = candidates(settings);
-  const over = limitProblems(s.population.subjects, specs.length, limits);
-  if (over.length > 0) return { ok: false, problems: over };
-  const plan = planPopulation(gridScenario(s, model, settings));
-  if (!plan.ok) return { ok: false, problems: userPaths(plan.problems) };
-  if (plan.value.regimens.length !== specs.length) throw new Error(`internal: ${plan.value.regimens.length} regimens for ${specs.length} candidates`);
-  return { ok: true, value: { plan: plan.value, specs } };
-}
-
-/** Every problem population proposals would meet before their subjects run (the API answers them 400). */
-export function checkPopulationProposals(s: Scenario, model: Model, settings: ProposeSettings, limits: PopulationProposalLimits): Problem[] {
-  const planned = planProposals(s, model, settings, limits);
-  return planned.ok ? [] : planned.problems;
-}
-
-/** The ranked population proposals of a scenario already read (readPropose passed), or every problem with its path. */
-export function proposeForPopulation(s: Scenario, model: Model, settings: ProposeSettings, limits: PopulationProposalLimits): Outcome<ProposeResult> {
-  const planned = planProposals(s, model, settings, limits);
-  if (!planned.ok) return planned;
-  const { plan: pl, specs } = planned.value;
-  const line = (s.propose as NonNullable<Scenario['propose']>).line;
-  const batch = runBatch(pl, 0, pl.subjects);
-  if (!batch.ok) return { ok: false, problems: userPaths(batch.problems) };
+/** The ranked proposals from every subject's chunk (in any order), as one thread or several computed them. */
+export function summariseProposals(p: PreparedProposals, chunks: readonly ProposalChunk[]): ProposeResult {
+  const { plan: pl, specs, model, settings, limits } = p;
   const N = pl.subjects;
+  const j = joined(p, chunks);
   const scratch = Array.from({ length: 5 }, () => new Float64Array(N));
-  const rows = specs.map((spec, r) => regimenRow(pl, batch.value.regimenFigures, r, spec, scratch));
+  const rows = specs.map((_, r) => regimenRow(p, j, r, scratch));
   const ranked = rankPopulation(
     rows.map((row) => ({ ...row.proposal, probability: (row.proposal.population as NonNullable<Proposal['population']>).joint.probability, standardError: (row.proposal.population as NonNullable<Proposal['population']>).joint.standardError, distance: row.distance })),
     pl.day,
   );
   const proposals = ranked.order.map((i, k) => {
-    const p = rows[i].proposal;
-    p.rank = k + 1;
-    (p.population as NonNullable<Proposal['population']>).tier = ranked.tier[i];
-    return p;
+    const q = rows[i].proposal;
+    q.rank = k + 1;
+    (q.population as NonNullable<Proposal['population']>).tier = ranked.tier[i];
+    return q;
   });
   const concentration = displayUnit('concentration', model.units);
   const basis: PopulationBasis = {
@@ -261,31 +385,37 @@ export function proposeForPopulation(s: Scenario, model: Model, settings: Propos
     seed: pl.seed,
     runs: N * specs.length,
     limits: { ...limits },
-    loading: settings.loading ? LOADING_LEFT_OUT : null,
-    timeToWindow: TIME_TO_WINDOW_LEFT_OUT,
+    loading: settings.loading ? LOADING_RULE : null,
+    timeToWindow: TIME_TO_WINDOW_POPULATION_RULE,
     percentileRule: PERCENTILE_RULE,
     caution: POPULATION_CAUTION,
   };
   return {
-    ok: true,
-    value: {
-      title: model.title,
-      units: { amount: model.units.amount, time: model.units.time, concentration, auc: `${concentration}·${model.units.time}` },
-      targets: settings.targets.map((t) => t.words),
-      proposals,
-      searched: {
-        amounts: settings.amounts.length,
-        intervals: settings.intervals.length,
-        durations: settings.durations.length,
-        regimens: specs.length,
-        steadyStateSolves: N * specs.length,
-        intervalsSimulated: 0,
-        method: 'per subject and regimen (population, common random numbers)',
-      },
-      rankingRule: POPULATION_RANKING_RULE,
-      timeToWindowDefinition: TIME_TO_WINDOW_LEFT_OUT,
-      caution: PROPOSAL_CAUTION,
-      population: basis,
+    title: model.title,
+    units: { amount: model.units.amount, time: model.units.time, concentration, auc: `${concentration}·${model.units.time}` },
+    targets: settings.targets.map((t) => t.words),
+    proposals,
+    searched: {
+      amounts: settings.amounts.length,
+      intervals: settings.intervals.length,
+      durations: settings.durations.length,
+      regimens: specs.length,
+      steadyStateSolves: N * specs.length,
+      intervalsSimulated: j.simulated,
+      method: 'per subject and regimen (population, common random numbers)',
     },
+    rankingRule: POPULATION_RANKING_RULE,
+    timeToWindowDefinition: TIME_TO_WINDOW_POPULATION_RULE,
+    caution: PROPOSAL_CAUTION,
+    population: basis,
   };
+}
+
+/** The ranked population proposals of a scenario already read (readPropose passed), all in this thread, or every problem with its path. */
+export function proposeForPopulation(s: Scenario, model: Model, settings: ProposeSettings, limits: PopulationProposalLimits): Outcome<ProposeResult> {
+  const prepared = prepareProposals(s, model, settings, limits);
+  if (!prepared.ok) return prepared;
+  const chunk = runProposalChunk(prepared.value, 0, prepared.value.plan.subjects);
+  if (!chunk.ok) return chunk;
+  return { ok: true, value: summariseProposals(prepared.value, [chunk.value]) };
 }

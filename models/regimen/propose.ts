@@ -85,7 +85,9 @@ export interface Proposal {
    * With propose.basis "population" only: the regimen over the virtual subjects. Then
    * steadyState holds the medians over the subjects with a steady state, targetValues each
    * target's share of subjects, targetsMet whether at least half attain each, allMet whether at
-   * least half attain all of them, and there is no loading dose or time to the window.
+   * least half attain all of them, timeToWindow and intervalsToWindow the medians over every
+   * subject (null when more than half never reach the window), and loading the typical
+   * subject's loading dose, given to every subject (its first interval: population.approach).
    */
   population?: PopulationRow;
 }
@@ -116,6 +118,27 @@ export interface PopulationRow {
   undetermined: number;
   /** Regimens in one tier are within 2 standard errors of its leader's joint share (population-rank.ts). */
   tier: number;
+  /** Every subject from empty: the time to the window, the first intervals, the loading dose's first interval. */
+  approach: PopulationApproach;
+}
+
+/** Percentiles over every subject, those never reaching the window sorted last; null where one falls among them. */
+export interface TimeSpread {
+  p5: number | null;
+  p50: number | null;
+  p95: number | null;
+}
+
+export interface PopulationApproach {
+  /** Time from the first dose to the window (population-approach.ts's rule), in the model's time unit. */
+  timeToWindow: TimeSpread;
+  /** Subjects reaching the window; the others by reason (each counted, none dropped). */
+  reached: number;
+  neverReached: { steadyStateMisses: number; noSteadyState: number; onlyAtSteadyState: number; failed: number };
+  /** The share meeting every target in each of the first dosing intervals from empty (interval 1 first). */
+  byInterval: ShareOfSubjects[];
+  /** The first interval from empty: every target met without and with the loading dose (null when none was chosen). */
+  firstInterval: { without: ShareOfSubjects; withLoading: ShareOfSubjects | null };
 }
 
 export interface PopulationBasis {
@@ -124,9 +147,9 @@ export interface PopulationBasis {
   /** Subjects × regimens, each a steady-state search (or solve) of its own. */
   runs: number;
   limits: { subjects: number; runs: number };
-  /** Why a loading dose is not proposed, when one was asked for. */
+  /** How the loading dose is chosen and judged, when one was asked for. */
   loading: string | null;
-  /** Why the time to the window is not given. */
+  /** How the time to the window is found for each subject and summarised. */
   timeToWindow: string;
   percentileRule: string;
   /** Population figures describe a model population, not a patient. */
@@ -364,6 +387,19 @@ function loadingDose(cx: Context, p: Proposal): LoadingDose | null {
     timeToWindow: w.intervals === null ? null : w.intervals * p.interval,
     intervalsToWindow: w.intervals,
   };
+}
+
+/**
+ * The loading dose the typical basis would choose for `spec`, whatever the regimen's typical
+ * targets: its aim is the typical subject's steady-state trough (population proposals then give
+ * it to every virtual subject). Null when the regimen has no steady state, no trough or no bracket.
+ */
+export function typicalLoading(base: Model, settings: ProposeSettings, spec: RegimenSpec): LoadingDose | null {
+  const cx: Context = { base, system: new CompartmentSystem(base), settings, stats: emptyStats(), day: 24 * unitsPerHour(base.units), counts: { steady: 0, intervals: 0 } };
+  const steady = guarded(() => steadyOf(cx, spec, [1]), (note) => ({ note }));
+  if ('note' in steady) return null;
+  const p = proposalFrom(cx, spec, steady.read, 1, 0, null);
+  return guarded(() => loadingDose(cx, p), () => null);
 }
 
 /** "500 mg every 12 h over 30 min" in the model's units. */

@@ -4,7 +4,9 @@
  * of the ranked table with how many regimens were searched, the targets, the ranking rule,
  * the meaning of the time to the window, and the caution that proposals are model outputs
  * for a clinician's review. For propose.basis "population" the table holds the attainment
- * (joint and per target, with standard errors) and the trough and peak percentiles, under the
+ * (joint and per target, with standard errors), the trough and peak percentiles, the time to the
+ * window over every subject and the first interval without and with the loading dose, then a
+ * table of the share meeting every target in each of the first intervals from empty, under the
  * caution that population figures describe a model population, not a patient.
  */
 import { proposeByBasis } from '../../models/regimen/propose-basis.ts';
@@ -37,13 +39,70 @@ function spreadCell(x: { p5: number; p50: number; p95: number }): string {
   return Number.isNaN(x.p50) ? '—' : `${fmt(x.p50)}\n${fmt(x.p5)}–${fmt(x.p95)}`;
 }
 
+/** Median over 5th–95th of the time to the window; "n.r." where a percentile falls among subjects who never reach it. */
+function timeCell(t: { p5: number | null; p50: number | null; p95: number | null }): string {
+  const v = (x: number | null) => (x === null ? 'n.r.' : fmt(x));
+  return `${v(t.p50)}\n${v(t.p5)}–${v(t.p95)}`;
+}
+
+/** The first interval from empty: every target met without, and with the loading dose. */
+function firstIntervalCell(p: Proposal, amount: string): string {
+  const f = (p.population as NonNullable<Proposal['population']>).approach.firstInterval;
+  const loaded = f.withLoading && p.loading ? `\n${percentCell(f.withLoading)} after ${fmt(p.loading.amount)} ${unitText(amount)}` : '';
+  return `${percentCell(f.without)}${loaded}`;
+}
+
+/** Why subjects never reach the window, in words. */
+function neverCell(n: { steadyStateMisses: number; noSteadyState: number; onlyAtSteadyState: number; failed: number }): string {
+  const parts = [
+    n.steadyStateMisses > 0 ? `${n.steadyStateMisses} steady state misses` : null,
+    n.noSteadyState > 0 ? `${n.noSteadyState} no steady state` : null,
+    n.onlyAtSteadyState > 0 ? `${n.onlyAtSteadyState} only at steady state` : null,
+    n.failed > 0 ? `${n.failed} run failed` : null,
+  ].filter((x): x is string => x !== null);
+  return parts.length > 0 ? parts.join('\n') : '—';
+}
+
+/** The share meeting every target in each of the first intervals from empty, and who reaches the window. */
+function drawApproachTable(doc: PDFKit.PDFDocument, r: ProposeResult, shown: Proposal[]): void {
+  const basis = r.population as NonNullable<ProposeResult['population']>;
+  const k = shown[0]?.population?.approach.byInterval.length ?? 0;
+  drawTable(doc, {
+    caption: 'From the first dose: time to the window, the first interval with and without the loading dose, the first intervals',
+    columns: [
+      { header: 'Rank', width: 0.45, align: 'right' },
+      { header: 'Regimen', width: 1.2 },
+      { header: `To window (${r.units.time})\nmedian, 5–95th`, width: 1.1, align: 'right' },
+      { header: 'Interval 1\n(% ± SE)', width: 1.4, align: 'right' },
+      { header: `Intervals 1–${k}\n(% all targets)`, width: 1.35 },
+      { header: 'Reach the\nwindow', width: 0.65, align: 'right' },
+      { header: 'Never, because', width: 1.25 },
+    ],
+    size: type.tiny + 0.3,
+    zebra: true,
+    rows: shown.map((p) => {
+      const a = (p.population as NonNullable<Proposal['population']>).approach;
+      return [
+        { text: String(p.rank), bold: p.rank === 1 },
+        `${fmt(p.amount)} ${unitText(r.units.amount)} every ${fmt(p.interval)} ${r.units.time}`,
+        timeCell(a.timeToWindow),
+        firstIntervalCell(p, r.units.amount),
+        a.byInterval.map((x) => fmt(Math.round(x.probability * 100))).join(' · '),
+        `${a.reached} of ${basis.subjects}`,
+        neverCell(a.neverReached),
+      ];
+    }),
+    footnote: `Each regimen given to every subject from empty. To window: median and 5th–95th percentile over every subject, "n.r." where the percentile falls among those who never reach the window. Interval 1: the share meeting every target in the first dosing interval, without${basis.loading ? ' and with' : ''} the loading dose${basis.loading ? ' (the typical subject\'s, the same for all)' : ' (none asked for)'}. Intervals 1–${k}: the share meeting every target in each, without a loading dose (a share of N = ${basis.subjects} has a Monte Carlo standard error of at most 100·√(0.25/N) = ${fmt(Number((100 * Math.sqrt(0.25 / basis.subjects)).toFixed(1)))} points). Time to the window: ${basis.timeToWindow}.${basis.loading ? ` Loading dose: ${basis.loading}.` : ''}`,
+  });
+}
+
 /** The population's table: joint and per-target attainment with standard errors, trough and peak percentiles. */
 function drawPopulationTable(doc: PDFKit.PDFDocument, r: ProposeResult, shown: Proposal[]): void {
   const u = r.units;
   const basis = r.population as NonNullable<ProposeResult['population']>;
   const c = unitText(u.concentration);
   drawTable(doc, {
-    caption: `Ranked proposals for ${basis.subjects} virtual subjects (seed ${basis.seed}) at steady state`,
+    caption: `Ranked proposals for ${basis.subjects} virtual subjects (seed ${basis.seed}) at steady state and from the first dose`,
     columns: [
       { header: 'Rank', width: 0.45, align: 'right' },
       { header: 'Tier', width: 0.4, align: 'right' },
@@ -71,7 +130,7 @@ function drawPopulationTable(doc: PDFKit.PDFDocument, r: ProposeResult, shown: P
         spreadCell(a.peak),
       ];
     }),
-    footnote: `All targets: the share of the ${basis.subjects} subjects whose steady state meets every target at once; each target: its own share; ± one Monte Carlo standard error √(p(1 − p)/N). Every regimen is given to the same subjects (common random numbers). Trough and peak in the compartment of the first target; ${basis.percentileRule}. Time to the window: ${basis.timeToWindow}.${basis.loading ? ` Loading dose: ${basis.loading}.` : ''}`,
+    footnote: `All targets: the share of the ${basis.subjects} subjects whose steady state meets every target at once; each target: its own share; ± one Monte Carlo standard error √(p(1 − p)/N). Every regimen is given to the same subjects (common random numbers). Trough and peak in the compartment of the first target; ${basis.percentileRule}. The time to the window and the first intervals from empty follow in the next table.`,
   });
 }
 
@@ -108,7 +167,7 @@ export function drawProposalsSection(doc: PDFKit.PDFDocument, outcome: Outcome<P
   const s = r.searched;
   const shown = r.proposals.slice(0, REPORT_PROPOSALS);
   const searchedWords = r.population
-    ? `${s.amounts} amounts × ${s.intervals} intervals × ${s.durations} infusion durations = ${s.regimens} regimens searched, each given to the same ${r.population.subjects} virtual subjects of the scenario's population and solved to steady state for each (${s.steadyStateSolves} steady states).`
+    ? `${s.amounts} amounts × ${s.intervals} intervals × ${s.durations} infusion durations = ${s.regimens} regimens searched, each given to the same ${r.population.subjects} virtual subjects of the scenario's population, solved to steady state for each (${s.steadyStateSolves} steady states) and run from the first dose (${s.intervalsSimulated} dosing intervals simulated from empty).`
     : `${s.amounts} amounts × ${s.intervals} intervals × ${s.durations} infusion durations = ${s.regimens} regimens searched, each solved to steady state on the scenario's model (${s.method}; ${s.steadyStateSolves} steady-state solves, ${s.intervalsSimulated} dosing intervals simulated from empty).`;
   paragraph(doc, `${searchedWords} ${shown.length < r.proposals.length ? `The best ${shown.length} of ${r.proposals.length} are shown.` : `All ${r.proposals.length} are shown.`}`, { size: type.small });
   // The targets stay with the table's first rows.
@@ -118,6 +177,7 @@ export function drawProposalsSection(doc: PDFKit.PDFDocument, outcome: Outcome<P
   if (r.population) {
     drawPopulationTable(doc, r, shown);
     for (const p of shown.filter((x) => x.note !== null)) bullet(doc, `Rank ${p.rank}: ${p.note}`, palette.warning);
+    drawApproachTable(doc, r, shown);
     paragraph(doc, `Ranking rule: ${r.rankingRule}.`, { size: type.small, color: palette.muted });
     return;
   }

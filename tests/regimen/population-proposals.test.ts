@@ -11,6 +11,7 @@ import { normalCdf } from '../../models/population/normal.ts';
 import { proposeByBasis } from '../../models/regimen/propose-basis.ts';
 import { POPULATION_RANKING_RULE, rankPopulation, type PopulationRankable } from '../../models/regimen/population-rank.ts';
 import type { Proposal, ProposeResult } from '../../models/regimen/propose.ts';
+import { TIME_TO_WINDOW_POPULATION_RULE } from '../../models/regimen/population-approach.ts';
 import { runProposeCli } from '../../server/propose-cli.ts';
 
 const limits = { subjects: 5000, runs: 50_000 };
@@ -98,19 +99,16 @@ describe('attainment against the log-normal CDF (continuous infusion at steady s
     for (let k = 1; k < floor.length; k++) expect(floor[k]).toBeGreaterThanOrEqual(floor[k - 1]);
   });
 
-  it('states its basis, the rule, the omissions and both cautions', () => {
+  it('states its basis, the rules and both cautions', () => {
     expect(r.population?.subjects).toBe(N);
     expect(r.searched.steadyStateSolves).toBe(N * amounts.length);
     expect(r.rankingRule).toBe(POPULATION_RANKING_RULE);
-    expect(r.population?.timeToWindow).toMatch(/^not given for a population/);
+    expect(r.population?.timeToWindow).toBe(TIME_TO_WINDOW_POPULATION_RULE);
+    expect(r.timeToWindowDefinition).toBe(TIME_TO_WINDOW_POPULATION_RULE);
+    expect(r.population?.loading).toBeNull();
     expect(r.population?.caution).toMatch(/model population .* not a patient/);
     expect(r.caution).toMatch(/clinician's review/);
-    expect(r.proposals.every((p) => p.loading === null && p.timeToWindow === null)).toBe(true);
-  });
-
-  it('leaves a loading dose out with its reason', () => {
-    const loaded = propose(infusionScenario(50, { loading: true }));
-    expect(loaded.population?.loading).toMatch(/^not proposed for a population/);
+    expect(r.proposals.every((p) => p.loading === null && row(p).approach.firstInterval.withLoading === null)).toBe(true);
   });
 });
 
