@@ -39,6 +39,13 @@ export interface ProposalWorkerData {
 /** What a proposals worker posts on its port. */
 export type ProposalWorkerMessage = { kind: 'chunk'; chunk: ProposalChunk } | { kind: 'problems'; problems: Problem[] } | { kind: 'finished' };
 
+/**
+ * Silence from every worker, while chunks are outstanding, after which this thread computes them
+ * itself: only a thread that died unheard is that quiet for long (a chunk is at most 64 subjects);
+ * a slow one merely has its work done twice, with the same numbers.
+ */
+export const STALL_MS = 60_000;
+
 /** Below this many subject × regimen runs one thread is quicker than starting others (a worker loads the engine in about a second). */
 export const THREADS_FROM_RUNS = 2_000;
 
@@ -51,6 +58,8 @@ export interface ProposalThreadOptions {
   minRuns?: number;
   /** False: this thread only waits, the workers compute every chunk (tests: the workers' numbers are then all there is). */
   callerComputes?: boolean;
+  /** Silence after which this thread does the outstanding chunks itself (default STALL_MS; tests shorten it). */
+  stallMs?: number;
 }
 
 // Read through a variable on purpose: the server build rewrites the literal `import.meta` URL
@@ -86,12 +95,12 @@ export function proposeOnThreads(input: unknown, limits: PopulationProposalLimit
     const chunk = runProposalChunk(p, 0, N);
     return chunk.ok ? { ok: true, value: summariseProposals(p, [chunk.value]) } : chunk;
   }
-  const chunks = runChunksOnThreads(p, input, limits, threads, options.worker ?? proposalsWorkerModule(), options.callerComputes ?? true);
+  const chunks = runChunksOnThreads(p, input, limits, threads, options.worker ?? proposalsWorkerModule(), options.callerComputes ?? true, options.stallMs ?? STALL_MS);
   return chunks.ok ? { ok: true, value: summariseProposals(p, chunks.value) } : chunks;
 }
 
 /** Every chunk of the subjects, by this thread and threads − 1 workers, or the first problem met. */
-function runChunksOnThreads(p: PreparedProposals, input: unknown, limits: PopulationProposalLimits, threads: number, module: WorkerModule, callerComputes: boolean): Outcome<ProposalChunk[]> {
+function runChunksOnThreads(p: PreparedProposals, input: unknown, limits: PopulationProposalLimits, threads: number, module: WorkerModule, callerComputes: boolean, stallMs: number): Outcome<ProposalChunk[]> {
   const ranges = chunkRanges({ first: 0, count: p.plan.subjects }, threads);
   const chunkCount = ranges.length / 2;
   const shared = new SharedArrayBuffer(2 * Int32Array.BYTES_PER_ELEMENT);
@@ -131,11 +140,25 @@ function runChunksOnThreads(p: PreparedProposals, input: unknown, limits: Popula
       done.push(chunk.value);
     }
     // Then the workers' chunks: woken by each message they post (or every 100 ms to look again).
+    let heard = Date.now();
     for (;;) {
       const posted = Atomics.load(state, 1);
       drain();
       if (failure || done.length === chunkCount) break;
-      Atomics.wait(state, 1, posted, 100);
+      if (Atomics.wait(state, 1, posted, 100) !== 'timed-out') heard = Date.now();
+      else if (Date.now() - heard > stallMs) {
+        // A thread that died without a word (out of memory, say) is never heard from: its chunks are done here.
+        Atomics.store(state, 0, chunkCount);
+        drain();
+        const have = new Set(done.map((c) => c.first));
+        for (let c = 0; c < chunkCount && !failure; c++) {
+          if (have.has(ranges[2 * c])) continue;
+          const chunk = runProposalChunk(p, ranges[2 * c], ranges[2 * c + 1]);
+          if (chunk.ok) done.push(chunk.value);
+          else failure = chunk.problems;
+        }
+        break;
+      }
     }
   } finally {
     // No chunk is taken after this; a worker still loading finds none and ends.

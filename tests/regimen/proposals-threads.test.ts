@@ -46,6 +46,14 @@ describe('threads give the numbers of one thread', () => {
     expect(one.value.searched.intervalsSimulated).toBeGreaterThan(0);
   }, 60_000);
 
+  it('a worker that takes a chunk and is never heard from again: its chunks are done here after the silence, same numbers', () => {
+    const silent = { kind: 'built' as const, url: new URL('./silent-proposals-worker.mjs', import.meta.url) };
+    const one = proposeOnThreads(scenario, limits, { threads: 1 });
+    const rescued = proposeOnThreads(scenario, limits, { threads: 2, minRuns: 0, callerComputes: false, worker: silent, stallMs: 300 });
+    if (!one.ok || !rescued.ok) throw new Error('expected proposals');
+    expect(rescued.value).toEqual(one.value);
+  });
+
   it('a bad --threads is a usage error', () => {
     const o = runProposeCli(['x.json', '--threads', '0'], { folder: '.' });
     expect(o.code).toBe(2);
