@@ -95,6 +95,8 @@ export interface PopulationJob {
   range: { first: number; count: number };
   shard: { index: number; of: number } | null;
   threads: number;
+  /** The thread count was given (--threads): its workers start at once, not only when the work is worth them. */
+  threadsGiven: boolean;
   format: 'json' | 'csv' | 'text';
   out: string | undefined;
   progress: boolean;
@@ -155,6 +157,7 @@ export function preparePopulation(args: string[], context: CliContext & { cores?
       range,
       shard: shard.value,
       threads: threads.value ?? Math.max(1, context.cores ?? 1),
+      threadsGiven: threads.value !== undefined,
       format,
       out,
       progress: options.has('progress') || context.terminal === true,

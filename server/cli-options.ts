@@ -51,7 +51,9 @@ commands:
 options:
   --out FILE                 written whole or not at all, never over an input file
   --time-limit SECONDS       stop a computation that runs longer (default ${defaultTimeLimitSeconds}; 0 for none)
-  --threads K                population: worker threads (default: this machine's cores)
+  --threads K                population: threads, this one included, all started at once (default: this
+                             machine's cores, the others started only when the work left would take
+                             this thread over 2 s)
   --progress                 population: a progress line per 10% on stderr even when it is not a terminal
 
 Relative paths are read from the current folder. Exit status: 0 success, 1 invalid scenario,

@@ -120,7 +120,7 @@ async function runPopulation(args: string[], folder: string): Promise<Finished> 
     : undefined;
   try {
     const threads = Math.max(1, Math.min(job.threads, job.range.count));
-    const run = await runThreads(job.scenario, job.overrides, job.overrides.subjects, { threads, plan: job.plan, bands: job.shard === null, worker: populationWorkerFor(import.meta.url), range: job.range, signal: controller.signal, onProgress });
+    const run = await runThreads(job.scenario, job.overrides, job.overrides.subjects, { threads, plan: job.plan, bands: job.shard === null, workersAtOnce: job.threadsGiven, worker: populationWorkerFor(import.meta.url), range: job.range, signal: controller.signal, onProgress });
     if (controller.signal.aborted) return { code: 1, stdout: '', stderr: timeLimitMessage(job.timeLimit) + '\n' };
     if (!run.ok) return { code: 1, stdout: '', stderr: run.problems.map((p) => `${visibleText(p.path)}: ${visibleText(p.message)}`).join('\n') + '\n' };
     return toFinished(finishPopulation(job, run.value, run.computed));
