@@ -107,7 +107,7 @@ export async function runThreads(
   overrides: PopulationOverrides,
   subjects: number,
   options: ThreadOptions,
-): Promise<Outcome<Batch[]> & { cancelled?: boolean; computed?: ComputedBands }> {
+): Promise<Outcome<Batch[]> & { cancelled?: boolean; computed?: ComputedBands; threadsUsed?: number }> {
   const range = options.range ?? { first: 0, count: subjects };
   const threads = Math.max(1, options.threads);
   const chunks = chunkRanges(range, threads);
@@ -207,10 +207,11 @@ export async function runThreads(
     if (options.signal?.aborted) return { ok: false, problems: [{ path: 'population', message: 'cancelled' }], cancelled: true };
     if (failure) return { ok: false, problems: failure };
     batches.sort((a, b) => a.first - b.first);
-    if (!options.bands || !options.plan || !local) return { ok: true, value: batches };
+    const threadsUsed = workers.length + (inMain ? 1 : 0);
+    if (!options.bands || !options.plan || !local) return { ok: true, value: batches, threadsUsed };
     const computed = await bandsOnThreads(local, options.plan, batches, workers.filter((w) => finishedWorkers.has(w)), bandWaiters, options.signal);
     if (options.signal?.aborted || computed === null) return { ok: false, problems: [{ path: 'population', message: 'cancelled' }], cancelled: true };
-    return { ok: true, value: batches, computed };
+    return { ok: true, value: batches, computed, threadsUsed };
   } finally {
     options.signal?.removeEventListener('abort', onAbort);
     stopAll();

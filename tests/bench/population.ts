@@ -61,6 +61,7 @@ export function populationScenario(saturable: boolean, subjects: number, step = 
 export interface PopulationRun {
   subjects: number;
   times: number;
+  /** Threads that computed (the calling one, and the workers it started: see workersWorthIt). */
   threads: number;
   seconds: number;
   /** The parts of `seconds`: the plan, the threads (started, run, joined) and the summary. */
@@ -142,6 +143,7 @@ async function runHere(saturable: boolean, subjects: number, step: number, end?:
   };
   const batches = await runThreads(scenario, {}, subjects, options);
   if (!batches.ok) throw new Error(JSON.stringify(batches.problems));
+  const threadsUsed = batches.threadsUsed ?? threads;
   const ran = performance.now();
   const result = summarise(plan.value, batches.value, batches.computed);
   if (!result.ok) throw new Error(JSON.stringify(result.problems));
@@ -150,7 +152,7 @@ async function runHere(saturable: boolean, subjects: number, step: number, end?:
   return {
     subjects,
     times: result.value.times.length,
-    threads,
+    threads: threadsUsed,
     seconds,
     planSeconds: (planned - start) / 1000,
     threadSeconds: (ran - planned) / 1000,
@@ -189,7 +191,7 @@ export async function measurePopulation(): Promise<PopulationBench> {
 export function populationReport(b: PopulationBench): string {
   const f = (v: number, d = 2) => v.toFixed(d);
   const run = (name: string, r: PopulationRun, target: string) =>
-    `  ${name.padEnd(44)} ${f(r.seconds).padStart(7)} s  ${String(Math.round(r.peakRssMb)).padStart(5)} MB peak  (${r.subjects} subjects × ${r.times} times, ${r.threads} threads; ${target})\n` +
+    `  ${name.padEnd(44)} ${f(r.seconds).padStart(7)} s  ${String(Math.round(r.peakRssMb)).padStart(5)} MB peak  (${r.subjects} subjects × ${r.times} times, ${r.threads} of ${availableParallelism()} threads used; ${target})\n` +
     `  ${''.padEnd(44)} plan ${f(r.planSeconds)} s, threads ${f(r.threadSeconds)} s (first subjects done after ${f(r.firstSubjectSeconds)} s), summary ${f(r.summarySeconds)} s`;
   return [
     `  per subject, one thread: population path ${f(b.perSubject.populationPathMs, 3)} ms, exact solve alone ${f(b.perSubject.exactSolveMs, 3)} ms: ${f(b.perSubject.ratio, 1)}×`,

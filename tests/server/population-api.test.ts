@@ -177,3 +177,27 @@ describe('POST /api/population: limits and problems', () => {
     await request(app).delete('/api/population/x').set('Sec-Fetch-Site', 'cross-site').expect(403);
   });
 });
+
+describe('runThreads: when the calling thread computes', () => {
+  it('starts no worker for a small population unless asked, and the numbers do not depend on it', async () => {
+    const { planPopulation, summarise } = await import('../../models/population/population.ts');
+    const { runThreads, workersWorthIt } = await import('../../server/population-threads.ts');
+    const scenario = { ...copy(), output: { end: '48 h', step: '1 h' } };
+    scenario.population = { ...scenario.population, subjects: 40, regimens: undefined };
+    const plan = planPopulation(scenario);
+    if (!plan.ok) throw new Error(JSON.stringify(plan.problems));
+    const run = (workersAtOnce: boolean) => runThreads(scenario, {}, 40, { threads: 2, plan: plan.value, bands: true, worker: builtPopulationWorker, workersAtOnce });
+    const alone = await run(false);
+    const both = await run(true);
+    if (!alone.ok || !both.ok) throw new Error('population failed');
+    // 40 subjects take the calling thread well under the quarter second before a worker is considered.
+    expect(alone.threadsUsed).toBe(1);
+    expect(both.threadsUsed).toBe(2);
+    const a = summarise(plan.value, alone.value, alone.computed);
+    const b = summarise(plan.value, both.value, both.computed);
+    expect(a.ok && b.ok).toBe(true);
+    if (a.ok && b.ok) expect(b.value).toEqual(a.value);
+    // The rule itself: past the warm-up and over two seconds left, and only then.
+    expect([workersWorthIt(300, 2500), workersWorthIt(100, 9000), workersWorthIt(300, 1500)]).toEqual([true, false, false]);
+  }, 60_000);
+});
