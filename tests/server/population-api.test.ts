@@ -182,7 +182,7 @@ describe('runThreads: when the calling thread computes', () => {
   it('starts no worker for a small population unless asked, and the numbers do not depend on it', async () => {
     const { planPopulation, summarise } = await import('../../models/population/population.ts');
     const { runThreads, workersWorthIt } = await import('../../server/population-threads.ts');
-    const scenario = { ...copy(), output: { end: '48 h', step: '1 h' } };
+    const scenario: Scenario = { ...copy(), output: { end: '48 h', step: '1 h' } };
     scenario.population = { ...scenario.population, subjects: 40, regimens: undefined };
     const plan = planPopulation(scenario);
     if (!plan.ok) throw new Error(JSON.stringify(plan.problems));
