@@ -54,10 +54,10 @@ describe('report of population proposals', () => {
     expect(r.proposals.map((p) => p.rank)).toEqual([1, 2, 3, 4]);
   });
 
-  it('carries both cautions, the ranking rule and what is left out', () => {
+  it('carries both cautions, the ranking rule and the time-to-window rule', () => {
     expect(flat).toContain(POPULATION_CAUTION.slice(0, 60));
     expect(flat).toContain(PROPOSAL_CAUTION.slice(0, 60));
     expect(flat).toContain('Ranking rule: the share of subjects meeting every target jointly');
-    expect(flat).toContain('Time to the window: not given for a population');
+    expect(flat).toContain('Time to the window: for each subject, the regimen given from empty');
   });
 });
