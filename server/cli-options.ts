@@ -42,7 +42,7 @@ commands:
   propose FILE     regimen proposals from the scenario's \`propose\` block: amounts from the strengths,
                    intervals and infusion durations solved to steady state, judged against the
                    targets and ranked, with the time to the window and an optional loading dose
-                   options: [--format text|json] [--top N] [--time-limit SECONDS]
+                   options: [--format text|json] [--top N] [--threads K] [--time-limit SECONDS]
   fit FILE         the individual's own values of the quantities the scenario's \`fit\` section
                    names, from its measured levels (weighted least squares or maximum a posteriori)
                    options: [--objective wls|map] [--format text|json] [--out fitted.json]
