@@ -674,20 +674,22 @@ export class LinearTrajectory implements Trajectory {
           stepH = h;
         }
         if (step && amountsOnly && step.leadingRows > highestPick) {
-          if (step !== runStep) {
+          // The rows that follow at the same step in this piece go in one run — when there are
+          // some: times that never repeat a step (a grid out of phase with the doses) take one
+          // product each, without looking up a run.
+          let count = 1;
+          for (let r = row + 1; r < times.length; r++) {
+            const tr = times[r];
+            const hr = tr - times[r - 1];
+            const leaves = k < last && (sides[r] === 0 ? starts[k + 1] < tr : starts[k + 1] <= tr);
+            if (leaves || !(hr > 0) || Math.abs(hr - stepH) > 1e-12 * hr) break;
+            count++;
+          }
+          if (count > 1 && step !== runStep) {
             runStep = step;
             run = picks && picks.length > 0 ? leadingRunFor(step, picks) : null;
           }
-          if (run && out && volumes) {
-            // The rows that follow at the same step in this piece go in one run.
-            let count = 1;
-            for (let r = row + 1; r < times.length; r++) {
-              const tr = times[r];
-              const hr = tr - times[r - 1];
-              const leaves = k < last && (sides[r] === 0 ? starts[k + 1] < tr : starts[k + 1] <= tr);
-              if (leaves || !(hr > 0) || Math.abs(hr - stepH) > 1e-12 * hr) break;
-              count++;
-            }
+          if (count > 1 && run && out && volumes) {
             run(step.vals, step.g, x, count, out, bases, volumes, row);
             row += count - 1;
             at = times[row];
