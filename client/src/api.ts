@@ -3,12 +3,10 @@
  * exception object or server text other than the listed problems reaches the user.
  */
 import type { SimulationResultJson } from '../../models/result/result-format.ts';
+import type { Problem } from '../../models/scenario/problems.ts';
 import { blankCellProblems } from './covariate-table-model.ts';
 
-export interface Problem {
-  path: string;
-  message: string;
-}
+export type { Problem };
 
 export type SimulateOutcome =
   | { kind: 'ok'; result: SimulationResultJson; recorded: string | null }

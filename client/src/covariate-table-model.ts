@@ -6,7 +6,7 @@
  * from them each time, so nothing is stored twice.
  */
 import { covariateNameProblem } from '../../models/scenario/covariate-name.ts';
-import type { Problem } from './api.ts';
+import type { Problem } from '../../models/scenario/problems.ts';
 import { isNumberText } from './quantity.ts';
 
 export type TableRow = Record<string, unknown>;
