@@ -7,7 +7,7 @@
  * a stored version (the page saves first if needed) and recorded there with who asked for it.
  */
 import type { Problem } from './api.ts';
-import { failureOf, unreachable } from './api.ts';
+import { failureOf, refusedBeforeSending, unreachable } from './api.ts';
 import { h } from './dom.ts';
 
 export type ReportOutcome =
@@ -25,6 +25,9 @@ export function filenameFrom(header: string | null, fallback: string): string {
 
 /** `query` (scenario, version, by) makes the library record the issued report. */
 export async function requestReport(scenario: unknown, reference: unknown | null, query = ''): Promise<ReportOutcome> {
+  // Empty covariate cells are refused beside them before anything is sent, as for a run.
+  const refused = refusedBeforeSending(scenario);
+  if (refused) return refused;
   let res: Response;
   try {
     res = await fetch(query ? `api/report?${query}` : 'api/report', {

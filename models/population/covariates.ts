@@ -87,12 +87,20 @@ export function readCovariatePlan(p: Population, problems: Problem[]): Covariate
     else {
       rows = table.rows as Subject[];
       const drawnNames = new Set(drawn.map((c) => c.name));
+      // Every column of the table, and the first row that gives it: a row without one would
+      // quietly take the scenario subject's value for it (as the CSV reader, every row needs
+      // every column).
+      const columns = new Map<string, number>();
+      rows.forEach((row, i) => Object.keys(row).forEach((k) => columns.has(k) || columns.set(k, i)));
       const before = problems.length;
       for (let i = 0; i < rows.length && problems.length - before < maxRowProblems; i++) {
         const row = rows[i];
         const at = `population.covariateTable.rows[${i}]`;
         for (const k of Object.keys(row)) {
           if (drawnNames.has(k)) fail(`${at}.${k}`, `'${k}' is also drawn from population.covariates.${k}; give it in one place`);
+        }
+        for (const [k, first] of columns) {
+          if (!(k in row)) fail(`${at}.${k}`, `is missing: row ${first} gives '${k}', and every row of the table needs every column it has (a subject without it would take the scenario subject's value unseen)`);
         }
         // Each row is read now as the subject it becomes, so a bad cell is named by its row and
         // column rather than by the first virtual subject that happens to take it.

@@ -35,6 +35,15 @@ describe('covariate table rows', () => {
     ]);
   });
 
+  it('names a cell missing from a row that other rows give (it would take the scenario subject\'s value unseen)', () => {
+    const full = { height: '170 cm', sex: 'male', serumCreatinine: '0.9 mg/dL' };
+    const plan = planPopulation(withRows([{ ...full, weight: '70 kg', age: '40 year' }, { ...full, age: '52 year' }, { ...full, weight: '60 kg' }]));
+    expect(plan.ok).toBe(false);
+    if (plan.ok) return;
+    expect(plan.problems.map((p) => p.path)).toEqual(['population.covariateTable.rows[1].weight', 'population.covariateTable.rows[2].age']);
+    expect(plan.problems[0].message).toBe("is missing: row 0 gives 'weight', and every row of the table needs every column it has (a subject without it would take the scenario subject's value unseen)");
+  });
+
   it('plans a table whose every row reads', () => {
     const plan = planPopulation(withRows([{ weight: '70 kg', height: '170 cm', age: '40 year', sex: 'male', serumCreatinine: '0.9 mg/dL' }, { weight: '132 lb', height: '160 cm', age: '52 year', sex: 'female', serumCreatinine: '70 umol/L' }]));
     expect(plan.ok).toBe(true);
