@@ -31,6 +31,10 @@ interface Column {
 export function readCovariateHeader(field: string): { ok: true; name: string; unit: string | null } | { ok: false; message: string } {
   const m = /^(.*?)\s*\[([^[\]]*)\]\s*$/.exec(field);
   const name = (m ? m[1] : field).trim();
+  const open = field.indexOf('[');
+  if (!m && open > 0 && !field.includes(']') && covariateNameProblem(field.slice(0, open).trim()) === null) {
+    return { ok: false, message: `the unit bracket after '${field.slice(0, open).trim()}' is not closed: write "${field.slice(0, open).trim()} [${field.slice(open + 1).trim()}]"` };
+  }
   const problem = covariateNameProblem(name);
   if (problem !== null) return { ok: false, message: `${problem}; a unit goes in brackets after the name, e.g. "weight [kg]"` };
   const unit = m ? m[2].trim() : null;

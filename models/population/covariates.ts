@@ -3,6 +3,7 @@
  * the population's distributions — each draw by inverse CDF from one uniform number of the
  * subject's own stream, so a subject's covariates depend only on (seed, subject).
  */
+import { covariateNameProblem } from '../scenario/covariate-name.ts';
 import type { Problem } from '../scenario/problems.ts';
 import { sexes, type Population, type Subject } from '../scenario/schema.ts';
 import { convertToUnit, unitWritten } from '../scenario/units.ts';
@@ -37,8 +38,9 @@ export function readCovariatePlan(p: Population, problems: Problem[]): Covariate
   const r = { fail };
   for (const [name, d] of Object.entries(p.covariates ?? {})) {
     const path = `population.covariates.${name}`;
-    if (!/^[A-Za-z][A-Za-z0-9_]{0,39}$/.test(name)) {
-      fail(path, 'a covariate name must start with a letter and use only letters, digits or "_"');
+    const badName = covariateNameProblem(name);
+    if (badName !== null) {
+      fail(path, badName);
       continue;
     }
     if (['bmi', 'bsa', 'crcl', 'ibw', 'lbw'].includes(name)) {

@@ -4,6 +4,7 @@
  * published formulas derive from them (body-mass index, body surface area, creatinine
  * clearance, ideal and lean body weight). Covariate relations and per-size doses read these.
  */
+import { covariateNameProblem } from '../scenario/covariate-name.ts';
 import type { Problem } from '../scenario/problems.ts';
 import type { Sex, Subject } from '../scenario/schema.ts';
 import { convertToUnit, unitWritten } from '../scenario/units.ts';
@@ -31,8 +32,6 @@ const given: Record<'weight' | 'height' | 'age' | 'serumCreatinine', { unit: str
 
 /** Names the derived covariates take; the subject may not use them for covariates of its own. */
 export const derivedNames = ['bmi', 'bsa', 'crcl', 'ibw', 'lbw'] as const;
-
-const identifier = /^[A-Za-z][A-Za-z0-9_]{0,39}$/;
 
 function readGiven(name: keyof typeof given, q: number | string, problems: Problem[]): number | null {
   const { unit, words } = given[name];
@@ -79,8 +78,9 @@ export function readSubject(subject: Subject | undefined): { covariates: Covaria
 
   for (const [name, q] of Object.entries(subject)) {
     if (name in given || name === 'sex' || q === undefined) continue;
-    if (!identifier.test(name)) {
-      problems.push({ path: `subject.${name}`, message: 'a covariate name must start with a letter and use only letters, digits or "_"' });
+    const badName = covariateNameProblem(name);
+    if (badName !== null) {
+      problems.push({ path: `subject.${name}`, message: badName });
       continue;
     }
     if ((derivedNames as readonly string[]).includes(name)) {

@@ -2,7 +2,7 @@
 // reads pasted text with it, the command line reads files through server/covariate-csv.ts.
 // Quoting follows RFC 4180 §2 (a quoted field may hold commas, line breaks and doubled quotes).
 import { describe, expect, it } from 'vitest';
-import { parseCovariateCsv } from '../../models/population/covariate-csv.ts';
+import { parseCovariateCsv, readCovariateHeader } from '../../models/population/covariate-csv.ts';
 import { parseScenario } from '../../models/scenario/normalize.ts';
 import { parseCovariateCsv as parseCovariateFile } from '../../server/covariate-csv.ts';
 
@@ -64,5 +64,9 @@ describe('covariate CSV text', () => {
       { path: 'population.covariateTable.rows[0]', message: `the column name 'body.mass' holds '.', which would split its JSON path: ${rule}` },
       { path: 'population.covariateTable.rows[1]', message: `the column name 'dose[1]' holds '[', which would split its JSON path: ${rule}` },
     ]);
+  });
+
+  it('says an unclosed unit bracket is not closed, rather than that the name holds "["', () => {
+    expect(readCovariateHeader('weight [kg')).toEqual({ ok: false, message: 'the unit bracket after \'weight\' is not closed: write "weight [kg]"' });
   });
 });
