@@ -15,7 +15,7 @@ import { buildModel, parseScenario } from '../models/scenario/normalize.ts';
 import type { Problem } from '../models/scenario/problems.ts';
 import { fitCaution } from './fit-cli.ts';
 import type { JobReply, JobRequest } from './jobs.ts';
-import { proposeOnThreads } from './proposals-threads.ts';
+import { proposeOnThreads, stallForBudget, type ProposalThreadOptions } from './proposals-threads.ts';
 import { populationProposalLimits } from './propose-cli.ts';
 
 type Reply = Omit<JobReply, 'id'>;
@@ -23,7 +23,39 @@ type Reply = Omit<JobReply, 'id'>;
 const problems = (status: number, list: Problem[]): Reply => ({ status, contentType: 'application/json', body: JSON.stringify({ problems: list }) });
 const megabytes = (bytes: number) => `${Math.round((bytes / 2 ** 20) * 10) / 10} MB`;
 
-export function runLevelsJob(job: Pick<JobRequest, 'kind' | 'scenario' | 'objective' | 'rule' | 'maxOutputPoints' | 'maxResponseBytes'>): Reply {
+/** What a levels job knows of the pool worker it runs in; nothing known means one thread for proposals. */
+export interface LevelsJobContext {
+  /** Workers in the pool. */
+  poolSize?: number;
+  /** The job's wall-clock budget, ms, counted from when this job began. */
+  timeBudgetMs?: number;
+  /** The pool's heap limit of one worker, MB: nested threads get the same. */
+  workerHeapMb?: number;
+  /** When the job began (Date.now()); default: when runLevelsJob was called. */
+  began?: number;
+}
+
+/**
+ * The threads a population proposal may use inside a pool worker. The pool already runs several
+ * jobs side by side, one per worker, on a machine of few cores (2 here): more threads per job
+ * only oversubscribe them, and cost each a worker's start-up. So one thread, this one, unless
+ * the pool has a single worker; then the machine's cores, each nested worker under the pool's
+ * heap limit, and a silent one's chunks taken back after a third of the budget left (so they can
+ * still be done before the budget stops the job).
+ */
+export function proposalThreadsInPool(context: LevelsJobContext, now: number = Date.now()): ProposalThreadOptions {
+  if (context.poolSize !== 1) return { threads: 1 };
+  const left = context.timeBudgetMs === undefined ? undefined : context.timeBudgetMs - (now - (context.began ?? now));
+  return {
+    // Nobody asked for threads: they start only when the work left is worth them.
+    workersAtOnce: false,
+    ...(left === undefined ? {} : { stallMs: stallForBudget(Math.max(0, left)) }),
+    ...(context.workerHeapMb === undefined ? {} : { heapMb: context.workerHeapMb }),
+  };
+}
+
+export function runLevelsJob(job: Pick<JobRequest, 'kind' | 'scenario' | 'objective' | 'rule' | 'maxOutputPoints' | 'maxResponseBytes'>, context: LevelsJobContext = {}): Reply {
+  const began = context.began ?? Date.now();
   // The answer's text is the measure of its size (a fit's curves follow the output grid).
   const answer = (value: unknown): Reply => {
     const body = JSON.stringify(value);
@@ -63,8 +95,8 @@ export function runLevelsJob(job: Pick<JobRequest, 'kind' | 'scenario' | 'object
       const checked = checkPopulationProposals(parsed.value, model.value, settings.value, populationProposalLimits);
       if (checked.length > 0) return problems(400, checked);
     }
-    // A large population's subjects run across the machine's cores, this worker among them.
-    const proposed = proposeOnThreads(job.scenario, populationProposalLimits);
+    // One thread in a pool of several workers (see proposalThreadsInPool).
+    const proposed = proposeOnThreads(job.scenario, populationProposalLimits, proposalThreadsInPool({ ...context, began }));
     return proposed.ok ? answer(proposed.value) : problems(422, proposed.problems);
   }
   return problems(500, [{ path: '', message: `internal error: no levels job '${job.kind}'` }]);

@@ -10,7 +10,9 @@
  * (runProposalChunk): subject i's numbers depend only on (seed, i), so the result is the same
  * for any number of threads, and the same as proposeForPopulation's in one thread.
  *
- * The typical subject's loading doses are chosen here once and told to the workers.
+ * The typical subject's loading doses are chosen here once and told to the workers. Asked to
+ * (workersAtOnce false), this thread starts alone and starts the workers only when the work left
+ * is worth what they cost to start, as the population command does.
  */
 import { availableParallelism } from 'node:os';
 import { MessageChannel, receiveMessageOnPort, type MessagePort, type Worker } from 'node:worker_threads';
@@ -21,6 +23,7 @@ import type { ProposeResult } from '../models/regimen/propose.ts';
 import { readPropose } from '../models/regimen/settings.ts';
 import { normaliseScenario, parseScenario } from '../models/scenario/normalize.ts';
 import type { Outcome, Problem } from '../models/scenario/problems.ts';
+import { workersWorthIt } from './population-threads.ts';
 import { startWorker, type WorkerModule } from './worker-pool.ts';
 
 /** What a proposals worker is started with. */
@@ -42,9 +45,19 @@ export type ProposalWorkerMessage = { kind: 'chunk'; chunk: ProposalChunk } | { 
 /**
  * Silence from every worker, while chunks are outstanding, after which this thread computes them
  * itself: only a thread that died unheard is that quiet for long (a chunk is at most 64 subjects);
- * a slow one merely has its work done twice, with the same numbers.
+ * a slow one merely has its work done twice, with the same numbers. This is the command line's,
+ * which has no time budget; a caller with one passes stallForBudget of what is left of it.
  */
 export const STALL_MS = 60_000;
+
+/**
+ * The silence to wait for, out of `remainingMs` of a time budget: a third of it, so that the
+ * outstanding chunks can still be done here before the budget stops the job (the chunks a lost
+ * thread held are at most its share, and this thread had been computing beside it).
+ */
+export function stallForBudget(remainingMs: number): number {
+  return Math.max(1, Math.floor(remainingMs / 3));
+}
 
 /** Below this many subject × regimen runs one thread is quicker than starting others (a worker loads the engine in about a second). */
 export const THREADS_FROM_RUNS = 2_000;
@@ -58,8 +71,29 @@ export interface ProposalThreadOptions {
   minRuns?: number;
   /** False: this thread only waits, the workers compute every chunk (tests: the workers' numbers are then all there is). */
   callerComputes?: boolean;
-  /** Silence after which this thread does the outstanding chunks itself (default STALL_MS; tests shorten it). */
+  /** Silence after which this thread does the outstanding chunks itself (default STALL_MS; a budgeted caller: stallForBudget). */
   stallMs?: number;
+  /** JavaScript heap of each worker (V8's old generation), MB: the limit the caller itself runs under; none when absent. */
+  heapMb?: number;
+  /**
+   * Start the workers at once (default; a thread count the user asked for). False: this thread
+   * starts alone and starts them only when the work left is worth it (population-threads.ts
+   * workersWorthIt: after a quarter of a second, when the rest would take it over two more).
+   */
+  workersAtOnce?: boolean;
+  /** The clock the silence is measured on, ms (default Date.now; tests count its readings). */
+  now?: () => number;
+}
+
+/** How runChunksOnThreads starts and watches its workers. */
+interface ThreadPlan {
+  threads: number;
+  module: WorkerModule;
+  callerComputes: boolean;
+  stallMs: number;
+  heapMb: number | undefined;
+  workersAtOnce: boolean;
+  now: () => number;
 }
 
 // Read through a variable on purpose: the server build rewrites the literal `import.meta` URL
@@ -95,30 +129,46 @@ export function proposeOnThreads(input: unknown, limits: PopulationProposalLimit
     const chunk = runProposalChunk(p, 0, N);
     return chunk.ok ? { ok: true, value: summariseProposals(p, [chunk.value]) } : chunk;
   }
-  const chunks = runChunksOnThreads(p, input, limits, threads, options.worker ?? proposalsWorkerModule(), options.callerComputes ?? true, options.stallMs ?? STALL_MS);
+  const plan: ThreadPlan = {
+    threads,
+    module: options.worker ?? proposalsWorkerModule(),
+    callerComputes: options.callerComputes ?? true,
+    stallMs: options.stallMs ?? STALL_MS,
+    heapMb: options.heapMb,
+    workersAtOnce: options.workersAtOnce ?? true,
+    now: options.now ?? Date.now,
+  };
+  const chunks = runChunksOnThreads(p, input, limits, plan);
   return chunks.ok ? { ok: true, value: summariseProposals(p, chunks.value) } : chunks;
 }
 
 /** Every chunk of the subjects, by this thread and threads − 1 workers, or the first problem met. */
-function runChunksOnThreads(p: PreparedProposals, input: unknown, limits: PopulationProposalLimits, threads: number, module: WorkerModule, callerComputes: boolean, stallMs: number): Outcome<ProposalChunk[]> {
-  const ranges = chunkRanges({ first: 0, count: p.plan.subjects }, threads);
+function runChunksOnThreads(p: PreparedProposals, input: unknown, limits: PopulationProposalLimits, plan: ThreadPlan): Outcome<ProposalChunk[]> {
+  const ranges = chunkRanges({ first: 0, count: p.plan.subjects }, plan.threads);
   const chunkCount = ranges.length / 2;
   const shared = new SharedArrayBuffer(2 * Int32Array.BYTES_PER_ELEMENT);
   const state = new Int32Array(shared);
   const workers: { worker: Worker; port: MessagePort }[] = [];
   const loadings = loadingAmounts(p);
-  for (let w = 0; w < threads - 1; w++) {
-    const channel = new MessageChannel();
-    const data: ProposalWorkerData = { input, limits, loadings, chunks: ranges, state: shared, port: channel.port2 };
-    try {
-      workers.push({ worker: startWorker(module, { workerData: data, transferList: [channel.port2] }), port: channel.port1 });
-    } catch {
-      // A thread that cannot start leaves its chunks to the others.
-      channel.port1.close();
+  const resourceLimits = plan.heapMb ? { resourceLimits: { maxOldGenerationSizeMb: plan.heapMb } } : {};
+  let started = false;
+  const startWorkers = () => {
+    started = true;
+    for (let w = 0; w < plan.threads - 1; w++) {
+      const channel = new MessageChannel();
+      const data: ProposalWorkerData = { input, limits, loadings, chunks: ranges, state: shared, port: channel.port2 };
+      try {
+        workers.push({ worker: startWorker(plan.module, { workerData: data, transferList: [channel.port2], ...resourceLimits }), port: channel.port1 });
+      } catch {
+        // A thread that cannot start leaves its chunks to the others.
+        channel.port1.close();
+      }
     }
-  }
+  };
+  // A thread that only waits needs its workers now; otherwise they may wait for workersWorthIt.
+  if (plan.workersAtOnce || !plan.callerComputes) startWorkers();
   // With no worker started, this thread computes every chunk whatever it was told.
-  const computes = callerComputes || workers.length === 0;
+  const computes = plan.callerComputes || workers.length === 0;
   const done: ProposalChunk[] = [];
   let failure: Problem[] | null = null;
   const drain = () => {
@@ -131,22 +181,31 @@ function runChunksOnThreads(p: PreparedProposals, input: unknown, limits: Popula
     }
   };
   try {
+    const began = performance.now();
     for (let c = computes ? Atomics.add(state, 0, 1) : chunkCount; c < chunkCount; c = Atomics.add(state, 0, 1)) {
+      const chunkBegan = performance.now();
       const chunk = runProposalChunk(p, ranges[2 * c], ranges[2 * c + 1]);
       if (!chunk.ok) {
         failure ??= chunk.problems;
         break;
       }
       done.push(chunk.value);
+      if (!started) {
+        // The subjects not yet taken, at the rate of this chunk (the next chunk index is the count handed out).
+        const now = performance.now();
+        const taken = Math.min(Atomics.load(state, 0), chunkCount);
+        const left = taken < chunkCount ? p.plan.subjects - ranges[2 * taken] : 0;
+        if (workersWorthIt(now - began, ((now - chunkBegan) / ranges[2 * c + 1]) * left)) startWorkers();
+      }
     }
     // Then the workers' chunks: woken by each message they post (or every 100 ms to look again).
-    let heard = Date.now();
+    let heard = plan.now();
     for (;;) {
       const posted = Atomics.load(state, 1);
       drain();
       if (failure || done.length === chunkCount) break;
-      if (Atomics.wait(state, 1, posted, 100) !== 'timed-out') heard = Date.now();
-      else if (Date.now() - heard > stallMs) {
+      if (Atomics.wait(state, 1, posted, 100) !== 'timed-out') heard = plan.now();
+      else if (plan.now() - heard > plan.stallMs) {
         // A thread that died without a word (out of memory, say) is never heard from: its chunks are done here.
         Atomics.store(state, 0, chunkCount);
         drain();

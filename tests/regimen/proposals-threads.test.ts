@@ -2,12 +2,21 @@
  * Population proposals across threads (server/proposals-threads.ts): the same seed gives the
  * same numbers, bit for bit, on one thread and on two worker threads sharing the chunks (the
  * calling thread only waiting, so every number comes from the workers), and the same as the core
- * in one thread. The workers run from the TypeScript source here.
+ * in one thread. The workers run from the TypeScript source here. A silent worker's chunks are
+ * taken back after the silence the caller gives, and a server's proposal job runs in one thread.
  */
-import { describe, expect, it } from 'vitest';
+import { describe, expect, it, vi } from 'vitest';
 import { proposeByBasis } from '../../models/regimen/propose-basis.ts';
-import { proposeOnThreads } from '../../server/proposals-threads.ts';
+import { proposalThreadsInPool, runLevelsJob } from '../../server/levels-jobs.ts';
+import { proposeOnThreads, stallForBudget, THREADS_FROM_RUNS } from '../../server/proposals-threads.ts';
 import { runProposeCli } from '../../server/propose-cli.ts';
+import { startWorker } from '../../server/worker-pool.ts';
+
+// Every worker start is counted, and still happens.
+vi.mock('../../server/worker-pool.ts', async (importOriginal) => {
+  const real = await importOriginal<typeof import('../../server/worker-pool.ts')>();
+  return { ...real, startWorker: vi.fn(real.startWorker) };
+});
 
 const limits = { subjects: 5000, runs: 50_000 };
 
@@ -52,6 +61,42 @@ describe('threads give the numbers of one thread', () => {
     const rescued = proposeOnThreads(scenario, limits, { threads: 2, minRuns: 0, callerComputes: false, worker: silent, stallMs: 300 });
     if (!one.ok || !rescued.ok) throw new Error('expected proposals');
     expect(rescued.value).toEqual(one.value);
+  });
+
+  it('the silence waited for is the stallMs given: on a clock moving 1 s a reading, 2.5 s and 5.5 s of silence end at the 4th and 7th reading', () => {
+    const silent = { kind: 'built' as const, url: new URL('./silent-proposals-worker.mjs', import.meta.url) };
+    const one = proposeOnThreads(scenario, limits, { threads: 1 });
+    if (!one.ok) throw new Error('expected proposals');
+    const readingsUntilRescue = (stallMs: number) => {
+      let readings = 0;
+      const now = () => ++readings * 1000;
+      const rescued = proposeOnThreads(scenario, limits, { threads: 2, minRuns: 0, callerComputes: false, worker: silent, stallMs, now });
+      if (!rescued.ok) throw new Error('expected proposals');
+      expect(rescued.value).toEqual(one.value);
+      return readings;
+    };
+    // Heard at reading 1; reading k finds (k − 1) s of silence, rescued once that exceeds stallMs.
+    expect(readingsUntilRescue(2500)).toBe(4);
+    expect(readingsUntilRescue(5500)).toBe(7);
+  });
+
+  it('a server proposal job runs in this thread alone: no worker started, though the runs are past the threads threshold', () => {
+    const large = { ...scenario, population: { subjects: 700, seed: 4 } };
+    // 700 subjects × 3 regimens: enough that proposeOnThreads would start workers on its own.
+    expect(700 * scenario.propose.amounts.length).toBeGreaterThanOrEqual(THREADS_FROM_RUNS);
+    vi.mocked(startWorker).mockClear();
+    const reply = runLevelsJob({ kind: 'propose', scenario: large, maxOutputPoints: 10_000 }, { poolSize: 2, timeBudgetMs: 30_000 });
+    expect(reply.status).toBe(200);
+    expect(JSON.parse(reply.body as string).population.subjects).toBe(700);
+    expect(vi.mocked(startWorker)).not.toHaveBeenCalled();
+  }, 60_000);
+
+  it('threads inside a pool: one among several workers; with a single worker, a third of the budget left as the silence and the pool heap limit', () => {
+    expect(proposalThreadsInPool({})).toEqual({ threads: 1 });
+    expect(proposalThreadsInPool({ poolSize: 2, timeBudgetMs: 30_000, workerHeapMb: 1024 })).toEqual({ threads: 1 });
+    // 30 s budget, 3 s spent: 27 s left, a third of it 9 s.
+    expect(proposalThreadsInPool({ poolSize: 1, timeBudgetMs: 30_000, workerHeapMb: 512, began: 1_000 }, 4_000)).toEqual({ workersAtOnce: false, stallMs: 9_000, heapMb: 512 });
+    expect(stallForBudget(30_000)).toBe(10_000);
   });
 
   it('a bad --threads is a usage error', () => {
