@@ -7,7 +7,7 @@
  */
 import { availableParallelism } from 'node:os';
 import type { PopulationProposalLimits } from '../models/regimen/population-proposals.ts';
-import type { Proposal, ProposeResult } from '../models/regimen/propose.ts';
+import { simulatedLoading, type Proposal, type ProposeResult } from '../models/regimen/propose.ts';
 import { describeProblems } from '../models/scenario/problems.ts';
 import { formatNumber } from '../models/result/format-number.ts';
 import { parseOptions, parseWhole } from './cli-options.ts';
@@ -84,9 +84,10 @@ function cell(v: number | null | undefined): string {
   return v === null || v === undefined || Number.isNaN(v) ? '–' : short(v);
 }
 
+/** The loading amount, and when the strengths fell short of the computed one, the row's note saying so. */
 function loadingCell(p: Proposal, amount: string): string {
   if (!p.loading) return '–';
-  return `${short(p.loading.amount)} ${amount}`;
+  return `${short(p.loading.amount)} ${amount}${p.loading.note ? ` (${p.loading.note})` : ''}`;
 }
 
 /** A share of subjects as "83.4% ± 1.7". */
@@ -206,7 +207,7 @@ export function proposalsText(r: ProposeResult, total: number): string {
     cell(p.steadyState?.auc24),
     p.targetsMet.map((m) => (m ? '✓' : '✗')).join(' '),
     cell(p.timeToWindow),
-    p.loading ? cell(p.loading.timeToWindow) : '–',
+    simulatedLoading(p) ? cell(simulatedLoading(p)?.timeToWindow) : '–',
   ]);
   const widths = header.map((h, i) => Math.max(h.length, ...rows.map((row) => row[i].length)));
   const line = (cells: string[]) => cells.map((c, i) => (i === 0 ? c.padStart(widths[i]) : c.padEnd(widths[i]))).join('  ').trimEnd();

@@ -88,8 +88,10 @@ function row(p: Proposal, i: number, result: ProposeResult, tryRow: (p: Proposal
   const met = p.targetsMet.map((m, k) => `${k + 1}${m ? '✓' : '✗'}`).join(' ');
   const tryButton = h('button', { type: 'button', class: 'quiet', 'data-testid': `levels-try-${i}`, 'aria-label': `Try rank ${p.rank} in compare` }, 'Try in compare');
   tryButton.addEventListener('click', () => tryRow(p));
-  const loading = p.loading
-    ? h('td', { title: `computed ${fmt(p.loading.computed)} ${result.units.amount} by ${p.loading.method}; first trough ${fmt(p.loading.firstTrough)} ${result.units.concentration}` }, fmt(p.loading.amount))
+  // The typical basis's loading dose is simulated (a population row gives only its amount, shown under the row).
+  const simulated = p.loading && 'firstTrough' in p.loading ? p.loading : null;
+  const loading = simulated
+    ? h('td', { title: `computed ${fmt(simulated.computed)} ${result.units.amount} by ${simulated.method}; first trough ${fmt(simulated.firstTrough)} ${result.units.concentration}` }, simulated.note ? `${fmt(simulated.amount)} (${simulated.note})` : fmt(simulated.amount))
     : h('td', {}, '—');
   return [
     h('th', { scope: 'row', class: p.allMet ? 'levels-met' : '' }, String(p.rank)),
@@ -132,7 +134,8 @@ function approachLine(p: Proposal, i: number, result: ProposeResult, columns: nu
   const a = (p.population as NonNullable<Proposal['population']>).approach;
   const subjects = result.population?.subjects ?? 0;
   const first = a.firstInterval;
-  const loaded = first.withLoading && p.loading ? `, ${percentWithError(first.withLoading)} after a loading dose of ${fmt(p.loading.amount)} ${result.units.amount}` : '';
+  const capped = p.loading?.note ? ` (${p.loading.note})` : '';
+  const loaded = first.withLoading && p.loading ? `, ${percentWithError(first.withLoading)} after a loading dose of ${fmt(p.loading.amount)} ${result.units.amount}${capped}` : '';
   const byInterval = a.byInterval.map((x) => formatNumber(Math.round(x.probability * 100))).join(' · ');
   const cell = h(
     'td',

@@ -11,9 +11,11 @@
  * interval to interval towards the steady state (the comparison principle, Kamke–Müller). The
  * trough, peak, AUC and the share of the interval above a level rise with the state, so each
  * interval's figure lies between the last one's and the steady state's: once an interval meets
- * such targets and the steady state meets them too, every later interval does. A share within a
- * window has no such order, and is followed until every figure is within SETTLED_TOLERANCE of
- * the subject's own steady state.
+ * such targets and the steady state meets them too, every later interval does: such a run is
+ * followed until it meets them (at most limits.steadyStateCycles intervals), never cut short by
+ * nearness to the steady state, since a target the steady state just meets is met only close to it.
+ * A share within a window has no such order, so no interval proves the later ones: it is followed
+ * until every figure is within SETTLED_TOLERANCE of the subject's own steady state and judged there.
  */
 import type { Model } from '../building/model.ts';
 import { CompartmentSystem } from '../building/system.ts';
@@ -24,7 +26,7 @@ import { meets, type ReadTarget } from '../population/targets.ts';
 import { limits } from '../scenario/limits.ts';
 import { buildModel } from '../scenario/normalize.ts';
 import type { Outcome } from '../scenario/problems.ts';
-import { emptyStats, IntegrationFailure } from '../solving/numerics/ode-system.ts';
+import { emptyStats } from '../solving/numerics/ode-system.ts';
 import { walkIntervals, type ApproachSetup } from './approach-run.ts';
 import type { RegimenSpec } from './regimen-model.ts';
 import { targetThresholds, targetValues } from './target-values.ts';
@@ -32,7 +34,14 @@ import { targetThresholds, targetValues } from './target-values.ts';
 /** Intervals from the first dose whose joint attainment is listed. */
 export const APPROACH_INTERVALS_SHOWN = 6;
 
-/** Relative distance (absolute for shares) to a subject's steady state counted as there. */
+/**
+ * Relative distance (absolute for shares) to a subject's steady state counted as there, for runs
+ * with a window-share target only. 1% is a convention (common practice counts a subject at steady
+ * state after 4–5 half-lives, 94–97% of the way; 1% left is 6.6 half-lives of a one-compartment
+ * approach), not a proven bound: with every figure within 1% of the steady state's, a subject
+ * is judged as at its steady state, but where a concentration runs flat along a window's edge the
+ * share may still move by more than its concentrations do.
+ */
 export const SETTLED_TOLERANCE = 0.01;
 
 /** A subject's outcome from empty (an Int32Array code beside the intervals). */
@@ -43,7 +52,7 @@ export const APPROACH = {
   steadyMisses: 1,
   /** The subject has no steady state with this regimen. */
   noSteadyState: 2,
-  /** Within SETTLED_TOLERANCE of its steady state (or after limits.steadyStateCycles) and still missing a target. */
+  /** Still missing a target after limits.steadyStateCycles intervals, or (a window-share target) within SETTLED_TOLERANCE of its steady state. */
   notMetBeforeSteady: 3,
   /** The run from empty failed numerically. */
   failed: 4,
@@ -53,7 +62,8 @@ export const TIME_TO_WINDOW_POPULATION_RULE =
   'for each subject, the regimen given from empty (no steady-state shortcut): the time from the first dose to the end of the first dosing interval ' +
   'from which every interval meets every target up to the subject\'s steady state (trough, peak, AUC per 24 h and the share above a level rise ' +
   'from interval to interval from empty, since compartment systems are cooperative: once an interval and the steady state meet them, every interval between does; ' +
-  `a share within a window is followed until each figure is within ${SETTLED_TOLERANCE * 100}% of the subject's steady state). ` +
+  `they are followed until met, at most ${limits.steadyStateCycles} intervals; a share within a window has no such order, so a run with one is followed until each figure ` +
+  `is within ${SETTLED_TOLERANCE * 100}% of the subject's steady state, a convention (about 6.6 half-lives of accumulation, past the usual 4–5), not a proven bound). ` +
   'Subjects whose steady state misses a target, who have none, or who meet the targets only at it never reach the window: ' +
   'they are counted and sorted last (as an infinite time), so a percentile that falls among them is "not reached"';
 
@@ -68,6 +78,8 @@ export interface ApproachChunk {
   firstLoaded: Uint8Array;
   /** Dosing intervals simulated from empty, over the chunk. */
   simulated: number;
+  /** Per regimen, the message of the chunk's first failed run (from empty or after the loading dose), or null. */
+  failures: (string | null)[];
 }
 
 /** What every chunk needs besides its subjects: the candidates and their loading doses. */
@@ -113,6 +125,13 @@ export function runApproach(a: ApproachPlan, first: number, count: number, stead
     metByInterval: new Uint8Array(R * count),
     firstLoaded: new Uint8Array(R * count).fill(2),
     simulated: 0,
+    failures: new Array<string | null>(R).fill(null),
+  };
+  // The solvers throw IntegrationFailure, the matrix exponential a plain Error (a singular Padé
+  // denominator): both count the subject as failed, and the first message is kept for the notes.
+  const failed = (e: unknown, r: number) => {
+    if (!(e instanceof Error)) throw e;
+    out.failures[r] ??= e.message;
   };
   const cols = (plan.regimenLayout as FigureLayout).columns;
   const probes = targets.map((_, k) => steadyColumn(plan, k));
@@ -153,7 +172,8 @@ export function runApproach(a: ApproachPlan, first: number, count: number, stead
           const enough = k + 1 >= APPROACH_INTERVALS_SHOWN;
           // Without a steady state that meets the targets only the first intervals are wanted.
           if (!steadyMet) return enough;
-          stopped = enough && ((met && ordered) || targets.every((t, j) => near(t, values[j], steadyValues[j])));
+          // Ordered figures: a met interval proves every later one, and only a met one ends the run.
+          stopped = enough && (ordered ? met : targets.every((t, j) => near(t, values[j], steadyValues[j])));
           return stopped;
         });
         if (!determined) out.code[at] = APPROACH.noSteadyState;
@@ -161,7 +181,7 @@ export function runApproach(a: ApproachPlan, first: number, count: number, stead
         else if (stopped && lastMet) out.intervals[at] = lastMissed + 2;
         else out.code[at] = APPROACH.notMetBeforeSteady;
       } catch (e) {
-        if (!(e instanceof IntegrationFailure || e instanceof Error)) throw e;
+        failed(e, r);
         out.code[at] = APPROACH.failed;
       }
       const loading = a.loadings[r];
@@ -173,7 +193,7 @@ export function runApproach(a: ApproachPlan, first: number, count: number, stead
             return true;
           });
         } catch (e) {
-          if (!(e instanceof IntegrationFailure || e instanceof Error)) throw e;
+          failed(e, r);
           out.firstLoaded[at] = 0;
         }
       }

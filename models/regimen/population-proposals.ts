@@ -31,8 +31,8 @@ import { displayUnit } from '../scenario/units.ts';
 import { APPROACH, APPROACH_INTERVALS_SHOWN, meetsTarget, runApproach, steadyColumn, TIME_TO_WINDOW_POPULATION_RULE, type ApproachChunk, type ApproachPlan } from './population-approach.ts';
 import {
   PROPOSAL_CAUTION,
-  typicalLoading,
-  type LoadingDose,
+  typicalLoadingAmount,
+  type LoadingAmount,
   type PercentileSpread,
   type PopulationApproach,
   type PopulationBasis,
@@ -53,8 +53,9 @@ export interface PopulationProposalLimits {
 
 export const LOADING_RULE =
   'chosen for the typical subject as typical proposals choose it (the first dose, in place of the first maintenance dose, whose first trough is the typical ' +
-  'steady-state trough: the closed form for a linear model, bisection otherwise, rounded onto the strengths), then given to every virtual subject; ' +
-  'the share meeting every target in the first dosing interval is given with and without it';
+  'steady-state trough: the closed form for a linear model, bisection otherwise), rounded onto the sums of the strengths — and when no sum comes within ' +
+  'one rounding step of it (above the largest sum, below the smallest), the nearest end is given and the row says so, with the amount computed — ' +
+  'then given to every virtual subject; the share meeting every target in the first dosing interval is given with and without it';
 
 export const PERCENTILE_RULE = 'percentiles by linear interpolation between order statistics (Hyndman & Fan 1996, definition 7) over the subjects with a steady state';
 
@@ -117,7 +118,7 @@ export function limitProblems(subjects: number, regimens: number, limits: Popula
     return [
       {
         path: 'population.subjects',
-        message: `${grouped(subjects)} subjects × ${regimens} regimens = ${grouped(runs)} steady states; population proposals take at most ${grouped(limits.runs)}: run fewer subjects, or list fewer strengths, intervals or durations (or lower propose.maxUnits)`,
+        message: `${grouped(subjects)} subjects × ${regimens} regimens = ${grouped(runs)} steady states (each subject's run of each regimen from the first dose comes on top); population proposals take at most ${grouped(limits.runs)} steady states: run fewer subjects, or list fewer strengths, intervals or durations (or lower propose.maxUnits)`,
       },
     ];
   }
@@ -162,7 +163,7 @@ export interface PreparedProposals {
   plan: PopulationPlan;
   specs: Spec[];
   /** The typical subject's loading dose per candidate (null: none asked for, or none found); amounts only in a worker thread. */
-  loadings: (LoadingDose | null)[] | null;
+  loadings: (LoadingAmount | null)[] | null;
   approach: ApproachPlan;
 }
 
@@ -195,8 +196,8 @@ export function prepareProposals(s: Scenario, model: Model, settings: ProposeSet
   if (!plan.ok) return { ok: false, problems: userPaths(plan.problems) };
   if (plan.value.regimens.length !== specs.length) throw new Error(`internal: ${plan.value.regimens.length} regimens for ${specs.length} candidates`);
   const line = (s.propose as NonNullable<Scenario['propose']>).line;
-  const loadings = loadingAmounts ? null : specs.map((spec) => (settings.loading ? typicalLoading(model, settings, spec) : null));
-  const amounts = loadingAmounts ?? (loadings as (LoadingDose | null)[]).map((l) => l?.amount ?? null);
+  const loadings = loadingAmounts ? null : specs.map((spec) => (settings.loading ? typicalLoadingAmount(model, settings, spec) : null));
+  const amounts = loadingAmounts ?? (loadings as (LoadingAmount | null)[]).map((l) => l?.amount ?? null);
   if (amounts.length !== specs.length) throw new Error(`internal: ${amounts.length} loading doses for ${specs.length} candidates`);
   const approach: ApproachPlan = { plan: plan.value, line, targets: plan.value.targets, specs, loadings: amounts };
   return { ok: true, value: { scenario: s, model, settings, limits, plan: plan.value, specs, loadings, approach } };
@@ -231,9 +232,12 @@ function joined(p: PreparedProposals, chunks: readonly ProposalChunk[]) {
   const firstLoaded = new Uint8Array(R * N);
   let covered = 0;
   let simulated = 0;
-  for (const c of chunks) {
+  // Each regimen's first failure message in subject order, whatever order the chunks came in.
+  const failures = new Array<string | null>(R).fill(null);
+  for (const c of [...chunks].sort((a, b) => a.first - b.first)) {
     covered += c.count;
     simulated += c.approach.simulated;
+    c.approach.failures.forEach((m, r) => (failures[r] ??= m));
     for (let r = 0; r < R; r++) {
       steady.set(c.steady.subarray(r * c.count * cols, (r + 1) * c.count * cols), (r * N + c.first) * cols);
       const from = r * c.count;
@@ -245,7 +249,7 @@ function joined(p: PreparedProposals, chunks: readonly ProposalChunk[]) {
     }
   }
   if (covered !== N) throw new Error(`internal: chunks cover ${covered} of ${N} subjects`);
-  return { steady, intervals, code, metByInterval, firstLoaded, simulated };
+  return { steady, intervals, code, metByInterval, firstLoaded, simulated, failures };
 }
 
 type Joined = ReturnType<typeof joined>;
@@ -336,7 +340,8 @@ function regimenRow(p: PreparedProposals, j: Joined, r: number, scratch: Float64
   const notes: string[] = [];
   if (undetermined > 0) notes.push(`${undetermined} of ${N} subjects have no steady state with this regimen; they count as not attaining`);
   if (p.settings.loading && loading === null) notes.push('no loading dose: the typical subject has no steady-state trough with this regimen, or none was bracketed');
-  if (approach.neverReached.failed > 0) notes.push(`${approach.neverReached.failed} of ${N} subjects' runs from empty failed numerically; they count as never reaching the window`);
+  if (approach.neverReached.failed > 0) notes.push(`${approach.neverReached.failed} of ${N} subjects' runs from empty failed numerically (the first: ${j.failures[r]}); they count as never reaching the window`);
+  else if (j.failures[r] !== null) notes.push(`a run after the loading dose failed numerically (the first: ${j.failures[r]}); its subject counts as not meeting the targets in the first interval`);
   const proposal: Proposal = {
     ...spec,
     loading,

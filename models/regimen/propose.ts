@@ -26,7 +26,7 @@ import { bisectLoading, closedFormLoading } from './loading.ts';
 import { compareProposals, logDistance, RANKING_RULE, troughWindow } from './rank.ts';
 import { steadyModel, type RegimenSpec } from './regimen-model.ts';
 import { readPropose, type ProposeSettings } from './settings.ts';
-import { roundToAvailable } from './strengths.ts';
+import { roundingGap, roundToAvailable } from './strengths.ts';
 import { targetsMet, targetThresholds, targetValues, type ExposureRead } from './target-values.ts';
 import { TIME_TO_WINDOW_DEFINITION, windowTime } from './window-time.ts';
 
@@ -45,12 +45,18 @@ export interface SteadyStateSummary {
   shareInWindow?: number;
 }
 
-export interface LoadingDose {
+/** A loading dose's amount alone: what the population basis gives every subject (each subject's first interval is judged there). */
+export interface LoadingAmount {
   /** Rounded onto the strengths' sums. */
   amount: number;
   /** Before rounding. */
   computed: number;
   method: 'closed form' | 'bisection';
+  /** Set when the sums cannot come within one rounding step of the computed amount (strengths.ts's roundingGap), saying so. */
+  note: string | null;
+}
+
+export interface LoadingDose extends LoadingAmount {
   /** The first trough with the rounded amount, simulated (compartment of the first target). */
   firstTrough: number;
   /** Whether the first interval's trough meets the trough targets (the loading dose's aim). */
@@ -65,7 +71,8 @@ export interface Proposal {
   amount: number;
   interval: number;
   duration: number;
-  loading: LoadingDose | null;
+  /** Typical basis: the loading dose, simulated; population basis: its amount only (the typical subject's time to the window would read as the population's). */
+  loading: LoadingDose | LoadingAmount | null;
   steadyState: SteadyStateSummary | null;
   /** Each target's figure at steady state (a share for above and window targets). */
   targetValues: number[];
@@ -356,8 +363,8 @@ function firstTrough(cx: Context, spec: RegimenSpec, amount: number): number {
   return trough;
 }
 
-/** The loading dose of a regimen that meets its targets: computed, rounded, verified by simulation. */
-function loadingDose(cx: Context, p: Proposal): LoadingDose | null {
+/** The loading amount of a regimen with a steady-state trough: computed, rounded onto the sums, a note when they fall short of it. */
+function loadingAmount(cx: Context, p: Proposal): LoadingAmount | null {
   const spec: RegimenSpec = { amount: p.amount, interval: p.interval, duration: p.duration };
   const target = p.steadyState?.trough;
   if (target === undefined || !(target > 0)) return null;
@@ -375,13 +382,28 @@ function loadingDose(cx: Context, p: Proposal): LoadingDose | null {
     method = 'bisection';
   }
   const amount = roundToAvailable(computed, cx.settings.loadingAmounts, cx.settings.rounding);
-  const w = windowTime(setupFor(cx, spec, amount), cx.settings.targets, cx.day, limits.steadyStateCycles);
+  return { amount, computed, method, note: roundingNote(computed, amount, cx.settings.loadingAmounts, cx.base.units.amount) };
+}
+
+/** The note of a loading amount the sums could not give within one rounding step, or null. */
+export function roundingNote(computed: number, amount: number, available: readonly number[], unit: string): string | null {
+  if (Math.abs(computed - amount) <= roundingGap(computed, available)) return null;
+  const what = amount < computed ? 'capped' : 'raised';
+  const why = amount < computed ? 'no more' : 'no less';
+  // Four significant figures: the computed amount is a guide, not a dose to measure out.
+  return `${what} at ${formatNumber(amount)} ${unit}: the strengths give ${why}; computed ${formatNumber(Number(computed.toPrecision(4)))} ${unit}`;
+}
+
+/** The loading dose of a regimen that meets its targets: its amount, then verified by simulation. */
+function loadingDose(cx: Context, p: Proposal): LoadingDose | null {
+  const chosen = loadingAmount(cx, p);
+  if (!chosen) return null;
+  const spec: RegimenSpec = { amount: p.amount, interval: p.interval, duration: p.duration };
+  const w = windowTime(setupFor(cx, spec, chosen.amount), cx.settings.targets, cx.day, limits.steadyStateCycles);
   cx.counts.intervals += w.simulated;
   return {
-    amount,
-    computed,
-    method,
-    firstTrough: firstTrough(cx, spec, amount),
+    ...chosen,
+    firstTrough: firstTrough(cx, spec, chosen.amount),
     firstTroughMet: cx.settings.targets.every((t, k) => t.measure !== 'trough' || targetsMet([t], [w.first[k]])[0]),
     firstIntervalMet: w.intervals === 1,
     timeToWindow: w.intervals === null ? null : w.intervals * p.interval,
@@ -390,16 +412,22 @@ function loadingDose(cx: Context, p: Proposal): LoadingDose | null {
 }
 
 /**
- * The loading dose the typical basis would choose for `spec`, whatever the regimen's typical
+ * The loading amount the typical basis would choose for `spec`, whatever the regimen's typical
  * targets: its aim is the typical subject's steady-state trough (population proposals then give
- * it to every virtual subject). Null when the regimen has no steady state, no trough or no bracket.
+ * it to every virtual subject, and judge its first interval per subject, so no time to the
+ * window is simulated here). Null when the regimen has no steady state, no trough or no bracket.
  */
-export function typicalLoading(base: Model, settings: ProposeSettings, spec: RegimenSpec): LoadingDose | null {
+export function typicalLoadingAmount(base: Model, settings: ProposeSettings, spec: RegimenSpec): LoadingAmount | null {
   const cx: Context = { base, system: new CompartmentSystem(base), settings, stats: emptyStats(), day: 24 * unitsPerHour(base.units), counts: { steady: 0, intervals: 0 } };
   const steady = guarded(() => steadyOf(cx, spec, [1]), (note) => ({ note }));
   if ('note' in steady) return null;
   const p = proposalFrom(cx, spec, steady.read, 1, 0, null);
-  return guarded(() => loadingDose(cx, p), () => null);
+  return guarded(() => loadingAmount(cx, p), () => null);
+}
+
+/** A proposal's loading dose as the typical basis simulates it, or null (none, or the population basis's amount alone). */
+export function simulatedLoading(p: Proposal): LoadingDose | null {
+  return p.loading !== null && 'timeToWindow' in p.loading ? p.loading : null;
 }
 
 /** "500 mg every 12 h over 30 min" in the model's units. */

@@ -62,3 +62,17 @@ export function roundToAvailable(x: number, available: readonly number[], rule: 
   hi = x - available[lo] < available[hi] - x ? lo : hi;
   return available[hi];
 }
+
+/**
+ * How far rounding onto the sums may move x: the gap between the two sums around it, or beyond
+ * the ends the gap next to the end (the end itself when there is one sum, the step from nothing).
+ * A rounded amount further than this from x was clamped, not rounded.
+ */
+export function roundingGap(x: number, available: readonly number[]): number {
+  const n = available.length;
+  if (n === 1) return available[0];
+  if (x <= available[0]) return available[1] - available[0];
+  if (x >= available[n - 1]) return available[n - 1] - available[n - 2];
+  const hi = available.findIndex((a) => a >= x);
+  return available[hi] - available[hi - 1];
+}

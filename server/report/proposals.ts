@@ -11,7 +11,7 @@
  */
 import { proposeByBasis } from '../../models/regimen/propose-basis.ts';
 import type { PopulationProposalLimits } from '../../models/regimen/population-proposals.ts';
-import { PROPOSAL_CAUTION, type Proposal, type ProposeResult } from '../../models/regimen/propose.ts';
+import { PROPOSAL_CAUTION, simulatedLoading, type Proposal, type ProposeResult } from '../../models/regimen/propose.ts';
 import type { Outcome } from '../../models/scenario/problems.ts';
 import { bullet, drawSectionCaution } from './section-text.ts';
 import { ensureSpace, font, heading, palette, paragraph, type } from './document.ts';
@@ -48,7 +48,8 @@ function timeCell(t: { p5: number | null; p50: number | null; p95: number | null
 /** The first interval from empty: every target met without, and with the loading dose. */
 function firstIntervalCell(p: Proposal, amount: string): string {
   const f = (p.population as NonNullable<Proposal['population']>).approach.firstInterval;
-  const loaded = f.withLoading && p.loading ? `\n${percentCell(f.withLoading)} after ${fmt(p.loading.amount)} ${unitText(amount)}` : '';
+  const note = p.loading?.note ? `\n(${p.loading.note})` : '';
+  const loaded = f.withLoading && p.loading ? `\n${percentCell(f.withLoading)} after ${fmt(p.loading.amount)} ${unitText(amount)}${note}` : '';
   return `${percentCell(f.without)}${loaded}`;
 }
 
@@ -135,8 +136,9 @@ function drawPopulationTable(doc: PDFKit.PDFDocument, r: ProposeResult, shown: P
 }
 
 function loading(p: Proposal, amount: string): string {
-  if (!p.loading) return '—';
-  return `${fmt(p.loading.amount)} ${unitText(amount)}${p.loading.firstTroughMet ? '' : '\n(first trough missed)'}`;
+  const l = simulatedLoading(p);
+  if (!l) return '—';
+  return `${fmt(l.amount)} ${unitText(amount)}${l.firstTroughMet ? '' : '\n(first trough missed)'}${l.note ? `\n(${l.note})` : ''}`;
 }
 
 function met(p: Proposal): Cell {
@@ -147,7 +149,8 @@ function met(p: Proposal): Cell {
 function toWindow(p: Proposal, unit: string): string {
   if (!p.allMet) return '—';
   const plain = p.timeToWindow === null ? 'not reached' : `${fmt(p.timeToWindow)} ${unit}`;
-  return p.loading ? `${plain}\n${p.loading.timeToWindow === null ? 'not reached' : `${fmt(p.loading.timeToWindow)} ${unit}`} loaded` : plain;
+  const l = simulatedLoading(p);
+  return l ? `${plain}\n${l.timeToWindow === null ? 'not reached' : `${fmt(l.timeToWindow)} ${unit}`} loaded` : plain;
 }
 
 /** Draws the section; `number` is its section number. */

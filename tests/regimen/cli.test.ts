@@ -1,7 +1,9 @@
 /** The propose command (propose-cli.ts): the ranked table with its caution, JSON, --top, and errors with paths. */
 import { fileURLToPath } from 'node:url';
 import { describe, expect, it } from 'vitest';
-import { runProposeCli } from '../../server/propose-cli.ts';
+import { readFileSync } from 'node:fs';
+import { proposeByBasis } from '../../models/regimen/propose-basis.ts';
+import { populationProposalLimits, proposalsText, runProposeCli } from '../../server/propose-cli.ts';
 
 const folder = fileURLToPath(new URL('../../samples/', import.meta.url));
 
@@ -28,5 +30,20 @@ describe('propose FILE', () => {
     const o = runProposeCli(['brennock-oral-bid.json'], { folder });
     expect(o.code).toBe(1);
     expect(o.stderr).toMatch(/^propose: the scenario has no `propose` block/m);
+  });
+});
+
+describe('population proposals as text', () => {
+  it('shows the note of a loading dose the strengths cannot give in the loading cell', () => {
+    // orvanix-propose-population.json with a loading dose: 500 mg every 8 h asks for more than 3 × 500 mg.
+    const scenario = JSON.parse(readFileSync(new URL('orvanix-propose-population.json', `file://${folder}`), 'utf8')) as { population: object; propose: object };
+    const s = { ...scenario, population: { ...scenario.population, subjects: 10 }, propose: { ...scenario.propose, loading: true } };
+    const r = proposeByBasis(s, populationProposalLimits);
+    if (!r.ok) throw new Error(JSON.stringify(r.problems));
+    const capped = r.value.proposals.filter((p) => p.loading?.note);
+    expect(capped.length).toBeGreaterThan(0);
+    expect(capped[0].loading?.note).toMatch(/^capped at 1500 mg: the strengths give no more; computed \d+ mg$/);
+    const text = proposalsText(r.value, r.value.proposals.length);
+    for (const p of capped) expect(text).toContain(`1500 mg (${p.loading?.note})`);
   });
 });

@@ -1,13 +1,14 @@
 /**
  * Population proposals from empty (population-approach.ts): the first interval with and without
- * the typical subject's loading dose against the log-normal CDF, and the time to the window of a
- * population without variability against the typical basis's.
+ * the typical subject's loading dose against the log-normal CDF, the time to the window of a
+ * population without variability against the typical basis's and the closed form of accumulation,
+ * a loading dose the strengths cannot give, and the percentiles where some subjects never reach.
  */
 import { describe, expect, it } from 'vitest';
 import { normalCdf } from '../../models/population/normal.ts';
 import { APPROACH_INTERVALS_SHOWN } from '../../models/regimen/population-approach.ts';
 import { proposeByBasis } from '../../models/regimen/propose-basis.ts';
-import { proposeRegimens, type Proposal, type ProposeResult } from '../../models/regimen/propose.ts';
+import { proposeRegimens, simulatedLoading, type Proposal, type ProposeResult } from '../../models/regimen/propose.ts';
 import { sample } from './helpers.ts';
 
 const limits = { subjects: 5000, runs: 50_000 };
@@ -121,12 +122,102 @@ describe('time to the window of a population without variability equals the typi
         expect(a.reached).toBe(3);
         // The same loading dose, and its first interval judged alike.
         expect(p.loading?.amount).toBe(t.loading?.amount);
-        expect(a.firstInterval.withLoading?.probability).toBe(t.loading?.firstIntervalMet ? 1 : 0);
+        expect(a.firstInterval.withLoading?.probability).toBe(simulatedLoading(t)?.firstIntervalMet ? 1 : 0);
       } else {
         expect(a.timeToWindow).toEqual({ p5: null, p50: null, p95: null });
         expect(a.reached).toBe(0);
       }
     }
     expect(compared).toBeGreaterThan(0);
+  });
+});
+
+// One compartment, IV bolus D every τ from empty: the trough of dose n is
+//   C_n = (D/V)·e^{−kτ}·(1 − e^{−nkτ})/(1 − e^{−kτ}),  k = CL/V   (superposition of boluses, common practice),
+// rising to the steady-state trough C_ss = (D/V)·e^{−kτ}/(1 − e^{−kτ}).
+const troughAfter = (d: number, cl: number, v: number, t: number, n: number) => {
+  const e = Math.exp((-cl / v) * t);
+  return ((d / v) * e * (1 - Math.pow(e, n))) / (1 - e);
+};
+
+describe('a trough target the steady state only just meets is walked until met, not stopped near the steady state', () => {
+  // CL 0.3 L/h, V 30 L, 300 mg every 12 h: C_ss = 78.43 mg/L; the target 78.041 mg/L is met from dose 45 (540 h).
+  const slow = {
+    title: 'One compartment, IV bolus, slow clearance',
+    compartments: [{ id: 'central', volume: '30 L' }],
+    transfers: [{ from: 'central', cl: '0.3 L/h' }],
+    doses: [{ into: 'central', amount: '300 mg', every: '12 h', count: 4 }],
+    output: { end: '48 h', step: '12 h' },
+    propose: { strengths: ['100 mg'], amounts: ['300 mg'], maxUnits: 6, intervals: ['12 h'], loading: true, targets: [{ trough: { atLeast: '78.041 mg/L' } }] },
+  };
+  let n = 1;
+  while (troughAfter(300, 0.3, 30, 12, n) < 78.041) n++;
+
+  it('the closed form puts the first met trough at dose 45; the typical basis and three identical subjects give 540 h', () => {
+    expect(n).toBe(45);
+    const typical = proposeRegimens(slow);
+    if (!typical.ok) throw new Error(JSON.stringify(typical.problems));
+    expect(typical.value.proposals[0].timeToWindow).toBe(n * 12);
+    const population = propose({ ...slow, population: { subjects: 3, seed: 1 }, propose: { ...slow.propose, basis: 'population' } });
+    const a = row(population.proposals[0]).approach;
+    expect(a.reached).toBe(3);
+    expect(a.timeToWindow).toEqual({ p5: 540, p50: 540, p95: 540 });
+    expect(population.proposals[0].timeToWindow).toBe(540);
+  });
+
+  it('a loading dose above every sum of the strengths is given as the largest, and the row says so with the amount computed', () => {
+    // Gibaldi & Perrier (from memory): D/(1 − e^{−kτ}) = 2,653 mg; 6 × 100 mg is the most the strengths give.
+    const computed = 300 / (1 - Math.exp(-0.01 * 12));
+    const population = propose({ ...slow, population: { subjects: 3, seed: 1 }, propose: { ...slow.propose, basis: 'population' } });
+    const loading = population.proposals[0].loading;
+    expect(loading?.amount).toBe(600);
+    expect(Math.abs((loading?.computed as number) / computed - 1)).toBeLessThan(1e-9);
+    expect(loading?.note).toBe('capped at 600 mg: the strengths give no more; computed 2653 mg');
+    // The population row carries the amount only: the typical subject's time to the window would read as the population's.
+    expect(loading).not.toHaveProperty('timeToWindow');
+    expect(loading).not.toHaveProperty('firstIntervalMet');
+    // The typical basis notes the same; a loading dose within the strengths' steps has no note (the bolus scenario above: 429 → 400 mg).
+    const typical = proposeRegimens(slow);
+    if (!typical.ok) throw new Error(JSON.stringify(typical.problems));
+    expect(typical.value.proposals[0].loading?.note).toBe(loading?.note);
+    expect(propose(bolus).proposals[0].loading?.note).toBeNull();
+  });
+});
+
+describe('percentiles of the time to the window when part of the population never reaches it (IV bolus, clearance only varying)', () => {
+  // The steady-state trough falls with CL: subjects with CL below CLcrit (C_ss(CLcrit) = level) meet
+  // a trough ≥ level, a share Φ(ln(CLcrit/CL)/s) of the log-normal population (common practice).
+  const level = 3.27; // mg/L: about 70% of subjects meet it at steady state
+  let lo = 0.5;
+  let hi = 20;
+  while (hi - lo > 1e-12) {
+    const mid = 0.5 * (lo + hi);
+    if (troughAfter(A, mid, V, tau, Infinity) >= level) lo = mid;
+    else hi = mid;
+  }
+  const expected = normalCdf(Math.log(lo / CL) / s);
+  const r = propose({ ...bolus, propose: { ...bolus.propose, loading: false, targets: [{ trough: { atLeast: `${level} mg/L` } }] } });
+  const p = r.proposals[0];
+  const a = row(p).approach;
+
+  it('the steady-state attainers are within 3 Monte Carlo SE of the log-normal share, and every one of them reaches the window', () => {
+    const attained = row(p).joint.attained;
+    expect(Math.abs(attained / N - expected)).toBeLessThanOrEqual(3 * Math.sqrt((expected * (1 - expected)) / N));
+    // A trough rises from empty to its steady state: a subject whose steady state meets the target meets it in time.
+    expect(a.reached).toBe(attained);
+    expect(a.neverReached.steadyStateMisses).toBe(N - attained);
+    expect(a.neverReached.onlyAtSteadyState + a.neverReached.noSteadyState + a.neverReached.failed).toBe(0);
+  });
+
+  it('a percentile is "not reached" exactly when definition 7 needs an order statistic beyond the last subject reaching the window', () => {
+    // Hyndman & Fan's definition 7: order statistics floor(h) and ceil(h), h = (N − 1)·q/100 (0-based), the never-reached sorted last.
+    const finite = (q: number) => Math.ceil(((N - 1) * q) / 100) < a.reached;
+    expect(finite(5) && finite(50) && !finite(95)).toBe(true);
+    for (const [q, v] of [[5, a.timeToWindow.p5], [50, a.timeToWindow.p50], [95, a.timeToWindow.p95]] as const) {
+      if (finite(q)) expect(v).toBeGreaterThan(0);
+      else expect(v).toBeNull();
+    }
+    // More than half reach it, so the row's median is the population median.
+    expect(p.timeToWindow).toBe(a.timeToWindow.p50);
   });
 });

@@ -191,7 +191,7 @@ describe('bad input, with paths', () => {
   it('refuses subjects × regimens over the limit', () => {
     const r = proposeByBasis(infusionScenario(2000), { subjects: 5000, runs: 9999 });
     expect(r.ok).toBe(false);
-    if (!r.ok) expect(r.problems).toEqual([{ path: 'population.subjects', message: expect.stringMatching(/^2,000 subjects × 5 regimens = 10,000 steady states; population proposals take at most 9,999/) }]);
+    if (!r.ok) expect(r.problems).toEqual([{ path: 'population.subjects', message: expect.stringMatching(/^2,000 subjects × 5 regimens = 10,000 steady states \(each subject's run of each regimen from the first dose comes on top\); population proposals take at most 9,999 steady states/) }]);
   });
   it('names a bolus tried beside infusions', () =>
     expect(paths(infusionScenario(N, { durations: ['0 h', `${tau} h`] }))).toEqual([expect.stringMatching(/^propose\.durations\[0\]: a bolus \(0\) cannot be tried beside infusions/)]));

@@ -5,7 +5,7 @@
  * the loading dose, the ranking rule and bad input with paths.
  */
 import { describe, expect, it } from 'vitest';
-import { proposeRegimens, type ProposeResult } from '../../models/regimen/propose.ts';
+import { proposeRegimens, simulatedLoading, type ProposeResult } from '../../models/regimen/propose.ts';
 import { compareProposals, logDistance, type Rankable } from '../../models/regimen/rank.ts';
 import { amountsFromStrengths, roundToAvailable } from '../../models/regimen/strengths.ts';
 import { sample, simulateRegimen } from './helpers.ts';
@@ -64,7 +64,7 @@ describe('saturable proposals (samples/orvanix-propose.json)', () => {
 
   it('gives a loading dose that brings the first trough into the window, verified by simulate()', () => {
     const p = met[0];
-    const loading = p.loading;
+    const loading = simulatedLoading(p);
     expect(loading?.method).toBe('bisection');
     expect(loading?.firstTroughMet).toBe(true);
     const intervals = simulateRegimen(saturable, { amount: p.amount, interval: p.interval, duration: p.duration, into: 'central', loading: loading?.amount }, 3, 'central');

@@ -61,3 +61,16 @@ describe('report of population proposals', () => {
     expect(flat).toContain('Time to the window: for each subject, the regimen given from empty');
   });
 });
+
+describe('report of population proposals whose loading dose the amounts cannot give', () => {
+  // Slow clearance: the loading dose of 400 mg every 12 h is 400/(1 − e^{−kτ}) ≈ 3,500 mg (Gibaldi & Perrier, from memory), above every listed amount.
+  const s = { ...scenario(20), transfers: [{ from: 'central', cl: '0.3 L/h' }], propose: { ...scenario(20).propose, loading: true } };
+  const direct = proposeByBasis(s, reportProposalLimits);
+  if (!direct.ok) throw new Error(JSON.stringify(direct.problems));
+
+  it('prints the row\'s note beside the loading dose given', () => {
+    const note = direct.value.proposals.find((p) => p.amount === 400 && p.interval === 12)?.loading?.note as string;
+    expect(note).toMatch(/^capped at 400 mg: the strengths give no more; computed \d+ mg$/);
+    expect(flatText(s)).toContain(`(${note})`);
+  });
+});
