@@ -66,7 +66,11 @@ export function runProposeCli(args: string[], context: { folder: string }): Prop
   const path = fromUserFolder(context.folder, shown);
   const withLevels = readLevelsScenario(path, shown);
   if (!withLevels.ok) return { code: withLevels.code, stdout: '', stderr: visibleLines(withLevels.message) + '\n' };
-  const result = proposeOnThreads(withLevels.value, populationProposalLimits, { threads: threads.value ?? availableParallelism() });
+  const result = proposeOnThreads(withLevels.value, populationProposalLimits, {
+    threads: threads.value ?? availableParallelism(),
+    // Given --threads: start the workers at once; else only when the work left is worth a second thread.
+    workersAtOnce: threads.value !== undefined,
+  });
   if (!result.ok) {
     const list = result.problems.map((p) => ({ path: visibleText(p.path), message: visibleText(p.message) }));
     return { code: 1, stdout: '', stderr: `${visibleText(shown)}: ${list.length} problem${list.length > 1 ? 's' : ''}:\n${describeProblems(list)}\n` };
