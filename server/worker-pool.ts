@@ -4,7 +4,7 @@
  * and replaced, and answers with a plain error, so one heavy request never stalls the
  * others for long nor takes the server's memory with it.
  */
-import { setPriority } from 'node:os';
+import { getPriority, setPriority } from 'node:os';
 import { Worker, type WorkerOptions } from 'node:worker_threads';
 import type { JobReply, JobRequest } from './jobs.ts';
 
@@ -61,7 +61,7 @@ export interface PoolOptions {
 
 export const defaultPoolMemory = { workerHeapMb: 1024, memoryCeilingMb: 3072 } as const;
 const defaultLongJobMs = 1000;
-/** The niceness of a thread running a long job (0 is normal, 19 the lowest). */
+/** How much a long job's thread is lowered: niceness added to its own (0 is normal, 19 the lowest). */
 const longJobNice = 10;
 /** How often the process's resident memory is sampled while a job runs. */
 const memorySampleMs = 100;
@@ -87,6 +87,8 @@ interface Slot {
   longTimer: NodeJS.Timeout | null;
   /** The thread runs at lowered priority. */
   lowered: boolean;
+  /** Its niceness before it was lowered (the process's own, which may already be raised by `nice`). */
+  basePriority: number;
 }
 
 function errorReply(status: number, message: string, path = ''): Reply {
@@ -147,7 +149,7 @@ export class SimulationPool {
 
   private spawn(): Slot {
     const worker = startWorker(this.options.worker ?? simulationWorkerSource, { resourceLimits: { maxOldGenerationSizeMb: this.workerHeapMb } });
-    const slot: Slot = { worker, ready: false, current: null, timer: null, startedAt: 0, tid: null, longTimer: null, lowered: false };
+    const slot: Slot = { worker, ready: false, current: null, timer: null, startedAt: 0, tid: null, longTimer: null, lowered: false, basePriority: 0 };
     // Nothing thrown here may leave an event handler: it would end the process.
     worker.on('message', (reply: JobReply | { ready: true; tid: number | null }) => {
       guarded(() => {
@@ -252,7 +254,11 @@ export class SimulationPool {
     slot.longTimer = null;
     if (slot.tid === null || !slot.current) return;
     try {
-      setPriority(slot.tid, longJobNice);
+      // Relative to the thread's own niceness: a server started under `nice` lowers its long jobs below itself.
+      const base = getPriority(slot.tid);
+      if (base >= 19) return;
+      setPriority(slot.tid, Math.min(19, base + longJobNice));
+      slot.basePriority = base;
       slot.lowered = true;
     } catch {
       slot.tid = null; // not allowed here: leave every thread as it is
@@ -269,7 +275,7 @@ export class SimulationPool {
     slot.longTimer = null;
     if (!slot.lowered || slot.tid === null) return;
     try {
-      setPriority(slot.tid, 0);
+      setPriority(slot.tid, slot.basePriority);
       slot.lowered = false;
     } catch {
       slot.tid = null;
