@@ -21,6 +21,7 @@ import { planPopulation, runBatch, summarise } from '../../models/population/pop
 import { normaliseScenario } from '../../models/scenario/normalize.ts';
 import { emptyStats } from '../../models/solving/numerics/ode-system.ts';
 import { solveSchedule } from '../../models/solving/solve.ts';
+import { withHugePages } from '../../server/huge-pages.ts';
 import { runThreads, type ThreadOptions } from '../../server/population-threads.ts';
 import { linearScenario, saturableScenario } from './scenario.ts';
 
@@ -118,7 +119,7 @@ function perSubject(): PopulationBench['perSubject'] {
 /** One population end to end in a child process: `node population.mjs run <saturable> <subjects> <step> [end]`. */
 function childRun(saturable: boolean, subjects: number, step: number, end?: number): PopulationRun {
   const bundle = join(root, 'dist', 'bench', 'population.mjs');
-  const out = spawnSync(process.execPath, [bundle, 'run', String(saturable), String(subjects), String(step), ...(end === undefined ? [] : [String(end)])], { encoding: 'utf8', cwd: root });
+  const out = spawnSync(process.execPath, [bundle, 'run', String(saturable), String(subjects), String(step), ...(end === undefined ? [] : [String(end)])], { encoding: 'utf8', cwd: root, env: withHugePages(process.env) });
   const line = out.stdout.trim().split('\n').pop() ?? '';
   if (out.status !== 0 || !line.startsWith('{')) throw new Error(`population run failed: ${out.stderr}`);
   return JSON.parse(line) as PopulationRun;
