@@ -4,7 +4,7 @@
  */
 import type { Schedule } from '../building/events.ts';
 import { normInf } from './linalg/dense.ts';
-import { createExpActionWork, expAction, type ExpActionWork } from './linalg/exp-action.ts';
+import { createExpActionWork, expAction, sparseRows, type ExpActionWork, type SparseRows } from './linalg/exp-action.ts';
 import { propagator, sharedExpmWorkspace, sharedPropagatorScratch, type ExpmWorkspace, type Propagator } from './linalg/expm.ts';
 import type { Trajectory } from './numerics/dense-store.ts';
 import { codeGenerationEnabled, compileSource, index } from './numerics/generated-code.ts';
@@ -398,6 +398,8 @@ export class LinearTrajectory implements Trajectory {
   readonly start: number;
   readonly end: number;
   private readonly actionWork: ExpActionWork;
+  /** The scaled matrix's nonzeros, made at the first action (a trajectory only sampled on a regular grid needs none). */
+  private actionMatrix: SparseRows | null = null;
   /** Scratch for the state in scaled coordinates D⁻¹x (PropagatorCache.scaling). */
   private readonly scaled: Float64Array;
   private readonly scaledOut: Float64Array;
@@ -528,7 +530,8 @@ export class LinearTrajectory implements Trajectory {
     // In the scaled coordinates of the propagators (quadrature states divided by D).
     const d = this.cache.scaling;
     for (let i = 0; i < n; i++) this.scaled[i] = x[i] / d[i];
-    expAction(this.cache.scaledMatrix, n, this.matrixNorm, h, this.scaled, input, this.scaledOut, this.actionWork);
+    this.actionMatrix ??= sparseRows(this.cache.scaledMatrix, n);
+    expAction(this.actionMatrix, n, this.matrixNorm, h, this.scaled, input, this.scaledOut, this.actionWork);
     for (let i = 0; i < n; i++) out[i] = this.scaledOut[i] * d[i];
   }
 

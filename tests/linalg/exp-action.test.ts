@@ -9,7 +9,7 @@ import fc from 'fast-check';
 import { expm as mathjsExpm, matrix } from 'mathjs';
 import { describe, expect, test } from 'vitest';
 import { normInf } from '../../models/solving/linalg/dense.ts';
-import { createExpActionWork, expAction } from '../../models/solving/linalg/exp-action.ts';
+import { createExpActionWork, expAction, sparseRows } from '../../models/solving/linalg/exp-action.ts';
 import { compartmentMatrix, logRate, U } from './helpers.ts';
 
 /** x(h) by mathjs: e^{[[Mh, uh], [0, 0]]}·[x0; 1]. */
@@ -49,7 +49,7 @@ describe('expAction against mathjs expm of the augmented matrix', () => {
           const x = x7.slice(0, n);
           const u = u7.slice(0, n);
           const out = new Float64Array(n);
-          expAction(m, n, normInf(m, n), h, x, u, out, createExpActionWork(n));
+          expAction(sparseRows(m, n), n, normInf(m, n), h, x, u, out, createExpActionWork(n));
           const e = maxRelative(out, reference(m, n, h, x, u));
           worst.push(e);
           expect(e).toBeLessThan(4096 * Math.max(1, normInf(m, n) * h) * U);
@@ -64,7 +64,7 @@ describe('expAction against mathjs expm of the augmented matrix', () => {
     const m = Float64Array.from([-1.5, 0.3, 1.2, -0.3]);
     const x = Float64Array.of(100, 0);
     const out = new Float64Array(2);
-    expAction(m, 2, normInf(m, 2), 40, x, null, out, createExpActionWork(2));
+    expAction(sparseRows(m, 2), 2, normInf(m, 2), 40, x, null, out, createExpActionWork(2));
     const ref = reference(m, 2, 40, x, new Float64Array(2));
     expect(maxRelative(out, ref)).toBeLessThan(1e-12);
     expect(out[1]).toBeGreaterThan(0);
@@ -73,10 +73,10 @@ describe('expAction against mathjs expm of the augmented matrix', () => {
   test('h = 0 returns the state itself; a zero state with an input integrates the input', () => {
     const m = Float64Array.from([-2]);
     const out = new Float64Array(1);
-    expAction(m, 1, 2, 0, Float64Array.of(3), Float64Array.of(5), out, createExpActionWork(1));
+    expAction(sparseRows(m, 1), 1, 2, 0, Float64Array.of(3), Float64Array.of(5), out, createExpActionWork(1));
     expect(out[0]).toBe(3);
     // x' = −2x + 5 from 0: x(h) = 2.5·(1 − e^{−2h}) (common practice: infusion build-up).
-    expAction(m, 1, 2, 0.7, Float64Array.of(0), Float64Array.of(5), out, createExpActionWork(1));
+    expAction(sparseRows(m, 1), 1, 2, 0.7, Float64Array.of(0), Float64Array.of(5), out, createExpActionWork(1));
     expect(Math.abs(out[0] - 2.5 * -Math.expm1(-1.4)) / out[0]).toBeLessThan(64 * U);
   });
 });

@@ -8,7 +8,7 @@
  * With ‖A‖ ≤ ½ the series of degree m leaves a remainder below ‖A‖^{m+1}/(m+1)! · e^{½}:
  * under 1e-19 (relative to the norm of the state) at m = 16, below rounding. The terms are
  * summed until each component's term is below unit roundoff of its own sum (at most 20).
- * Cost: a few matrix–vector products per sub-step, against the O(n³) of a Padé
+ * Cost: a few sparse matrix–vector products per sub-step, against the O(n³) of a Padé
  * exponential: cheaper when the time is wanted once, as in locating a peak or a crossing.
  */
 export interface ExpActionWork {
@@ -21,6 +21,38 @@ export function createExpActionWork(n: number): ExpActionWork {
   return { term: new Float64Array(n), next: new Float64Array(n), sum: new Float64Array(n) };
 }
 
+/**
+ * A matrix by its nonzero entries, row by row (compressed sparse rows): a compartment model's
+ * matrix is mostly zeros (a transfer fills two entries, an AUC row one), and the Taylor terms
+ * are its products with vectors, so only the nonzeros are multiplied, in the order of the dense
+ * product (the same sums, a zero term aside).
+ */
+export interface SparseRows {
+  readonly rowStart: Int32Array;
+  readonly cols: Int32Array;
+  readonly vals: Float64Array;
+}
+
+/** The nonzero entries of the n×n row-major matrix m. */
+export function sparseRows(m: Float64Array, n: number): SparseRows {
+  let count = 0;
+  for (let k = 0; k < n * n; k++) if (m[k] !== 0) count++;
+  const rowStart = new Int32Array(n + 1);
+  const cols = new Int32Array(count);
+  const vals = new Float64Array(count);
+  let e = 0;
+  for (let i = 0; i < n; i++) {
+    for (let j = 0; j < n; j++) {
+      const v = m[i * n + j];
+      if (v === 0) continue;
+      cols[e] = j;
+      vals[e++] = v;
+    }
+    rowStart[i + 1] = e;
+  }
+  return { rowStart, cols, vals };
+}
+
 /** Largest sub-step norm ‖M‖∞·δ. */
 const SUBSTEP_NORM = 0.5;
 /** Most Taylor terms per sub-step (the remainder bound above is met by 16). */
@@ -28,11 +60,11 @@ const MAX_TERMS = 20;
 const UNIT_ROUNDOFF = 2 ** -53;
 
 /**
- * out ← e^{Mh}·x + h·φ₁(Mh)·u (u null: no input), M n×n row-major with ‖M‖∞ = normM
- * (normInf of dense.ts, computed once by the caller). out may not alias x.
+ * out ← e^{Mh}·x + h·φ₁(Mh)·u (u null: no input), M n×n by its nonzeros (sparseRows) with
+ * ‖M‖∞ = normM (normInf of dense.ts, computed once by the caller). out may not alias x.
  */
 export function expAction(
-  m: Float64Array,
+  m: SparseRows,
   n: number,
   normM: number,
   h: number,
@@ -42,6 +74,7 @@ export function expAction(
   work: ExpActionWork,
 ): void {
   const { term, next, sum } = work;
+  const { rowStart, cols, vals } = m;
   const steps = Math.max(1, Math.ceil((normM * h) / SUBSTEP_NORM));
   const delta = h / steps;
   for (let i = 0; i < n; i++) out[i] = x[i];
@@ -49,8 +82,7 @@ export function expAction(
     // First term: δ·(M·x + u); then T_k = (δ/k)·M·T_{k−1}.
     for (let i = 0; i < n; i++) {
       let acc = u ? u[i] : 0;
-      const row = i * n;
-      for (let j = 0; j < n; j++) acc += m[row + j] * out[j];
+      for (let e = rowStart[i]; e < rowStart[i + 1]; e++) acc += vals[e] * out[cols[e]];
       term[i] = delta * acc;
       sum[i] = out[i] + term[i];
     }
@@ -58,8 +90,7 @@ export function expAction(
       const factor = delta / k;
       for (let i = 0; i < n; i++) {
         let acc = 0;
-        const row = i * n;
-        for (let j = 0; j < n; j++) acc += m[row + j] * term[j];
+        for (let e = rowStart[i]; e < rowStart[i + 1]; e++) acc += vals[e] * term[cols[e]];
         next[i] = factor * acc;
       }
       // Component by component: a small amount beside a large one (an effect compartment of
