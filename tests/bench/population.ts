@@ -69,6 +69,8 @@ export interface PopulationRun {
   planSeconds: number;
   threadSeconds: number;
   summarySeconds: number;
+  /** From the last subject done to the bands found (part of threadSeconds). */
+  bandsSeconds: number;
   /** From starting the threads until the first subject is done (engine load in the threads). */
   firstSubjectSeconds: number;
   peakRssMb: number;
@@ -133,6 +135,8 @@ async function runHere(saturable: boolean, subjects: number, step: number, end?:
   if (!plan.ok) throw new Error(JSON.stringify(plan.problems));
   const planned = performance.now();
   let firstDone = NaN;
+  // The last subject done: the bands follow.
+  let bandsDone: number | undefined;
   const options: ThreadOptions = {
     threads,
     plan: plan.value,
@@ -140,12 +144,14 @@ async function runHere(saturable: boolean, subjects: number, step: number, end?:
     worker: { kind: 'built', url: new URL(`file://${join(root, 'dist', 'server', 'population-worker.js')}`) },
     onProgress: (done) => {
       if (done > 0 && Number.isNaN(firstDone)) firstDone = performance.now();
+      if (done === subjects) bandsDone = performance.now();
     },
   };
   const batches = await runThreads(scenario, {}, subjects, options);
   if (!batches.ok) throw new Error(JSON.stringify(batches.problems));
   const threadsUsed = batches.threadsUsed ?? threads;
   const ran = performance.now();
+  const bandsSeconds = bandsDone === undefined ? NaN : (ran - bandsDone) / 1000;
   const result = summarise(plan.value, batches.value, batches.computed);
   if (!result.ok) throw new Error(JSON.stringify(result.problems));
   const finished = performance.now();
@@ -158,6 +164,7 @@ async function runHere(saturable: boolean, subjects: number, step: number, end?:
     planSeconds: (planned - start) / 1000,
     threadSeconds: (ran - planned) / 1000,
     summarySeconds: (finished - ran) / 1000,
+    bandsSeconds,
     firstSubjectSeconds: (firstDone - planned) / 1000,
     peakRssMb: process.resourceUsage().maxRSS / 1024,
     subjectsWithoutSteadyState: result.value.diagnostics.subjectsWithoutSteadyState,
@@ -193,7 +200,7 @@ export function populationReport(b: PopulationBench): string {
   const f = (v: number, d = 2) => v.toFixed(d);
   const run = (name: string, r: PopulationRun, target: string) =>
     `  ${name.padEnd(44)} ${f(r.seconds).padStart(7)} s  ${String(Math.round(r.peakRssMb)).padStart(5)} MB peak  (${r.subjects} subjects × ${r.times} times, ${r.threads} of ${availableParallelism()} threads used; ${target})\n` +
-    `  ${''.padEnd(44)} plan ${f(r.planSeconds)} s, threads ${f(r.threadSeconds)} s (first subjects done after ${f(r.firstSubjectSeconds)} s), summary ${f(r.summarySeconds)} s`;
+    `  ${''.padEnd(44)} plan ${f(r.planSeconds)} s, threads ${f(r.threadSeconds)} s (first subjects done after ${f(r.firstSubjectSeconds)} s; the bands ${f(r.bandsSeconds)} s after the last), summary ${f(r.summarySeconds)} s`;
   return [
     `  per subject, one thread: population path ${f(b.perSubject.populationPathMs, 3)} ms, exact solve alone ${f(b.perSubject.exactSolveMs, 3)} ms: ${f(b.perSubject.ratio, 1)}×`,
     run('1,000 subjects, exact path, hourly bands', b.linear1000, `target < 1 s: ${b.linear1000.seconds < 1 ? 'PASS' : 'FAIL'}`),
