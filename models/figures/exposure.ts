@@ -4,7 +4,7 @@
  * each exact piece); between two knots, turning points are located as roots of the
  * slope and threshold crossings as roots of C − level, on the continuous solution.
  */
-import type { Model } from '../building/model.ts';
+import type { Administration, Model } from '../building/model.ts';
 import type { Schedule } from '../building/events.ts';
 import type { StateLayout } from '../building/system.ts';
 import { CurveProbe } from './curve-probe.ts';
@@ -159,10 +159,10 @@ function windowFigures(
 /** Times that open dosing intervals: distinct administration times within [start, end). */
 export function intervalStarts(model: Model, breakpoints: Float64Array): Float64Array {
   const tolerance = 1e-12 * Math.max(1, Math.abs(model.end), Math.abs(model.start));
-  // Only the times in the span are gathered (a window of a long regimen holds one or two of them).
-  const within: number[] = [];
-  for (const a of model.administrations) if (a.given >= model.start && a.given < model.end) within.push(a.given);
-  const sorted = Float64Array.from(within).sort();
+  // Only the times in the span are read (a window of a long regimen holds one or two of them),
+  // found by bisection in the administrations' times, sorted once per list of administrations.
+  const given = sortedGivenTimes(model.administrations);
+  const sorted = given.subarray(firstAtLeast(given, model.start), firstAtLeast(given, model.end));
   // Times that differ by unit-conversion rounding ("8 h" × 3 against "1 day") are one start,
   // snapped to the breakpoint there so that the boundary rows and the start coincide exactly.
   const out: number[] = [];
@@ -172,6 +172,18 @@ export function intervalStarts(model: Model, breakpoints: Float64Array): Float64
     out.push(near !== null && Math.abs(near - t) <= tolerance ? near : t);
   }
   return Float64Array.from(out);
+}
+
+/** Administration times in ascending order, per list of administrations (a population's subjects share one list). */
+const givenTimes = new WeakMap<readonly Administration[], Float64Array>();
+
+function sortedGivenTimes(administrations: readonly Administration[]): Float64Array {
+  let times = givenTimes.get(administrations);
+  if (!times) {
+    times = Float64Array.from(administrations, (a) => a.given).sort();
+    givenTimes.set(administrations, times);
+  }
+  return times;
 }
 
 function nearest(sorted: Float64Array, t: number): number | null {
@@ -201,9 +213,11 @@ function mergeTwo(a: Float64Array, b: Float64Array): Float64Array {
   return out.slice(0, u);
 }
 
-/** Sorted unique union of the given ascending arrays. */
-function mergeTimes(lists: Float64Array[]): Float64Array {
-  return lists.reduce((merged, list) => mergeTwo(merged, list), new Float64Array(0));
+/** Sorted unique union of the given ascending arrays, within [from, to]. */
+function mergeTimes(lists: Float64Array[], from: number, to: number): Float64Array {
+  let merged = lists[0].subarray(firstAtLeast(lists[0], from), firstAtLeast(lists[0], to, true));
+  for (let k = 1; k < lists.length; k++) merged = mergeTwo(merged, lists[k].subarray(firstAtLeast(lists[k], from), firstAtLeast(lists[k], to, true)));
+  return merged;
 }
 
 /** For each of the ascending times, whether it is one of the ascending `members` (a walk, not a lookup). */
@@ -260,9 +274,7 @@ export function exposureFigures(whole: Model, layout: StateLayout, probe: CurveP
   const schedule = probe.schedule;
   const bpTimes = breakpointTimesWithin(schedule, model.start, model.end);
   const starts = intervalStarts(model, bpTimes);
-  const scan = mergeTimes([probe.trajectory.knots(model.start, model.end), bpTimes, starts, Float64Array.of(model.start, model.end)]).filter(
-    (t) => t >= model.start && t <= model.end,
-  );
+  const scan = mergeTimes([probe.trajectory.knots(model.start, model.end), bpTimes, starts, Float64Array.of(model.start, model.end)], model.start, model.end);
   // Rows: a breakpoint gets a left and a right row (state or slope may jump there).
   const scanBreakpoint = membership(scan, bpTimes);
   const scanBoundary = membership(scan, starts);
