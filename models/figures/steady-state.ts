@@ -144,6 +144,8 @@ function cycleMap(model: Model, system: CompartmentSystem, schedule: CycleMap['s
 export interface SteadyStateOptions {
   approach: boolean;
   profile: boolean;
+  /** The propagators of a run of the same system just made (a virtual subject's), to share where the cycle's inputs are the same. */
+  sharePropagators?: PropagatorCache;
 }
 
 export function steadyStateFigures(
@@ -199,7 +201,7 @@ export function steadyStateFigures(
   let cycles: number;
   let searchResidual = 0;
   // The cycle's propagators, made once for the closed form and the cycle's figures.
-  const cycleCache = model.linear ? new PropagatorCache(system.linearMatrix, system.dimension, scheduleInputs(schedule, system.dimension)) : undefined;
+  const cycleCache = model.linear ? new PropagatorCache(system.linearMatrix, system.dimension, scheduleInputs(schedule, system.dimension), undefined, options.sharePropagators) : undefined;
   if (model.linear) {
     // The cycle map is affine whatever integrates the curves: its fixed point in closed form.
     work.cycles++;

@@ -15,6 +15,7 @@ import type { Problem } from '../scenario/problems.ts';
 import type { Period, Scenario } from '../scenario/schema.ts';
 import { emptyStats, IntegrationFailure } from '../solving/numerics/ode-system.ts';
 import { solveSchedule } from '../solving/solve.ts';
+import type { PropagatorCache } from '../solving/linear-path.ts';
 import { releaseTrajectory, type Trajectory } from '../solving/numerics/dense-store.ts';
 import { correlate } from './correlation.ts';
 import { STREAMS, subjectCovariates } from './covariates.ts';
@@ -103,11 +104,14 @@ export function runSubject(
   const stats = emptyStats();
   const outcome: SubjectOutcome = { status: 0, methods: [], balance: 0, steadyMessage: null };
   const intervalPeriods = layout.periods.filter((p) => p !== 'steady state');
+  // The run's propagators, shared with the steady-state cycle of the same subject (the same matrix).
+  let propagators: PropagatorCache | undefined;
   try {
     if (grid || intervalPeriods.length > 0) {
       const schedule = scratch.doses.get(scenario)?.schedule ?? buildSchedule(model.administrations, model.compartments.length, model.start, model.end);
       const solution = solveSchedule(model, system, schedule, new Float64Array(system.dimension), stats);
       outcome.methods = solution.methodsUsed;
+      propagators = solution.propagatorCache;
       const balance = massBalance(model, system.layout, solution.final);
       const unbalanced = massBalanceProblem(model, balance);
       if (unbalanced) return { ok: false, problems: [unbalanced] };
@@ -128,7 +132,7 @@ export function runSubject(
     }
     const steadyAt = layout.periods.indexOf('steady state');
     if (steadyAt >= 0) {
-      const steady = steadyStateFigures(model, system, stats, { approach: false, profile: false });
+      const steady = steadyStateFigures(model, system, stats, { approach: false, profile: false, sharePropagators: propagators });
       if (!steady?.reached) {
         outcome.status |= NO_STEADY_STATE;
         outcome.steadyMessage = steady?.message ?? 'no repeated dose line';

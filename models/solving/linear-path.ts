@@ -175,7 +175,7 @@ export function quadratureScaling(m: Float64Array, n: number): Float64Array {
 
 /** Propagators keyed by (step, input vector); regular grids reuse a handful of them. */
 export class PropagatorCache {
-  private readonly cache = new Map<StepKey, SparsePropagator>();
+  private readonly cache: Map<StepKey, SparsePropagator>;
   private readonly ws: ExpmWorkspace;
   computed = 0;
   /** quadratureScaling of the matrix, the scaled matrix D⁻¹MD and the scaled inputs D⁻¹u. */
@@ -192,8 +192,27 @@ export class PropagatorCache {
     /** Input vector (length n) of each rate key. */
     readonly inputs: readonly Float64Array[],
     private readonly capacity = 4096,
+    /**
+     * A cache of the same matrix whose propagators this one may share: a steady-state cycle of
+     * the run just made (the same subject's matrix, and inputs equal key by key) then reuses the
+     * run's Padé exponentials — the dosing interval's, the long knot steps' — rather than making
+     * them again. Steps asked for once are still remembered per cache (getIfRepeated).
+     */
+    shareWith?: PropagatorCache,
   ) {
     this.ws = sharedExpmWorkspace(n + 1);
+    if (shareWith && shareWith.matrix === matrix && shareWith.n === n && sameInputs(shareWith.inputs, inputs)) {
+      this.cache = shareWith.cache;
+      this.scaling = shareWith.scaling;
+      this.scaledMatrix = shareWith.scaledMatrix;
+      this.scaledInputs = shareWith.scaledInputs;
+      this.scratch = shareWith.scratch;
+      this.quadrature = shareWith.quadrature;
+      this.fastestRate = shareWith.fastestRate;
+      this.leadingRows = shareWith.leadingRows;
+      return;
+    }
+    this.cache = new Map<StepKey, SparsePropagator>();
     const d = quadratureScaling(matrix, n);
     this.scaling = d;
     this.scaledMatrix = Float64Array.from(matrix, (v, k) => (v * d[k % n]) / d[Math.floor(k / n)]);
@@ -293,6 +312,19 @@ export class PropagatorCache {
     if (h === 0) out.set(x);
     else apply(this.get(h, rateKey), x, this.n, out);
   }
+}
+
+/** Whether two lists of input vectors are equal key by key (a key's vector may be absent in both). */
+function sameInputs(a: readonly Float64Array[], b: readonly Float64Array[]): boolean {
+  if (a.length !== b.length) return false;
+  for (let k = 0; k < a.length; k++) {
+    const u = a[k];
+    const v = b[k];
+    if (u === v) continue;
+    if (!u || !v || u.length !== v.length) return false;
+    for (let i = 0; i < u.length; i++) if (u[i] !== v[i]) return false;
+  }
+  return true;
 }
 
 type StepKey = number | string;

@@ -23,6 +23,8 @@ export interface Solution {
   final: Float64Array;
   methodsUsed: string[];
   propagators: number;
+  /** The exact path's propagators, for a later run of the same system to share (PropagatorCache shareWith). */
+  propagatorCache?: PropagatorCache;
 }
 
 /** Solves the model's schedule from state y0 by the path the model's settings choose. */
@@ -37,7 +39,7 @@ export function solveSchedule(
 ): Solution {
   if (choosePath(model) === 'exact') {
     const run = propagateExact(system, schedule, y0, cache);
-    return { trajectory: run.trajectory, final: run.final, methodsUsed: ['exact'], propagators: run.trajectory.cache.computed };
+    return { trajectory: run.trajectory, final: run.final, methodsUsed: ['exact'], propagators: run.trajectory.cache.computed, propagatorCache: run.trajectory.cache };
   }
   const run = integrateSchedule(system, schedule, y0, model.solver, stats);
   return { trajectory: run.trajectory, final: run.final, methodsUsed: [...run.methodsUsed], propagators: 0 };
