@@ -1,11 +1,13 @@
 /**
  * `tidemark nca FILE`: non-compartmental figures of measured levels in a CSV file, per subject,
- * then summarised over subjects. The file is RFC 4180 CSV (read by covariate-csv.ts's splitCsv)
- * with the header names `subject` (optional), `time`, `concentration`, and optionally `below
- * limit`, `limit`, `compartment`, `label`; a unit may follow a header in brackets
- * (`time [h]`, `concentration [mg/L]`) and then names the figures' units. Every bad row is
- * reported as `FILE line N, column NAME: message` (exit 1); none is dropped. Needs neither the
- * engine nor a worker thread: cli.ts runs it in the main thread.
+ * then summarised over subjects. The file is read as every levels file is
+ * (models/levels/observations-csv.ts, through server/observations-csv.ts: our headers `time`,
+ * `concentration`, `subject`, `below limit`, `limit`, `compartment`, `label` or a --mapping,
+ * units in brackets, `<0.5`, yes/no in its spellings, ISO 8601 date-times), then converted to
+ * hours and mg/L (mmol/L for levels in moles) and grouped by subject (and compartment)
+ * (models/levels/nca-levels.ts). Every bad row is reported as `FILE line N, column NAME:
+ * message` (exit 1); none is dropped. Needs neither the engine nor a worker thread: cli.ts runs
+ * it in the main thread.
  */
 import { readFileSync } from 'node:fs';
 import { checkNcaInput, ncaFigureInfo, ncaFigureNames, ncaLabel, ncaProfile, type NcaDimension, type NcaDose, type NcaFigureName, type NcaResult, type NcaRoute, type NcaRule } from '../models/levels/nca.ts';
@@ -14,9 +16,14 @@ import { ncaOfModel, type NcaOptions, type ScenarioNca } from '../models/levels/
 import { terminalPointsFrom } from '../models/levels/terminal-from.ts';
 import { buildModel, parseScenario } from '../models/scenario/normalize.ts';
 import { describeProblems } from '../models/scenario/problems.ts';
-import { readLevelsScenario } from './observations-csv.ts';
+import { parseObservationsCsv, readLevelsScenario } from './observations-csv.ts';
 import { parseOptions } from './cli-options.ts';
-import { splitCsv } from './covariate-csv.ts';
+import { clockLabel, looksLikeDateTime, type Clock } from '../models/levels/clock.ts';
+import { ncaLevelsOf, type NcaLevels } from '../models/levels/nca-levels.ts';
+import { defaultHeaders, observationFields, type ObservationField } from '../models/levels/observations-csv.ts';
+import { readInstant, unitsPerHour, type InstantReader } from '../models/scenario/instants.ts';
+import type { ObservationMapping } from '../models/scenario/schema.ts';
+import { convertQuantity, unitWritten } from '../models/scenario/units.ts';
 import { visibleLines, visibleText } from './terminal-text.ts';
 import { fromUserFolder } from './user-folder.ts';
 
@@ -29,42 +36,37 @@ export interface NcaCliOutcome {
 export const ncaUsage = `usage: tidemark nca FILE [options]      (from the repository: npm run -s cli -- nca FILE …)
 
 Non-compartmental figures of measured levels, per subject, then a summary over subjects.
-FILE is a scenario (.json) with observations, or a CSV with a header: time, concentration and
-optionally subject, below limit, limit, compartment, label; a unit may follow a name in brackets: "time [h]", "concentration [mg/L]".
-A row whose "below limit" is yes or true is left out of every figure and named.
+FILE is a scenario (.json) with observations, or a CSV of levels read as a scenario's levels file:
+headers time, concentration and optionally subject, below limit, limit, compartment, label (any
+case, or mapped with --mapping), a unit in brackets ("time [min]", "concentration [ug/mL]"),
+times as numbers or ISO 8601 date-times, "<0.5" for a level below the limit 0.5. Figures are in
+hours and mg/L (mmol/L for levels in moles); a number without a unit is taken in those.
+A row below the limit is left out of every figure and named.
 A scenario gives its own dose (its first dose line: nominal amount, route by where it goes) and,
 when that line repeats, the steady-state interval; its "nca" section may give the rule and fix
 terminal lines. Only --rule, --terminal-from and --format apply to a scenario; given, --rule and
 --terminal-from override the section (--terminal-from then fixes the line of every profile).
 
 options:
-  --dose AMOUNT          the dose, e.g. 500 or "500 mg" (CL, Vz and MRT need it)
-  --dose-time T          when it was given, in the file's time unit (default 0)
+  --dose AMOUNT          the dose, e.g. 500 or "500 mg" (CL, Vz and MRT need it; no unit: mg)
+  --dose-time T          when it was given (default 0): a number in the file's time unit, a time
+                         such as "48 h", or a date-time when the file's times are date-times
   --route R              intravascular (bolus), extravascular (default) or infusion
-  --duration D           an infusion's length, in the file's time unit (needed for an infusion)
-  --interval TAU         the dosing interval at steady state: AUCτ, Cavg, Cmin, Cmax, fluctuation, swing
+  --duration D           an infusion's length (as --interval; needed for an infusion)
+  --interval TAU         the dosing interval at steady state, a number in the file's time unit or
+                         e.g. "12 h": AUCτ, Cavg, Cmin, Cmax, fluctuation, swing; a level drawn
+                         within τ/4 before the dose is its pre-dose level, else C(τ) stands for it
   --rule R               log-down (linear up, log-linear down; default) or linear
   --terminal-from T      fix the terminal line: the levels at or after time T that come after Cmax
-                         (below-limit ones left out) instead of the best adjusted R²; T in the
-                         file's time unit, or for a scenario an instant as it writes them
+                         (below-limit ones left out) instead of the best adjusted R²; T as
+                         --dose-time, or for a scenario an instant as it writes them
                          ("96 h", or a date-time by its clock); fewer than 3 levels are flagged
+  --mapping F=H,…        which header holds each field, e.g. "time=Sample drawn,concentration=Level"
   --format F             text (default), json or csv (one row per subject)
 
 NCA figures describe the levels given; they are not dosing advice.`;
 
 const closing = 'NCA figures describe the levels given; they are not dosing advice.';
-
-type ColumnName = 'subject' | 'time' | 'concentration' | 'below limit' | 'limit' | 'compartment' | 'label';
-const columnNames: readonly ColumnName[] = ['subject', 'time', 'concentration', 'below limit', 'limit', 'compartment', 'label'];
-
-/** One level as read from a row, with its line for messages. */
-interface Level {
-  group: string;
-  time: number;
-  concentration: number;
-  belowLimit: boolean;
-  line: number;
-}
 
 export interface NcaUnits {
   time: string | null;
@@ -74,108 +76,60 @@ export interface NcaUnits {
 
 const numberPattern = /^[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?$/;
 
-/** A header field: a name (case and inner spaces as the user likes), optionally its unit in brackets. */
-function readHeader(field: string): { name: string; unit: string | null } | null {
-  const m = /^([^[\]]*?)\s*(?:\[([^[\]]*)\])?$/.exec(field.trim());
-  if (!m) return null;
-  const unit = m[2] === undefined ? null : m[2].trim();
-  return { name: m[1].trim().replace(/\s+/g, ' ').toLowerCase(), unit: unit === '' ? null : unit };
+/** "line 7" of "levels.csv line 7", for flags beside a file's own lines. */
+function lineOf(source: string): string {
+  const m = /line \d+$/.exec(source);
+  return m ? m[0] : source;
 }
 
-/** yes/true and no/false (any case), or empty for no. */
-function readYesNo(value: string): boolean | null {
-  const v = value.toLowerCase();
-  if (v === 'yes' || v === 'true') return true;
-  if (v === '' || v === 'no' || v === 'false') return false;
-  return null;
-}
-
-/** The levels of a CSV text grouped by subject (and compartment), or every error as full lines. */
-export function parseLevelsCsv(text: string, file: string): { ok: true; groups: Map<string, Level[]>; units: Omit<NcaUnits, 'amount'>; notes: string[] } | { ok: false; errors: string[] } {
-  const shown = visibleText(file);
-  const split = splitCsv(text);
-  if (!split.ok) return { ok: false, errors: [`${shown} line ${split.line}: ${split.message}`] };
-  const [head, ...body] = split.records;
-  if (!head || (head.fields.length === 1 && head.fields[0] === '')) return { ok: false, errors: [`${shown} line 1: the header is missing: e.g. "subject,time [h],concentration [mg/L]"`] };
-  const errors: string[] = [];
-  const at = new Map<ColumnName, { index: number; unit: string | null }>();
-  head.fields.forEach((f, k) => {
-    const h = readHeader(f);
-    const name = h?.name as ColumnName | undefined;
-    if (!h || !name || !columnNames.includes(name)) errors.push(`${shown} line ${head.line}, column ${k + 1}: '${visibleText(f)}' is not a column nca reads (${columnNames.join(', ')}, each optionally with a unit in brackets)`);
-    else if (at.has(name)) errors.push(`${shown} line ${head.line}, column ${name}: the column appears twice`);
-    else at.set(name, { index: k, unit: h.unit });
-  });
-  for (const needed of ['time', 'concentration'] as const) if (!at.has(needed)) errors.push(`${shown} line ${head.line}: the header has no '${needed}' column`);
-  if (errors.length > 0) return { ok: false, errors };
-  const units = { time: at.get('time')?.unit ?? null, concentration: at.get('concentration')?.unit ?? null };
-  const limitUnit = at.get('limit')?.unit ?? null;
-  if (limitUnit !== null && limitUnit !== units.concentration) errors.push(`${shown} line ${head.line}, column limit: its unit '${visibleText(limitUnit)}' differs from the concentration's; give both in one unit`);
-  const groups = new Map<string, Level[]>();
-  let empty = 0;
-  const seen = new Map<string, number>();
-  for (const record of body) {
-    if (record.fields.length === 1 && record.fields[0] === '' && !record.quoted[0]) {
-      empty++;
-      continue;
-    }
-    const where = `${shown} line ${record.line}`;
-    if (record.fields.length !== head.fields.length) {
-      errors.push(`${where}: ${record.fields.length} field${record.fields.length === 1 ? '' : 's'} where the header has ${head.fields.length}`);
-      continue;
-    }
-    const value = (c: ColumnName) => {
-      const col = at.get(c);
-      return col === undefined ? '' : record.fields[col.index];
-    };
-    const rowErrors: string[] = [];
-    const bad = (c: ColumnName, message: string) => rowErrors.push(`${where}, column ${c}: ${message}`);
-    const number = (c: ColumnName, what: string): number | null => {
-      const v = value(c);
-      if (!numberPattern.test(v)) {
-        if (v === '') bad(c, `the ${what} is empty`);
-        else if (c === 'time' && /^\d{4}-\d\d-\d\dT/.test(v)) bad(c, `'${visibleText(v)}' is a date-time; nca reads elapsed times as numbers (e.g. hours after the first dose)`);
-        else bad(c, `'${visibleText(v)}' is not a number`);
-        return null;
-      }
-      return Number(v);
-    };
-    const time = number('time', 'time');
-    const below = readYesNo(value('below limit'));
-    if (below === null) bad('below limit', `'${visibleText(value('below limit'))}' is not yes, no, true, false or empty`);
-    let concentration: number | null = null;
-    if (below === true && value('concentration') === '') concentration = null;
-    else {
-      concentration = number('concentration', 'concentration');
-      if (concentration !== null && concentration < 0) bad('concentration', `${value('concentration')} is negative; a level cannot be below zero`);
-    }
-    if (at.has('limit') && value('limit') !== '') {
-      const limit = number('limit', 'limit');
-      if (limit !== null && limit < 0) bad('limit', `${value('limit')} is negative`);
-      if (limit !== null && below === true && concentration !== null && concentration >= limit) bad('below limit', `the level ${concentration} is not below its limit ${limit}`);
-    } else if (below === true && at.has('limit')) bad('limit', 'a level below the limit needs its limit');
-    const subject = at.has('subject') ? value('subject') : '';
-    if (at.has('subject') && subject === '') bad('subject', 'the subject is empty');
-    const compartment = value('compartment');
-    const group = at.has('compartment') && compartment !== '' ? `${subject}${subject ? ' / ' : ''}${compartment}` : subject;
-    if (time !== null) {
-      // Checked even when the row has other problems, so a repeated time is named against its first line.
-      const key = `${group}\u0000${time}`;
-      const earlier = seen.get(key);
-      if (earlier !== undefined) bad('time', `${group ? `subject ${visibleText(group)} ` : ''}has a level at ${time} already (line ${earlier})`);
-      else seen.set(key, record.line);
-    }
-    errors.push(...rowErrors);
-    if (rowErrors.length > 0 || time === null) continue;
-    const list = groups.get(group) ?? [];
-    list.push({ group, time, concentration: concentration ?? 0, belowLimit: below === true, line: record.line });
-    groups.set(group, list);
+/** --mapping "time=Sample drawn,concentration=Level": which header holds each field, as a scenario's observations.mapping. */
+export function readMappingOption(text: string): { ok: true; mapping: ObservationMapping } | { ok: false; message: string } {
+  const mapping: Record<string, string> = {};
+  for (const part of text.split(',')) {
+    const m = /^\s*([A-Za-z]+)\s*=\s*(.*?)\s*$/.exec(part);
+    const field = m?.[1] as ObservationField | undefined;
+    if (!m || field === undefined || !observationFields.includes(field)) return { ok: false, message: `--mapping takes FIELD=HEADER pairs separated by commas, FIELD one of ${observationFields.join(', ')}; not '${visibleText(part.trim())}'` };
+    if (m[2] === '') return { ok: false, message: `--mapping: ${field} needs the header of a column` };
+    if (mapping[field] !== undefined) return { ok: false, message: `--mapping names ${field} twice` };
+    mapping[field] = m[2];
   }
-  if (errors.length > 0) return { ok: false, errors };
-  if (groups.size === 0) return { ok: false, errors: [`${shown}: the file has a header but no levels`] };
-  for (const list of groups.values()) list.sort((a, b) => a.time - b.time);
-  const notes = empty > 0 ? [`${empty} empty line${empty === 1 ? '' : 's'} skipped`] : [];
-  return { ok: true, groups, units, notes };
+  return { ok: true, mapping: mapping as ObservationMapping };
+}
+
+/**
+ * The levels of a CSV text, read as every levels file is (models/levels/observations-csv.ts:
+ * our headers or a mapping, units in brackets, `<0.5`, yes/no in its spellings, ISO 8601
+ * date-times), then converted to one unit system and grouped by subject (nca-levels.ts).
+ * Errors are full lines, `FILE line N, column NAME: message`, with control characters made visible.
+ */
+export function parseLevelsCsv(text: string, file: string, mapping: ObservationMapping = {}, instants: readonly string[] = []): { ok: true; levels: NcaLevels; notes: string[] } | { ok: false; errors: string[] } {
+  const read = parseObservationsCsv(text, file, mapping);
+  if (!read.ok) return read;
+  const columns = { time: mapping.time ?? defaultHeaders.time, concentration: mapping.concentration ?? defaultHeaders.concentration, limit: mapping.limit ?? defaultHeaders.limit };
+  const levels = ncaLevelsOf(read.observations, columns, instants);
+  if (!levels.ok) return { ok: false, errors: levels.errors.map(visibleText) };
+  return { ok: true, levels: levels.value, notes: [...read.notes, ...levels.value.notes.map(visibleText)] };
+}
+
+/** A time option: a quantity ("48 h"), a bare number in the file's time unit, or (where allowed) a date-time by the file's clock; in the levels' time unit. */
+function readTimeOption(name: string, text: string, levels: NcaLevels, dateTime: boolean): { ok: true; value: number } | { ok: false; message: string } {
+  const trimmed = text.trim();
+  if (looksLikeDateTime(trimmed) && !dateTime) return { ok: false, message: `--${name} is a duration, not a date-time ('${visibleText(trimmed)}')` };
+  let failed: string | null = null;
+  const reader: InstantReader = {
+    units: levels.units,
+    fail: (_path, message) => (failed ??= message),
+    read: (q, dimension) => {
+      if (q === undefined) return null;
+      const c = convertQuantity(q, dimension, levels.units);
+      if (!c.ok) failed ??= c.message;
+      return c.ok ? c.value : null;
+    },
+  };
+  if (looksLikeDateTime(trimmed) && levels.clock === null) return { ok: false, message: `--${name} is a date-time, but the file's times are not: give it in the file's time unit` };
+  const q = numberPattern.test(trimmed) ? (levels.fileTimeUnit !== null ? `${trimmed} ${levels.fileTimeUnit}` : Number(trimmed)) : trimmed;
+  const value = readInstant(q, `--${name}`, levels.clock, reader);
+  return value === null ? { ok: false, message: `--${name} ${visibleText(failed ?? 'could not be read')}` } : { ok: true, value };
 }
 
 /** A figure's unit in the file's units; a concentration written amount/volume with the dose's amount unit cancels (mg/(mg/L·h) is L/h). */
@@ -249,20 +203,13 @@ function csvField(s: string): string {
   return /[",\n\r]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s;
 }
 
-/** Parses one number option; undefined when absent. */
-function numberOption(options: Map<string, string>, name: string): { ok: true; value: number | undefined } | { ok: false; message: string } {
-  const text = options.get(name);
-  if (text === undefined) return { ok: true, value: undefined };
-  return numberPattern.test(text.trim()) ? { ok: true, value: Number(text) } : { ok: false, message: `--${name} must be a number, not '${visibleText(text)}'` };
-}
-
 export function runNcaCli(args: string[], context: { folder: string }): NcaCliOutcome {
   if (args.includes('--help') || args.includes('-h')) return { code: 0, stdout: ncaUsage + '\n', stderr: '' };
   const usageError = (message: string): NcaCliOutcome => ({ code: 2, stdout: '', stderr: `${message}\n\n${ncaUsage}\n` });
   const parsed = parseOptions(args);
   if (parsed.error) return usageError(visibleText(parsed.error));
   const { options } = parsed;
-  const allowed = ['dose', 'dose-time', 'route', 'duration', 'interval', 'rule', 'format', 'terminal-from'];
+  const allowed = ['dose', 'dose-time', 'route', 'duration', 'interval', 'rule', 'format', 'terminal-from', 'mapping'];
   const unknown = [...options.keys()].find((k) => !allowed.includes(k));
   if (unknown !== undefined) return usageError(`unknown option --${visibleText(unknown)}`);
   if (parsed.positional.length !== 1) return usageError(parsed.positional.length === 0 ? 'a levels FILE (CSV) is required' : 'give one levels FILE');
@@ -274,6 +221,7 @@ export function runNcaCli(args: string[], context: { folder: string }): NcaCliOu
   if (/\.json$/i.test(parsed.positional[0])) {
     const doseOption = ['dose', 'dose-time', 'route', 'duration', 'interval'].find((k) => options.has(k));
     if (doseOption !== undefined) return usageError(`--${doseOption} is for a CSV of levels; a scenario's doses give the dose and the interval`);
+    if (options.has('mapping')) return usageError("--mapping is for a CSV of levels; a scenario's observations file is mapped by its observations.mapping");
     const from = options.get('terminal-from');
     if (from !== undefined && from.trim() === '') return usageError('--terminal-from needs a time, e.g. "96 h" or a date-time');
     return runScenarioNca(parsed.positional[0], context.folder, { ...(options.has('rule') ? { rule } : {}), ...(from !== undefined ? { terminalFrom: { from, path: '--terminal-from' } } : {}) }, format as 'text' | 'json' | 'csv');
@@ -281,28 +229,24 @@ export function runNcaCli(args: string[], context: { folder: string }): NcaCliOu
   const routeText = options.get('route') ?? 'extravascular';
   if (routeText !== 'intravascular' && routeText !== 'extravascular' && routeText !== 'infusion') return usageError(`--route must be intravascular, extravascular or infusion, not '${visibleText(routeText)}'`);
   const route: NcaRoute = routeText;
-  const numbers: Record<string, number | undefined> = {};
-  for (const name of ['dose-time', 'duration', 'interval', 'terminal-from']) {
-    const n = numberOption(options, name);
-    if (!n.ok) return usageError(n.message);
-    numbers[name] = n.value;
-  }
-  // The dose: a number, optionally followed by its unit ("500 mg").
-  let dose: NcaDose | undefined;
-  let amountUnit: string | null = null;
+  // The dose: a number, optionally followed by its unit ("500 mg"); converted once the file's unit system is known.
   const doseText = options.get('dose');
   if (doseText !== undefined) {
     const m = /^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([^\s\d].*)?$/.exec(doseText);
     if (!m || !(Number(m[1]) > 0)) return usageError(`--dose must be an amount above zero, optionally with its unit (e.g. 500 or "500 mg"), not '${visibleText(doseText)}'`);
-    amountUnit = m[2]?.trim() ?? null;
-    dose = { amount: Number(m[1]), time: numbers['dose-time'] ?? 0, route, ...(numbers.duration !== undefined ? { duration: numbers.duration } : {}) };
   } else {
     for (const name of ['dose-time', 'route', 'duration']) if (options.has(name)) return usageError(`--${name} describes the dose: give --dose too`);
   }
-  if (route === 'infusion' && dose && dose.duration === undefined) return usageError('an infusion needs --duration');
-  if (route !== 'infusion' && numbers.duration !== undefined) return usageError('--duration is for --route infusion');
-  if (numbers.interval !== undefined && !(numbers.interval > 0)) return usageError('--interval must be above zero');
-  if (numbers.duration !== undefined && !(numbers.duration > 0)) return usageError('--duration must be above zero');
+  if (route === 'infusion' && doseText !== undefined && !options.has('duration')) return usageError('an infusion needs --duration');
+  if (route !== 'infusion' && options.has('duration')) return usageError('--duration is for --route infusion');
+  for (const name of ['dose-time', 'duration', 'interval', 'terminal-from']) if (options.get(name)?.trim() === '') return usageError(`--${name} needs a time, e.g. 12 or "12 h"`);
+  let mapping: ObservationMapping = {};
+  const mappingText = options.get('mapping');
+  if (mappingText !== undefined) {
+    const m = readMappingOption(mappingText);
+    if (!m.ok) return usageError(m.message);
+    mapping = m.mapping;
+  }
 
   const shown = parsed.positional[0];
   const path = fromUserFolder(context.folder, shown);
@@ -313,13 +257,35 @@ export function runNcaCli(args: string[], context: { folder: string }): NcaCliOu
     const code = (e as NodeJS.ErrnoException).code;
     return { code: 1, stdout: '', stderr: `cannot read '${visibleText(shown)}'${code === 'ENOENT' ? ': no such file' : code === 'EISDIR' ? ': it is a folder' : code ? ` (${code})` : ''}\n` };
   }
-  const levels = parseLevelsCsv(text, shown);
-  if (!levels.ok) return { code: 1, stdout: '', stderr: levels.errors.join('\n') + '\n' };
-  const units: NcaUnits = { ...levels.units, amount: amountUnit };
+  // A dose written as a date-time is read by the file's clock, whose origin is then no later than it.
+  const doseTimeText = options.get('dose-time');
+  const read = parseLevelsCsv(text, shown, mapping, doseTimeText !== undefined && looksLikeDateTime(doseTimeText) ? [doseTimeText.trim()] : []);
+  if (!read.ok) return { code: 1, stdout: '', stderr: read.errors.join('\n') + '\n' };
+  const levels = read.levels;
+  const units: NcaUnits = { time: levels.units.time, concentration: `${levels.units.amount}/${levels.units.volume}`, amount: levels.units.amount };
+  // Times of options in the levels' unit: a quantity, a bare number in the file's time unit, a date-time by the file's clock.
+  const times: Record<string, number | undefined> = {};
+  for (const [name, dateTime] of [['dose-time', true], ['duration', false], ['interval', false], ['terminal-from', true]] as const) {
+    const t = options.get(name);
+    if (t === undefined) continue;
+    const value = readTimeOption(name, t, levels, dateTime);
+    if (!value.ok) return usageError(value.message);
+    times[name] = value.value;
+  }
+  if (times.interval !== undefined && !(times.interval > 0)) return usageError('--interval must be above zero');
+  if (times.duration !== undefined && !(times.duration > 0)) return usageError('--duration must be above zero');
+  let dose: NcaDose | undefined;
+  const notes = [...read.notes];
+  if (doseText !== undefined) {
+    const amount = convertQuantity(doseText.trim(), 'amount', levels.units);
+    if (!amount.ok) return usageError(`--dose ${visibleText(amount.message)}`);
+    if (unitWritten(doseText.trim()) === null) notes.push(`the dose has no unit: read as ${units.amount}`);
+    dose = { amount: amount.value, time: times['dose-time'] ?? 0, route, ...(times.duration !== undefined ? { duration: times.duration } : {}) };
+  }
 
   const profiles: Profiled[] = [];
   const problems: string[] = [];
-  const terminalFrom = numbers['terminal-from'];
+  const terminalFrom = times['terminal-from'];
   for (const [subject, list] of levels.groups) {
     const input = {
       times: list.map((l) => l.time),
@@ -327,7 +293,7 @@ export function runNcaCli(args: string[], context: { folder: string }): NcaCliOu
       excluded: list.flatMap((l, i) => (l.belowLimit ? [i] : [])),
       rule,
       ...(dose ? { dose } : {}),
-      ...(numbers.interval !== undefined ? { interval: numbers.interval } : {}),
+      ...(times.interval !== undefined ? { interval: times.interval } : {}),
     };
     const wrong = checkNcaInput(input);
     if (wrong.length > 0) problems.push(...wrong.map((w) => `${visibleText(shown)}, subject ${visibleText(subject)}: ${w}`));
@@ -338,7 +304,7 @@ export function runNcaCli(args: string[], context: { folder: string }): NcaCliOu
       for (const e of result.excluded) {
         const l = list[e.index];
         const i = result.flags.findIndex((f) => f.figure === 'levels' && f.message.startsWith(`the level at time ${e.time} `));
-        if (i >= 0) result.flags[i] = { figure: 'levels', message: `line ${l.line} (time ${l.time}) is below the limit: excluded from every figure` };
+        if (i >= 0) result.flags[i] = { figure: 'levels', message: `${lineOf(l.source)} (time ${fmt(l.time)}${levels.clock ? `, ${clockLabel(l.time, levels.clock)}` : ''}) is below the limit: excluded from every figure` };
       }
       profiles.push({ subject, result });
     }
@@ -348,7 +314,7 @@ export function runNcaCli(args: string[], context: { folder: string }): NcaCliOu
   const routeShown = dose ? route : null;
   // Steady-state figures only with an interval; the bolus's C0 only for a bolus.
   const shownFigures = ncaFigureNames.filter((n) => {
-    if (['aucTau', 'cavg', 'cminTau', 'cmaxTau', 'fluctuationPercent', 'swingPercent'].includes(n)) return numbers.interval !== undefined;
+    if (['aucTau', 'cavg', 'cminTau', 'cmaxTau', 'fluctuationPercent', 'swingPercent'].includes(n)) return times.interval !== undefined;
     if (n === 'c0') return routeShown === 'intravascular';
     return true;
   });
@@ -359,10 +325,11 @@ export function runNcaCli(args: string[], context: { folder: string }): NcaCliOu
       units,
       rule,
       dose: dose ?? null,
-      interval: numbers.interval ?? null,
+      interval: times.interval ?? null,
+      clockOrigin: levels.clock ? clockLabel(0, levels.clock) : null,
       subjects: profiles.map((p) => ({ subject: p.subject, figures: p.result.figures, terminal: p.result.terminal, excluded: p.result.excluded, flags: p.result.flags })),
       summary,
-      notes: [...levels.notes, closing],
+      notes: [...notes, closing],
     };
     return { code: 0, stdout: visibleLines(JSON.stringify(out, null, 2)) + '\n', stderr: '' };
   }
@@ -371,12 +338,13 @@ export function runNcaCli(args: string[], context: { folder: string }): NcaCliOu
     const rows = profiles.map((p) => [p.subject, ...shownFigures.map((n) => (p.result.figures[n] === null ? '' : String(p.result.figures[n]))), p.result.flags.map((f) => `${f.figure}: ${f.message}`).join('; ')]);
     return { code: 0, stdout: visibleLines([header, ...rows].map((r) => r.map(csvField).join(',')).join('\n')) + '\n', stderr: '' };
   }
-  const doseWords = dose ? `dose ${dose.amount}${amountUnit ? ` ${amountUnit}` : ''} at ${dose.time}${units.time ? ` ${units.time}` : ''}, ${route}${options.has('route') ? '' : ' (the default route)'}${dose.duration !== undefined ? ` over ${dose.duration}${units.time ? ` ${units.time}` : ''}` : ''}` : 'no dose given (areas from time 0; no CL, Vz or MRT)';
+  const at = (t: number) => `${fmt(t)} ${units.time}${levels.clock ? ` (${clockLabel(t, levels.clock)})` : ''}`;
+  const doseWords = dose ? `dose ${fmt(dose.amount)} ${units.amount} at ${at(dose.time)}, ${route}${options.has('route') ? '' : ' (the default route)'}${dose.duration !== undefined ? ` over ${fmt(dose.duration)} ${units.time}` : ''}` : 'no dose given (areas from time 0; no CL, Vz or MRT)';
   const head = [
-    `non-compartmental analysis of ${shown}: ${profiles.length} profile${profiles.length === 1 ? '' : 's'}; ${doseWords}; areas by ${ruleWords[rule]}${numbers.interval !== undefined ? `; steady state over τ = ${numbers.interval}${units.time ? ` ${units.time}` : ''}` : ''}`,
-    ...levels.notes,
+    `non-compartmental analysis of ${shown}: ${profiles.length} profile${profiles.length === 1 ? '' : 's'}; ${doseWords}; areas by ${ruleWords[rule]}${times.interval !== undefined ? `; steady state over τ = ${fmt(times.interval)} ${units.time}` : ''}`,
+    ...notes,
   ];
-  const fixedWords = terminalFrom !== undefined ? `from ${fmt(terminalFrom)}${units.time ? ` ${units.time}` : ''} (--terminal-from)` : undefined;
+  const fixedWords = terminalFrom !== undefined ? `from ${at(terminalFrom)} (--terminal-from)` : undefined;
   const parts = [head.join('\n'), ...profiles.map((p) => profileText(p, units, routeShown, shownFigures, fixedWords)), summaryText(summary, units, routeShown, shownFigures), closing];
   return { code: 0, stdout: visibleLines(parts.join('\n\n')) + '\n', stderr: '' };
 }
@@ -397,7 +365,10 @@ function runScenarioNca(shown: string, folder: string, overrides: Pick<NcaOption
     const list = nca.problems.map((p) => ({ path: visibleText(p.path), message: visibleText(p.message) }));
     return { code: 1, stdout: '', stderr: `${visibleText(shown)}: ${list.length} problem${list.length > 1 ? 's' : ''}:\n${describeProblems(list)}\n` };
   }
-  return scenarioNcaOutput(nca.value, shown, format, withLevels.notes);
+  // With a clock, times are shown with their clock time beside them, as the simulate text does.
+  const clock = model.ok ? model.value.clock : null;
+  const perHour = model.ok ? unitsPerHour(model.value.units) : 1;
+  return scenarioNcaOutput(nca.value, shown, format, withLevels.notes, clock, perHour);
 }
 
 /** A profile's name in text and CSV: subject and compartment. */
@@ -405,8 +376,14 @@ function profileName(p: ScenarioNca['profiles'][number]): string {
   return `${p.subject ?? '(no subject)'} / ${p.compartment}`;
 }
 
-function scenarioNcaOutput(nca: ScenarioNca, shown: string, format: 'text' | 'json' | 'csv', fileNotes: string[]): NcaCliOutcome {
+/** An instant in the scenario's time unit, with its clock time when the scenario has a clock: "24 h (2026-03-05 08:00 (+01:00))". */
+export function instantWords(t: number, unit: string, clock: Pick<Clock, 'originMs' | 'zoneMinutes'> | null, unitsPerHour: number): string {
+  return `${fmt(t)} ${unit}${clock ? ` (${clockLabel(t / unitsPerHour, clock)})` : ''}`;
+}
+
+function scenarioNcaOutput(nca: ScenarioNca, shown: string, format: 'text' | 'json' | 'csv', fileNotes: string[], clock: Clock | null, perHour: number): NcaCliOutcome {
   const units: NcaUnits = nca.units;
+  const at = (t: number) => instantWords(t, nca.units.time, clock, perHour);
   const steady = nca.profiles.some((p) => p.interval !== null);
   const shownFigures = ncaFigureNames.filter((n) => {
     if (['aucTau', 'cavg', 'cminTau', 'cmaxTau', 'fluctuationPercent', 'swingPercent'].includes(n)) return steady;
@@ -422,9 +399,9 @@ function scenarioNcaOutput(nca: ScenarioNca, shown: string, format: 'text' | 'js
   const parts = [
     [`non-compartmental analysis of the observations in ${shown}: ${nca.profiles.length} profile${nca.profiles.length === 1 ? '' : 's'}; areas by ${ruleWords[nca.rule]}`, ...fileNotes, ...nca.notes.slice(0, -1)].join('\n'),
     ...nca.profiles.map((p) => {
-      const where = p.dose ? `  after dose ${p.doseNumber} at ${fmt(p.dose.time)} ${units.time}${p.interval !== null ? `, steady state over τ = ${fmt(p.interval)} ${units.time}` : ''}; levels ${p.paths.join(', ')}` : `  levels ${p.paths.join(', ')}`;
+      const where = p.dose ? `  after dose ${p.doseNumber} at ${at(p.dose.time)}${p.interval !== null ? `, steady state over τ = ${fmt(p.interval)} ${units.time}` : ''}; levels ${p.paths.join(', ')}` : `  levels ${p.paths.join(', ')}`;
       const left = p.leftOut.map((l) => `  left out ${l.path}: ${l.reason}`);
-      const fixedWords = p.terminalFixed ? `from ${fmt(p.terminalFixed.from)} ${units.time} (${p.terminalFixed.path})` : undefined;
+      const fixedWords = p.terminalFixed ? `from ${at(p.terminalFixed.from)} (${p.terminalFixed.path})` : undefined;
       const text = profileText({ subject: profileName(p), result: p.result }, units, nca.route, shownFigures, fixedWords).split('\n');
       return [text[0], where, ...left, ...text.slice(1)].join('\n');
     }),

@@ -29,8 +29,10 @@ import type { Model } from '../building/model.ts';
 import { formatNumber } from '../result/format-number.ts';
 import type { Outcome, Problem } from '../scenario/problems.ts';
 import type { Instant, NcaSettingsLine } from '../scenario/schema.ts';
+import { unitsPerHour } from '../scenario/instants.ts';
 import { displayUnit } from '../scenario/units.ts';
-import { checkNcaInput, ncaProfile, type NcaDose, type NcaResult, type NcaRoute, type NcaRule } from './nca.ts';
+import { clockLabel } from './clock.ts';
+import { checkNcaInput, isPreDoseTime, ncaProfile, PRE_DOSE_SHARE, type NcaDose, type NcaResult, type NcaRoute, type NcaRule } from './nca.ts';
 import { summariseNca, type NcaSummary } from './nca-summary.ts';
 import { choiceFor, readNcaSettings } from './nca-settings.ts';
 import type { Observation } from './observation.ts';
@@ -38,8 +40,8 @@ import { terminalPointsFrom } from './terminal-from.ts';
 
 export const NCA_CAUTION = 'NCA figures describe the levels given; they are not dosing advice.';
 
-/** A level within this share of τ before a dose is that dose's pre-dose trough (our rule). */
-export const PRE_DOSE_SHARE = 0.25;
+// The pre-dose rule (a level within τ/4 before a dose is its trough) is the core's, shared with a levels file (nca.ts).
+export { PRE_DOSE_SHARE };
 
 export interface ScenarioNcaProfile {
   /** null when the observations name no subject. */
@@ -95,7 +97,7 @@ export function chooseInterval(doseTimes: readonly number[], tau: number, levelT
   for (let k = doseTimes.length - 1; k >= 0; k--) {
     const g = doseTimes[k];
     const inside = levelTimes.filter((t) => (bolus ? t > g : t >= g) && t <= g + tau).length;
-    const pre = levelTimes.some((t) => t >= g - PRE_DOSE_SHARE * tau && (bolus ? t <= g : t < g)) ? 1 : 0;
+    const pre = levelTimes.some((t) => isPreDoseTime(t, g, tau, bolus)) ? 1 : 0;
     if (inside + pre >= 2) return k;
     if (inside >= 1 && lastOne === null) lastOne = k;
   }
@@ -136,6 +138,9 @@ export function ncaOfModel(model: Model, options: NcaOptions = {}): Outcome<Scen
     if (dose.route === 'extravascular' && dose.duration > 0) notes.push('the dose enters a depot over a time; NCA treats it as extravascular and does not take the duration off MRT');
   }
   const bolus = dose?.route === 'intravascular';
+  // An instant in words: elapsed time, and its clock time when the scenario has a clock.
+  const perHour = unitsPerHour(model.units);
+  const when = (t: number) => `${formatNumber(t)} ${model.units.time}${model.clock ? ` (${clockLabel(t / perHour, model.clock)})` : ''}`;
   const profiles: ScenarioNcaProfile[] = [];
   for (const list of groups.values()) {
     // Stable by time: the same time twice cannot be one profile.
@@ -165,8 +170,8 @@ export function ncaOfModel(model: Model, options: NcaOptions = {}): Outcome<Scen
         const from = doseTime - PRE_DOSE_SHARE * tau;
         kept = [];
         for (const o of sorted) {
-          if (o.time < from) leftOut.push({ path: o.path, reason: `before dose ${k + 1} at ${doseTime} ${model.units.time} and more than a quarter of τ before it: not this interval's pre-dose trough` });
-          else if (!last && o.time > doseTime + tau) leftOut.push({ path: o.path, reason: `after the interval of dose ${k + 1} ends (${doseTime + tau} ${model.units.time}): under the next dose` });
+          if (o.time < from) leftOut.push({ path: o.path, reason: `before dose ${k + 1} at ${when(doseTime)} and more than a quarter of τ before it: not this interval's pre-dose trough` });
+          else if (!last && o.time > doseTime + tau) leftOut.push({ path: o.path, reason: `after the interval of dose ${k + 1} ends (${when(doseTime + tau)}): under the next dose` });
           else kept.push(o);
         }
         // A level before the dose counts as the pre-dose trough only if it is the last one before it.

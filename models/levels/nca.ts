@@ -12,6 +12,7 @@
  * recalled from memory: ch. 1 one compartment, ch. 2 several, ch. 3 multiple dosing, ch. 11
  * non-compartmental (moment) analysis, app. D the estimation of areas.
  */
+import { formatNumber as num } from '../result/format-number.ts';
 import { selectTerminalPhase, type LogLinearFit } from './terminal-phase.ts';
 
 export type NcaRoute = 'intravascular' | 'extravascular' | 'infusion';
@@ -105,9 +106,9 @@ export const ncaFigureInfo: Record<NcaFigureName, NcaFigureInfo> = {
   clearance: { label: 'CL', dimension: dim(1, -1, -1), rule: 'dose/AUC0–∞, or dose/AUCτ at steady state (Gibaldi & Perrier, ch. 1, 11)', summary: 'geometric' },
   volume: { label: 'Vz', dimension: dim(1, -1, 0), rule: 'dose/(λz·AUC0–∞), or dose/(λz·AUCτ) at steady state (Gibaldi & Perrier, ch. 11)', summary: 'geometric' },
   mrt: { label: 'MRT', dimension: dim(0, 0, 1), rule: 'AUMC0–∞/AUC0–∞, minus half the infusion time for an infusion (Gibaldi & Perrier, ch. 11)', summary: 'geometric' },
-  aucTau: { label: 'AUCτ', dimension: dim(0, 1, 1), rule: 'trapezoids from the dose time to dose time + τ (Gibaldi & Perrier, ch. 3)', summary: 'geometric' },
+  aucTau: { label: 'AUCτ', dimension: dim(0, 1, 1), rule: 'trapezoids from the dose time to dose time + τ, starting from the level drawn at the dose, else the last drawn within τ/4 before it, else the level at dose time + τ (C(0) = C(τ) at steady state), else the lowest in the interval; the last two flagged (Gibaldi & Perrier, ch. 3; the quarter is our rule)', summary: 'geometric' },
   cavg: { label: 'Cavg', dimension: dim(0, 1, 0), rule: 'AUCτ/τ (Gibaldi & Perrier, ch. 3)', summary: 'geometric' },
-  cminTau: { label: 'Cmin', dimension: dim(0, 1, 0), rule: 'lowest level observed in the interval, the pre-dose level included (common practice)', summary: 'geometric' },
+  cminTau: { label: 'Cmin', dimension: dim(0, 1, 0), rule: 'lowest level observed in the interval, with the pre-dose level when one was drawn within τ/4 before the dose (common practice; the quarter is our rule)', summary: 'geometric' },
   cmaxTau: { label: 'Cmax (τ)', dimension: dim(0, 1, 0), rule: 'highest level observed in the interval (common practice)', summary: 'geometric' },
   fluctuationPercent: { label: 'fluctuation', dimension: 'percent', rule: '100·(Cmax − Cmin)/Cavg over the interval (common practice)', summary: 'geometric' },
   swingPercent: { label: 'swing', dimension: 'percent', rule: '100·(Cmax − Cmin)/Cmin over the interval (common practice)', summary: 'geometric' },
@@ -159,6 +160,23 @@ export class NcaInputError extends Error {
 export const lowAdjustedR2 = 0.9;
 /** Extrapolated share of AUC0–∞ above this (percent) is flagged: common practice. */
 export const highExtrapolatedPercent = 20;
+
+/**
+ * A level drawn within this share of τ before a dose is that dose's pre-dose (trough) level:
+ * troughs are drawn shortly before a dose, and a level drawn earlier belongs to an earlier
+ * interval. The quarter is our rule; the scenario path (nca-scenario.ts) and a levels file share it.
+ */
+export const PRE_DOSE_SHARE = 0.25;
+
+/** Whether a level at `t` may be the pre-dose level of the dose at `doseTime` (interval τ): before it (or at it, for a bolus) and no more than τ/4 before. */
+export function isPreDoseTime(t: number, doseTime: number, tau: number, bolus: boolean): boolean {
+  return (bolus ? t <= doseTime : t < doseTime) && t >= doseTime - PRE_DOSE_SHARE * tau;
+}
+
+/** Two instants taken as one: equal to within 1e-9 of the interval (unit conversion leaves a few ulps; no sampling schedule is that fine). */
+function sameInstant(a: number, b: number, scale: number): boolean {
+  return Math.abs(a - b) <= 1e-9 * Math.max(Math.abs(scale), Math.abs(b));
+}
 
 const isIndex = (i: number, n: number) => Number.isInteger(i) && i >= 0 && i < n;
 
@@ -282,8 +300,15 @@ export function ncaProfile(input: NcaInput): NcaResult {
     flag('levels', 'no level after the dose time: no figure can be read');
     return { figures, terminal: null, excluded, rule, route, flags };
   }
-  const lastPre = pre.length > 0 ? pre[pre.length - 1] : null;
+  const lastBefore = pre.length > 0 ? pre[pre.length - 1] : null;
+  // At steady state the pre-dose level is the last one drawn within τ/4 before the dose (PRE_DOSE_SHARE); an earlier one is of an earlier interval.
+  const lastPre = tau !== null && lastBefore !== null && isPreDoseTime(times[lastBefore], doseTime, tau, bolus) ? lastBefore : null;
   if (pre.length > 0 && tau === null) flag('levels', `${pre.length} level${pre.length === 1 ? '' : 's'} before the dose time ${bolus ? '(or at the bolus) ' : ''}not used: without an interval, areas start at the dose`);
+  const unusedPre = pre.filter((i) => i !== lastPre);
+  if (tau !== null && unusedPre.length > 0) {
+    const at = unusedPre.map((i) => num(times[i])).join(', ');
+    flag('levels', `${unusedPre.length === 1 ? `the level at ${at} is` : `the levels at ${at} are`} not used: only the last level drawn within τ/4 before the dose (from ${num(doseTime - PRE_DOSE_SHARE * tau)} to ${num(doseTime)}) counts as its pre-dose level`);
+  }
 
   // The level at the dose time, where the area starts.
   let start: number | null = null;
@@ -306,18 +331,20 @@ export function ncaProfile(input: NcaInput): NcaResult {
     if (tau === null) start = 0; // a single dose given outside the blood: nothing there yet (common practice)
     else if (lastPre !== null) {
       start = concentrations[lastPre];
-      flag('aucTau', `the pre-dose level at ${times[lastPre]} is taken as the level at the dose time (steady state)`);
+      flag('aucTau', `the pre-dose level at ${num(times[lastPre])} (within τ/4 before the dose) is taken as the level at the dose time (steady state)`);
     } else {
-      const endLevel = post.find((i) => times[i] === doseTime + tau);
+      // Fallback: at steady state the level at the end of the interval equals the level at its start, C(τ) = C(0) (Gibaldi & Perrier, ch. 3).
+      const none = `no pre-dose level within τ/4 before the dose (from ${num(doseTime - PRE_DOSE_SHARE * tau)} to ${num(doseTime)})`;
+      const endLevel = post.find((i) => sameInstant(times[i], doseTime + tau, tau));
       if (endLevel !== undefined) {
         start = concentrations[endLevel];
-        flag('aucTau', `no pre-dose level: the level at the end of the interval (${times[endLevel]}) is taken as the level at the dose time (steady state)`);
+        flag('aucTau', `${none}: the level at the end of the interval (${num(times[endLevel])}) is taken as the level at the dose time, C(0) = C(τ) at steady state (fallback)`);
       } else {
         const inInterval = post.filter((i) => times[i] <= doseTime + tau).map((i) => concentrations[i]);
         if (inInterval.length === 0) flag('aucTau', 'no level inside the interval: no steady-state figures');
         else {
           start = inInterval.reduce((a, b) => Math.min(a, b), Infinity);
-          flag('aucTau', `no pre-dose level and none at the end of the interval: the lowest level in the interval (${start}) is taken as the level at the dose time`);
+          flag('aucTau', `${none} and none at the end of the interval (${num(doseTime + tau)}): the lowest level in the interval (${num(start)}) is taken as the level at the dose time (fallback)`);
         }
       }
     }
@@ -417,9 +444,9 @@ export function ncaProfile(input: NcaInput): NcaResult {
     else flag('aucTau', `the levels end before the end of the interval (${doseTime + end}) and there is no terminal rate to complete it`);
     figures.aucTau = aucTau;
     if (aucTau !== null) figures.cavg = aucTau / tau; // Cavg = AUCτ/τ
-    // Cmin and Cmax over the interval: the observed levels in it and the pre-dose level (the trough of the interval before).
+    // Cmin and Cmax over the interval: the observed levels in it and the pre-dose level within τ/4 (the trough of the interval before).
     const levels: number[] = [];
-    for (let j = 0; j < m; j++) if (p.source[j] >= 0 && p.t[j] <= end) levels.push(p.c[j]);
+    for (let j = 0; j < m; j++) if (p.source[j] >= 0 && (p.t[j] <= end || sameInstant(p.t[j], end, tau))) levels.push(p.c[j]);
     if (lastPre !== null) levels.push(concentrations[lastPre]);
     // Reduced, not spread: a long profile would overflow the argument list.
     figures.cminTau = levels.reduce((a, b) => Math.min(a, b), Infinity);

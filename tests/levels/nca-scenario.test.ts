@@ -186,7 +186,8 @@ describe('NCA of a scenario', () => {
     if (!direct.ok) throw new Error('sample must give an NCA');
     expect(JSON.parse(out.stdout).profiles).toEqual(JSON.parse(JSON.stringify(direct.value.profiles)));
     const text = runNcaCli(['samples/orvanix-levels.json'], { folder: process.cwd() });
-    expect(text.stdout).toMatch(/subject P-017 \/ central\n  after dose 3 at 24 h, steady state over τ = 12 h/);
+    // The sample's clock starts at 2026-03-04T08:00 at +01:00, so 24 h is the next morning at 08:00 there (as the simulate text shows clock times).
+    expect(text.stdout).toMatch(/subject P-017 \/ central\n  after dose 3 at 24 h \(2026-03-05 08:00 \(\+01:00\)\), steady state over τ = 12 h/);
     expect(text.stdout).toMatch(/not dosing advice/);
     const refused = runNcaCli(['samples/orvanix-levels.json', '--dose', '5'], { folder: process.cwd() });
     expect(refused.code).toBe(2);
