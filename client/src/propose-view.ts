@@ -9,7 +9,7 @@
  * the approach from the first dose (time to the window, the first interval without and with
  * the loading dose, the first intervals), under the population's caution.
  */
-import type { Proposal, ProposeResult } from '../../models/regimen/propose.ts';
+import type { LoadingDose, Proposal, ProposeResult } from '../../models/regimen/propose.ts';
 import { formatNumber } from '../../models/result/format-number.ts';
 import { fmt } from '../../models/result/summary-text.ts';
 import { h } from './dom.ts';
@@ -21,7 +21,12 @@ const FIRST_ROWS = 10;
 export function renderProposals(host: HTMLElement, result: ProposeResult, tryRow: (p: Proposal) => void): void {
   const u = result.units;
   const basis = result.population ?? null;
-  const notes = result.proposals.filter((p) => p.note !== null);
+  const notes = result.proposals.flatMap((p) => {
+    // A population row's capped loading dose is said on its line under the row already.
+    const capped = simulatedLoading(p)?.note;
+    const said = [capped ? `loading dose ${capped}` : null, p.note].filter((x): x is string => x !== null);
+    return said.length > 0 ? [{ rank: p.rank, note: said.join('; ') }] : [];
+  });
   const rows = result.proposals.map((p, i) => (basis ? populationRow(p, i, tryRow) : row(p, i, result, tryRow)));
   const head = basis
     ? [
@@ -36,7 +41,7 @@ export function renderProposals(host: HTMLElement, result: ProposeResult, tryRow
         `Peak (${u.concentration}) median [5th–95th]`,
         '',
       ]
-    : ['Rank', `Amount (${u.amount})`, `Interval (${u.time})`, `Infusion (${u.time})`, `Loading (${u.amount})`, `Trough (${u.concentration})`, `Peak (${u.concentration})`, `AUC24 (${u.auc})`, 'Targets met', `To the window (${u.time})`, ''];
+    : ['Rank', 'Regimen', `Loading (${u.amount})`, `Trough (${u.concentration})`, `Peak (${u.concentration})`, `AUC24 (${u.auc})`, 'Targets met', `To the window (${u.time})`, ''];
   const caption = basis
     ? `Proposed regimens for ${basis.subjects} virtual subjects (seed ${basis.seed}), ranked by the share meeting every target (${result.searched.regimens} searched on the same subjects)`
     : `Proposed regimens, ranked (${result.searched.regimens} searched, ${result.searched.method})`;
@@ -66,6 +71,8 @@ export function renderProposals(host: HTMLElement, result: ProposeResult, tryRow
     h('ol', { class: 'levels-targets' }, ...result.targets.map((t) => h('li', {}, t))),
     table,
     extra.length ? more : null,
+    // Said in words under the table, as the command line and the report say them (a loading dose's first interval missing a target; subjects without a steady state count as not attaining).
+    notes.length ? h('ul', { class: 'warnings', 'data-testid': 'levels-proposal-notes' }, ...notes.map((p) => h('li', {}, `Rank ${p.rank}: ${p.note}`))) : null,
     h('p', { class: 'note' }, `Ranking: ${result.rankingRule}.`),
     basis ? h('p', { class: 'note' }, `Shares ± one Monte Carlo standard error √(p(1 − p)/N); trough and peak in the compartment of the first target, ${basis.percentileRule}.`) : null,
     basis
@@ -77,33 +84,61 @@ export function renderProposals(host: HTMLElement, result: ProposeResult, tryRow
       : null,
     h('p', { class: 'note' }, `Time to the window: ${result.timeToWindowDefinition}.`),
     basis?.loading ? h('p', { class: 'note' }, `Loading dose: ${basis.loading}.`) : null,
-    // Said in words, as the command line and the report say them (subjects without a steady state count as not attaining).
-    basis && notes.length ? h('ul', { class: 'warnings', 'data-testid': 'levels-proposal-notes' }, ...notes.map((p) => h('li', {}, `Rank ${p.rank}: ${p.note}`))) : null,
     ),
+  );
+}
+
+/** The typical basis's loading dose is simulated; a population row gives only its amount (shown under the row). Not imported from propose.ts: the page would bundle the solver. */
+function simulatedLoading(p: Proposal): LoadingDose | null {
+  return p.loading !== null && 'firstIntervalTargetsMet' in p.loading ? p.loading : null;
+}
+
+/** "500 mg every 12 h over 0.5 h", as propose.ts's regimenWords writes it for the command line. */
+function regimenWords(p: Proposal, u: ProposeResult['units']): string {
+  // A number keeps to its unit when the cell wraps (no-break spaces).
+  const q = (v: number, unit: string) => `${fmt(v)}\u00a0${unit}`;
+  return `${q(p.amount, u.amount)} every ${q(p.interval, u.time)}${p.duration > 0 ? ` over ${q(p.duration, u.time)}` : ''}`;
+}
+
+/** A small second line in a cell: the secondary figure, so the table fits a 1280 px window. */
+function sub(text: string): HTMLElement {
+  return h('div', { class: 'levels-proposal-sub' }, text);
+}
+
+/** The loading amount; under it, the targets its first interval misses (the row's note says how), as "interval 1: 2✗". */
+function loadingCell(p: Proposal, result: ProposeResult): HTMLElement {
+  const l = simulatedLoading(p);
+  if (!l) return h('td', {}, '—');
+  const missed = l.firstIntervalTargetsMet.flatMap((m, k) => (m ? [] : [k]));
+  return h(
+    'td',
+    { title: `computed ${fmt(l.computed)} ${result.units.amount} by ${l.method}; first trough ${fmt(l.firstTrough)} ${result.units.concentration}${l.note ? `; ${l.note}` : ''}`, 'data-testid': `levels-loading-${p.rank - 1}` },
+    fmt(l.amount),
+    // Capped or raised onto the strengths' sums: the word here, the amounts in the note under the table.
+    l.note ? sub(l.note.split(':')[0]) : null,
+    missed.length ? h('div', { class: 'levels-proposal-sub levels-unmet' }, `interval 1: ${missed.map((k) => `${k + 1}✗`).join(' ')}`) : null,
   );
 }
 
 function row(p: Proposal, i: number, result: ProposeResult, tryRow: (p: Proposal) => void): HTMLElement[] {
   const s = p.steadyState;
+  const u = result.units;
   const met = p.targetsMet.map((m, k) => `${k + 1}${m ? '✓' : '✗'}`).join(' ');
   const tryButton = h('button', { type: 'button', class: 'quiet', 'data-testid': `levels-try-${i}`, 'aria-label': `Try rank ${p.rank} in compare` }, 'Try in compare');
   tryButton.addEventListener('click', () => tryRow(p));
-  // The typical basis's loading dose is simulated (a population row gives only its amount, shown under the row).
-  const simulated = p.loading && 'firstTrough' in p.loading ? p.loading : null;
-  const loading = simulated
-    ? h('td', { title: `computed ${fmt(simulated.computed)} ${result.units.amount} by ${simulated.method}; first trough ${fmt(simulated.firstTrough)} ${result.units.concentration}` }, simulated.note ? `${fmt(simulated.amount)} (${simulated.note})` : fmt(simulated.amount))
-    : h('td', {}, '—');
+  const loaded = simulatedLoading(p);
+  const toWindow = p.timeToWindow === null ? '—' : `${fmt(p.timeToWindow)}${p.intervalsToWindow !== null ? ` (${p.intervalsToWindow} τ)` : ''}`;
   return [
     h('th', { scope: 'row', class: p.allMet ? 'levels-met' : '' }, String(p.rank)),
-    h('td', { 'data-testid': `levels-amount-${i}` }, fmt(p.amount)),
-    h('td', {}, fmt(p.interval)),
-    h('td', {}, p.duration > 0 ? fmt(p.duration) : '—'),
-    loading,
+    // The regimen in words, wrapping within its cell (amount, interval and infusion were three columns too wide for 1280 px).
+    h('td', { class: 'levels-regimen', 'data-testid': `levels-amount-${i}` }, regimenWords(p, u)),
+    loadingCell(p, result),
     h('td', {}, fmt(s?.trough ?? null)),
     h('td', {}, fmt(s?.peak ?? null)),
     h('td', {}, fmt(s?.auc24 ?? null)),
     h('td', { class: p.allMet ? 'levels-met' : 'levels-unmet', title: p.note ?? '' }, p.allMet ? `all ${met}` : met),
-    h('td', {}, p.timeToWindow === null ? (p.note ? `— (${p.note})` : '—') : `${fmt(p.timeToWindow)}${p.intervalsToWindow !== null ? ` (${p.intervalsToWindow} τ)` : ''}`),
+    // The row's note, when it has one, is in the list under the table (a cell keeps to its figure).
+    h('td', { title: p.note ?? '' }, toWindow, loaded ? sub(`loaded ${loaded.timeToWindow === null ? '—' : fmt(loaded.timeToWindow)}`) : null),
     h('td', {}, tryButton),
   ];
 }

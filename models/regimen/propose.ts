@@ -22,7 +22,7 @@ import { displayUnit } from '../scenario/units.ts';
 import { emptyStats, IntegrationFailure, type SolverStats } from '../solving/numerics/ode-system.ts';
 import { choosePath } from '../solving/solve.ts';
 import { walkIntervals } from './approach-run.ts';
-import { bisectLoading, closedFormLoading } from './loading.ts';
+import { bisectLoading, closedFormLoading, firstIntervalNote } from './loading.ts';
 import { compareProposals, logDistance, RANKING_RULE, troughWindow } from './rank.ts';
 import { steadyModel, type RegimenSpec } from './regimen-model.ts';
 import { readPropose, type ProposeSettings } from './settings.ts';
@@ -63,6 +63,10 @@ export interface LoadingDose extends LoadingAmount {
   firstTroughMet: boolean;
   /** Whether the first interval meets every target (a peak ceiling may fail just after a loading dose). */
   firstIntervalMet: boolean;
+  /** Each target's figure in the first interval after the loading dose (as targetValues: a share for above and window targets). */
+  firstInterval: number[];
+  /** Each target met or not in that first interval. */
+  firstIntervalTargetsMet: boolean[];
   timeToWindow: number | null;
   intervalsToWindow: number | null;
 }
@@ -216,7 +220,7 @@ export function proposeRegimens(input: unknown): Outcome<ProposeResult> {
       else for (const spec of specs) proposals.push(saturableProposal(cx, spec));
     }
   }
-  for (const p of proposals) if (p.allMet && settings.loading) p.loading = guarded(() => loadingDose(cx, p), () => null);
+  for (const p of proposals) if (p.allMet && settings.loading) withLoading(cx, p);
   proposals.sort((a, b) => compareProposals({ ...a, distance: a.troughDistance ?? Infinity }, { ...b, distance: b.troughDistance ?? Infinity }, cx.day));
   proposals.forEach((p, i) => (p.rank = i + 1));
   const concentration = displayUnit('concentration', base.units);
@@ -394,6 +398,16 @@ export function roundingNote(computed: number, amount: number, available: readon
   return `${what} at ${formatNumber(amount)} ${unit}: the strengths give ${why}; computed ${formatNumber(Number(computed.toPrecision(4)))} ${unit}`;
 }
 
+/** Sets the regimen's loading dose; a target its first interval misses is said in the row's note. */
+function withLoading(cx: Context, p: Proposal): void {
+  const loading = guarded(() => loadingDose(cx, p), () => null);
+  p.loading = loading;
+  if (!loading || loading.firstIntervalMet) return;
+  const units = { concentration: displayUnit('concentration', cx.base.units), auc: `${displayUnit('concentration', cx.base.units)}·${cx.base.units.time}` };
+  const missed = firstIntervalNote(cx.settings.targets, loading.firstInterval, units);
+  if (missed !== null) p.note = p.note === null ? missed : `${p.note}; ${missed}`;
+}
+
 /** The loading dose of a regimen that meets its targets: its amount, then verified by simulation. */
 function loadingDose(cx: Context, p: Proposal): LoadingDose | null {
   const chosen = loadingAmount(cx, p);
@@ -406,6 +420,8 @@ function loadingDose(cx: Context, p: Proposal): LoadingDose | null {
     firstTrough: firstTrough(cx, spec, chosen.amount),
     firstTroughMet: cx.settings.targets.every((t, k) => t.measure !== 'trough' || targetsMet([t], [w.first[k]])[0]),
     firstIntervalMet: w.intervals === 1,
+    firstInterval: w.first,
+    firstIntervalTargetsMet: targetsMet(cx.settings.targets, w.first),
     timeToWindow: w.intervals === null ? null : w.intervals * p.interval,
     intervalsToWindow: w.intervals,
   };

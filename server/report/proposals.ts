@@ -138,7 +138,9 @@ function drawPopulationTable(doc: PDFKit.PDFDocument, r: ProposeResult, shown: P
 function loading(p: Proposal, amount: string): string {
   const l = simulatedLoading(p);
   if (!l) return '—';
-  return `${fmt(l.amount)} ${unitText(amount)}${l.firstTroughMet ? '' : '\n(first trough missed)'}${l.note ? `\n(${l.note})` : ''}`;
+  // The targets its first interval misses, by number; the row's note under the table says by how much.
+  const missed = l.firstIntervalTargetsMet.flatMap((m, k) => (m ? [] : [`${k + 1}✗`]));
+  return `${fmt(l.amount)} ${unitText(amount)}${missed.length > 0 ? `\n(interval 1: ${missed.join(' ')})` : ''}${l.note ? `\n(${l.note})` : ''}`;
 }
 
 function met(p: Proposal): Cell {
@@ -213,7 +215,7 @@ export function drawProposalsSection(doc: PDFKit.PDFDocument, outcome: Outcome<P
       met(p),
       toWindow(p, u.time),
     ]),
-    footnote: `Trough, peak and AUC24 at steady state in the compartment of the first target. ✓/✗: each target met or missed, numbered as listed above. Time to the window: ${r.timeToWindowDefinition.replace(/\bnull\b/, '"not reached"')}; "loaded" with the loading dose first; — when the steady state misses a target (the window is never reached).`,
+    footnote: `Trough, peak and AUC24 at steady state in the compartment of the first target. ✓/✗: each target met or missed, numbered as listed above. Time to the window: ${r.timeToWindowDefinition.replace(/\bnull\b/, '"not reached"')}; "loaded" with the loading dose first; — when the steady state misses a target (the window is never reached). Loading dose "interval 1: 2✗": a target its own first interval misses (a ceiling it breaks, a trough it falls short of), with the figure in the row's note below.`,
   });
   const notes = shown.filter((p) => p.note !== null);
   for (const p of notes) bullet(doc, `Rank ${p.rank}: ${p.note}`, palette.warning);

@@ -133,6 +133,25 @@ describe('the measured levels panel in Chromium', () => {
     expect(await page.locator('#reference-note').textContent()).toMatch(/^Reference:/);
   }, stepTimeout);
 
+  it('fits the proposal table in a 1280 px window, and says in words that rank 1\'s loading dose breaks the peak ceiling', async () => {
+    await page.setViewportSize({ width: 1280, height: 900 });
+    try {
+      await openSample('orvanix-propose');
+      await page.getByTestId('levels-propose-run').click();
+      await page.waitForFunction(() => window.__tidemarkLevels.proposals !== null, undefined, { timeout: stepTimeout });
+      const table = page.getByTestId('levels-proposals');
+      // No sideways scrolling: the table is no wider than its scroll box, and the Try button of rank 1 is inside the window.
+      const fit = await table.evaluate((t) => ({ table: t.scrollWidth, box: (t.parentElement as HTMLElement).clientWidth, tryRight: document.querySelector('[data-testid="levels-try-0"]')?.getBoundingClientRect().right ?? Infinity }));
+      expect(fit.table).toBeLessThanOrEqual(fit.box);
+      expect(fit.tryRight).toBeLessThanOrEqual(1280);
+      expect(await page.getByTestId('levels-proposal-notes').textContent()).toMatch(/Rank 1: the loading dose's first-interval peak 30\.5 mg\/L is above the 25 mg\/L ceiling \(target 2\)/);
+      expect(await page.getByTestId('levels-loading-0').textContent()).toMatch(/interval 1: 2✗/);
+      await page.getByTestId('levels-results').screenshot({ path: artifactPath('levels-propose-1280.png') });
+    } finally {
+      await page.setViewportSize({ width: 1366, height: 900 });
+    }
+  }, stepTimeout);
+
   it('imports a levels CSV onto the plot, and refuses a pasted one with a bad row by its line and column, importing nothing', async () => {
     // Into the scenario on screen (orvanix-propose, which has no levels of its own).
     expect(await page.evaluate(() => window.__tidemark.scenario.observations)).toBeUndefined();
