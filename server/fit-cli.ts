@@ -6,9 +6,11 @@
  */
 import { fitScenario } from '../models/fitting/fit.ts';
 import type { FitResult } from '../models/fitting/result.ts';
+import { buildModel, parseScenario } from '../models/scenario/normalize.ts';
 import { describeProblems } from '../models/scenario/problems.ts';
 import { formatNumber } from '../models/result/format-number.ts';
 import { parseOptions } from './cli-options.ts';
+import { clockTimeAt } from './report/clock-time.ts';
 import { readLevelsScenario } from './observations-csv.ts';
 import { sameFile } from './same-file.ts';
 import { visibleLines, visibleText } from './terminal-text.ts';
@@ -66,10 +68,21 @@ export function runFitCli(args: string[], context: { folder: string }): FitCliOu
     return { code: 1, stdout: '', stderr: `${visibleText(shown)}: ${list.length} problem${list.length > 1 ? 's' : ''}:\n${describeProblems(list)}\n` };
   }
   const r = result.value;
-  const stdout = format === 'json' ? JSON.stringify({ ...r, caution: fitCaution }, null, 2) + '\n' : visibleLines(fitText(r));
+  const stdout = format === 'json' ? JSON.stringify({ ...r, caution: fitCaution }, null, 2) + '\n' : visibleLines(fitText(r, fitClock(withLevels.value)));
   const file = out ? { path: out, text: JSON.stringify(r.fittedScenario, null, 2) + '\n' } : undefined;
   const written = out ? `The fitted scenario goes to ${visibleText(out)}.\n` : '';
   return { code: 0, stdout: format === 'text' ? stdout + written : stdout, stderr: format === 'json' ? written : '', ...(file ? { file } : {}) };
+}
+
+/** The clock time of an elapsed time in the scenario's time unit, or null (no clock). */
+export type FitClock = (t: number) => string | null;
+
+/** Clock times for the levels' table, by the scenario's clock (the report's rule, clockTimeAt); none without one. */
+function fitClock(scenario: unknown): FitClock {
+  const parsed = parseScenario(scenario);
+  const built = parsed.ok ? buildModel(parsed.value) : null;
+  const model = built?.ok ? built.value : null;
+  return (t) => (model ? clockTimeAt(t, model) : null);
 }
 
 function short(v: number | null): string {
@@ -81,7 +94,8 @@ function table(rows: string[][]): string {
   return rows.map((r) => r.map((cell, c) => (c === 0 ? cell.padEnd(widths[c]) : cell.padStart(widths[c]))).join('  ').trimEnd()).join('\n');
 }
 
-export function fitText(r: FitResult): string {
+/** The fit as text; `clockAt` puts each level's clock time beside its elapsed time when the scenario has a clock. */
+export function fitText(r: FitResult, clockAt: FitClock = () => null): string {
   const how = r.settings.objective === 'map' ? 'maximum a posteriori (prior: the population)' : `weighted least squares (weights ${r.settings.weighting})`;
   const lines: string[] = [`Fit by ${how}`, ''];
   lines.push(table([
@@ -94,9 +108,10 @@ export function fitText(r: FitResult): string {
   }
   lines.push('', `Objective (sum of squares${r.settings.objective === 'map' ? ', prior included' : ''}): ${short(r.objective)}`, r.message);
   lines.push('', `Levels (${r.units.concentration}, time in ${r.units.time})`);
+  const clocked = r.predictions.some((p) => clockAt(p.time) !== null);
   lines.push(table([
-    ['level', 'time', 'observed', 'predicted', 'residual', 'weighted'],
-    ...r.predictions.map((p) => [p.label ? `${p.path} ${p.label}` : p.path, short(p.time), p.censored ? `< ${short(p.limit)} (censored)` : p.used ? short(p.observed) : 'below limit', short(p.predicted), short(p.residual), short(p.weightedResidual)]),
+    ['level', 'time', ...(clocked ? ['clock time'] : []), 'observed', 'predicted', 'residual', 'weighted'],
+    ...r.predictions.map((p) => [p.label ? `${p.path} ${p.label}` : p.path, short(p.time), ...(clocked ? [clockAt(p.time) ?? '–'] : []), p.censored ? `< ${short(p.limit)} (censored)` : p.used ? short(p.observed) : 'below limit', short(p.predicted), short(p.residual), short(p.weightedResidual)]),
   ]));
   if (r.notes.length > 0) lines.push('', ...r.notes.map((n) => `Note: ${n}`));
   lines.push('', fitCaution, '');

@@ -7,6 +7,7 @@
  */
 import { Chart, Filler, Legend, LinearScale, LineController, LineElement, PointElement, Tooltip, type ChartConfiguration, type ChartDataset, type TooltipItem } from 'chart.js';
 import { clockLabel, clockOf } from '../../models/levels/clock.ts';
+import { STRONG_CORRELATION } from '../../models/fitting/result.ts';
 import { fmt } from '../../models/result/summary-text.ts';
 import { h } from './dom.ts';
 import type { FitAnswer } from './levels-api.ts';
@@ -77,7 +78,7 @@ export class FitView {
       this.estimates(fit),
       this.correlation(fit),
       h('div', { class: 'levels-charts' }, box(canvases.curve, 'Predicted curve, 90% band'), box(canvases.observed, 'Observed against predicted'), box(canvases.residuals, 'Residuals against time')),
-      this.levels(fit),
+      this.levels(fit, clockAt),
       fit.notes.length ? h('ul', { class: 'note levels-notes' }, ...fit.notes.map((n) => h('li', {}, n))) : null,
       h('div', { class: 'run-row' }, openButton, h('p', { class: 'note' }, 'The fitted scenario has the estimates written in as the typical values, to simulate further or save as a new scenario.')),
       ),
@@ -100,20 +101,24 @@ export class FitView {
   private correlation(fit: FitAnswer): HTMLElement {
     const c = fit.correlation;
     if (!c) return h('p', { class: 'note levels-warning' }, 'No correlations: the curvature at the optimum is singular.');
-    const rows = c.names.map((name, i) => [h('th', { scope: 'row' }, name), ...c.matrix[i].map((v, j) => h('td', { class: j !== i && Math.abs(v) > 0.9 ? 'levels-strong' : '' }, j > i ? '' : fmt(v, 3)))]);
-    return figureTable('Correlations of the estimates (above 0.9 in size marked)', ['', ...c.names], rows, 'levels-correlation');
+    const rows = c.names.map((name, i) => [h('th', { scope: 'row' }, name), ...c.matrix[i].map((v, j) => h('td', { class: j !== i && Math.abs(v) > STRONG_CORRELATION ? 'levels-strong' : '' }, j > i ? '' : fmt(v, 3)))]);
+    return figureTable(`Correlations of the estimates (beyond ±${STRONG_CORRELATION} marked)`, ['', ...c.names], rows, 'levels-correlation');
   }
 
-  private levels(fit: FitAnswer): HTMLElement {
+  /** The levels observed and predicted; with a clock, each level's clock time beside its elapsed time. */
+  private levels(fit: FitAnswer, clockAt: ClockAt): HTMLElement {
+    const clocked = fit.predictions.some((p) => clockAt(p.time) !== null);
     const rows = fit.predictions.map((p) => [
       h('th', { scope: 'row' }, p.label ?? p.path),
       h('td', {}, fmt(p.time)),
+      ...(clocked ? [h('td', {}, clockAt(p.time) ?? '—')] : []),
       h('td', {}, p.observed === null ? (p.limit !== null ? `< ${fmt(p.limit)}` : '—') : fmt(p.observed)),
       h('td', {}, fmt(p.predicted)),
       h('td', {}, fmt(p.residual)),
       h('td', {}, p.used ? (p.censored ? 'censored' : 'yes') : 'left out'),
     ]);
-    return figureTable(`Levels (${fit.units.concentration})`, ['Level', `Time (${fit.units.time})`, 'Observed', 'Predicted', 'Residual', 'In the fit'], rows, 'levels-fit-levels');
+    const head = ['Level', `Time (${fit.units.time})`, ...(clocked ? ['Clock time'] : []), 'Observed', 'Predicted', 'Residual', 'In the fit'];
+    return figureTable(`Levels (${fit.units.concentration})`, head, rows, 'levels-fit-levels');
   }
 
   private curveChart(el: HTMLCanvasElement, fit: FitAnswer, clockAt: ClockAt): Chart<'line', XY[]> {

@@ -183,8 +183,15 @@ function unitOf(plan: FitPlan, i: number, template: Model): string {
   return d === null ? 'fraction' : displayUnit(d, template.units);
 }
 
-/** Which quantities the data cannot identify: a near-singular curvature (its weakest direction) or a relative SE over 100%. */
-function identifiability(a: Float64Array, labels: string[], rse: (number | null)[]): { lines: string[]; condition: number } {
+/**
+ * Which quantities the data cannot identify: a near-singular curvature (its weakest direction)
+ * or a relative SE over 100%. `relative` turns the weakest direction from the optimiser's
+ * coordinates into relative changes of the values before the quantities in it are named, so F
+ * on a logit scale and V, CL on log scales weigh alike (F·V·CL scaled together moves each by
+ * the same fraction). Every line begins with the same lead words, so the message can make it a
+ * sentence without touching a label (a JSON path or a name keeps its case).
+ */
+function identifiability(a: Float64Array, labels: string[], rse: (number | null)[], relative: (v: Float64Array) => Float64Array): { lines: string[]; condition: number } {
   const k = labels.length;
   const { values, vectors } = symmetricEigen(a, k);
   let lo = 0;
@@ -196,17 +203,27 @@ function identifiability(a: Float64Array, labels: string[], rse: (number | null)
   const condition = values[lo] > 0 ? values[hi] / values[lo] : Infinity;
   const lines: string[] = [];
   if (condition > CONDITION_LIMIT) {
-    const weights = labels.map((_, i) => Math.abs(vectors[i * k + lo]));
+    const weak = Float64Array.from(labels, (_, i) => vectors[i * k + lo]);
+    const weights = Array.from(relative(weak), Math.abs);
     const top = Math.max(...weights);
     const involved = labels.filter((_, i) => weights[i] >= 0.3 * top);
+    const listed = involved.length <= 2 ? involved.join(' and ') : `${involved.slice(0, -1).join(', ')} and ${involved[involved.length - 1]}`;
     lines.push(involved.length === 1
-      ? `the levels cannot identify ${involved[0]}: changing it hardly changes the predictions (condition number ${condition.toExponential(1)})`
-      : `the levels cannot tell ${involved.join(' and ')} apart: one can change together with the other without changing the predictions (condition number ${condition.toExponential(1)})`);
+      ? `${LEAD} cannot identify ${involved[0]}: changing it hardly changes the predictions (condition number ${condition.toExponential(1)})`
+      : `${LEAD} cannot tell ${listed} apart: they can change together without changing the predictions (condition number ${condition.toExponential(1)})`);
   }
   rse.forEach((r, i) => {
-    if (r !== null && r > 1) lines.push(`${labels[i]} is poorly determined: its relative standard error is ${(100 * r).toFixed(0)}% (over 100%)`);
+    if (r !== null && r > 1) lines.push(`${LEAD} determine ${labels[i]} poorly: its relative standard error is ${(100 * r).toFixed(0)}% (over 100%)`);
   });
   return { lines, condition };
+}
+
+/** The words every identifiability line opens with; `sentence` capitalises only them. */
+const LEAD = 'the levels';
+
+/** A line as a sentence: its lead word capitalised, the rest (labels included) as written. */
+function sentence(line: string): string {
+  return line.startsWith(LEAD) ? `The${line.slice(3)}` : line;
 }
 
 export function fitScenario(input: unknown, options: FitOptions = {}): Outcome<FitResult> {
@@ -292,7 +309,7 @@ export function fitScenario(input: unknown, options: FitOptions = {}): Outcome<F
   });
   if (params.map) params.setEffects(x);
   const correlation = natural ? { names: labels, matrix: labels.map((_, i) => labels.map((_, j) => natural[i * k + j] / Math.sqrt(natural[i * k + i] * natural[j * k + j]))) } : null;
-  const ident = identifiability(a, labels, rse);
+  const ident = identifiability(a, labels, rse, (v) => params.relativeDirection(v, values));
 
   // Predictions at every level, the weights those of the last pass.
   const predicted = new Float64Array(template.observations.length);
@@ -317,7 +334,7 @@ export function fitScenario(input: unknown, options: FitOptions = {}): Outcome<F
   const curves = options.band === false ? [] : predictedCurves(predictor, template, x, covariance);
   const converged = outcome.converged;
   const stopped = `${converged ? 'Converged' : 'Did not converge'} after ${iterations} iteration${iterations === 1 ? '' : 's'} and ${evaluations} model evaluations: ${reasonWords[outcome.reason]}; gradient norm ${outcome.gradientNorm.toExponential(2)}.`;
-  const message = ident.lines.length > 0 ? `${stopped} ${ident.lines.map((l) => l[0].toUpperCase() + l.slice(1)).join('. ')}.` : `${stopped} Every estimated quantity is identified by the levels.`;
+  const message = ident.lines.length > 0 ? `${stopped} ${ident.lines.map(sentence).join('. ')}.` : `${stopped} Every estimated quantity is identified by the levels.`;
   const fitted = fittedScenario(s, input, plan, params, estimates);
   return {
     ok: true,

@@ -95,4 +95,26 @@ export class Parameters {
     const w = value / mult;
     return mult * w * (1 - w);
   }
+
+  /**
+   * A direction v in the optimiser's coordinates as relative changes of the values:
+   * δvalue_i / value_i = slope_i · δc_i / value_i, c_i the coordinate `slope` differentiates by
+   * (p_i in wls; d = L₁₁v in map). Log, logit and whitened coordinates weigh a change
+   * differently (a logit step moves F by (1 − F) of a log step), so a direction is compared
+   * across quantities only after this.
+   */
+  relativeDirection(v: Float64Array, values: readonly number[]): Float64Array {
+    const k = this.count;
+    const out = new Float64Array(k);
+    for (let i = 0; i < k; i++) {
+      let c = v[i];
+      if (this.map) {
+        const L = this.plan.factor as Float64Array;
+        c = 0;
+        for (let j = 0; j <= i; j++) c += L[i * this.size + j] * v[j];
+      }
+      out[i] = (this.slope(i, values[i]) * c) / values[i];
+    }
+    return out;
+  }
 }

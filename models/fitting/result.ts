@@ -2,6 +2,12 @@
 import type { Objective, Weighting } from './settings.ts';
 import type { StopReason } from './levenberg-marquardt.ts';
 
+/**
+ * A correlation of two estimates beyond ±this is flagged wherever the correlations are shown
+ * (page, report): the levels tell the two apart poorly (common practice; no single source).
+ */
+export const STRONG_CORRELATION = 0.95;
+
 export interface FitEstimate {
   /** The subject's value, in `unit` (covariate relations applied). */
   value: number;

@@ -10,7 +10,7 @@
 import type { Model } from '../../models/building/model.ts';
 import { BAND_DRAWS } from '../../models/fitting/band.ts';
 import { fitScenario } from '../../models/fitting/fit.ts';
-import type { FitResult } from '../../models/fitting/result.ts';
+import { STRONG_CORRELATION, type FitResult } from '../../models/fitting/result.ts';
 import type { Outcome } from '../../models/scenario/problems.ts';
 import { simulateModel } from '../../models/simulate.ts';
 import { timeAndClock } from './clock-time.ts';
@@ -78,9 +78,9 @@ function correlationTable(doc: PDFKit.PDFDocument, r: FitResult): void {
     columns: [{ header: '', width: 1 }, ...names.map((n) => ({ header: n, width: 0.8, align: 'right' as const }))],
     rows: names.map((n, i) => [
       { text: n, bold: true },
-      ...matrix[i].map((v, j): Cell => ({ text: i === j ? '1' : v.toFixed(3), ...(i !== j && Math.abs(v) > 0.95 ? { color: palette.warning, bold: true } : {}) })),
+      ...matrix[i].map((v, j): Cell => ({ text: i === j ? '1' : v.toFixed(3), ...(i !== j && Math.abs(v) > STRONG_CORRELATION ? { color: palette.warning, bold: true } : {}) })),
     ]),
-    footnote: 'Beyond ±0.95 (in red) two estimates move together: the levels tell them apart poorly.',
+    footnote: `Beyond ±${STRONG_CORRELATION} (in red) two estimates move together: the levels tell them apart poorly.`,
   });
 }
 
