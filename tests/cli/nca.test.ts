@@ -149,15 +149,21 @@ describe('nca refuses bad input', () => {
     expect(o.code).toBe(1);
     expect(o.stdout).toBe('');
     const lines = o.stderr.trimEnd().split('\n');
+    // The levels reader of every levels file (observations-csv.ts): its cell problems first, then,
+    // once every row reads, the problems between rows (a repeated time: the next case).
     expect(lines).toEqual([
-      `${file} line 3, column concentration: -2 is negative; a level cannot be below zero`,
-      `${file} line 4, column time: 'two' is not a number`,
-      `${file} line 5, column below limit: 'maybe' is not yes, no, true, false or empty`,
-      `${file} line 6, column time: subject A has a level at 1 already (line 3)`,
+      `${file} line 3, column concentration: -2 is negative; a measured level is 0 or more`,
+      `${file} line 4, column time: 'two' is neither a number nor an ISO 8601 date-time such as 2026-03-04T08:00`,
+      `${file} line 5, column below limit: 'maybe' is not yes or no`,
       `${file} line 7: 3 fields where the header has 4`,
-      `${file} line 9, column concentration: '2026-03-04T08:00' is not a number`,
-      `${file} line 10, column time: '2026-03-04T08:00' is a date-time; nca reads elapsed times as numbers (e.g. hours after the first dose)`,
+      `${file} line 9, column concentration: '2026-03-04T08:00' is not a number (the column is in mg/L)`,
+      `${file} line 10, column time: a date-time in a column with the unit [h]; remove the unit or write elapsed times`,
     ]);
+    const repeated = join(dir, 'repeated.csv');
+    writeFileSync(repeated, ['subject,time [h],concentration [mg/L]', 'A,0,0', 'A,1,5', 'A,1,4'].join('\n'));
+    const again = runNcaCli([repeated], { folder: dir });
+    expect(again.code).toBe(1);
+    expect(again.stderr).toMatch(new RegExp(`^${repeated.replace(/[.*+?^${}()|[\]\\]/g, '\\$&')} line 4, column time: `, 'm'));
   });
 
   it('a header without time or with an unknown column; a missing file; usage errors exit 2', () => {
@@ -165,8 +171,9 @@ describe('nca refuses bad input', () => {
     writeFileSync(file, 'subject,sampled,concentration\nA,1,2\n');
     const o = runNcaCli([file], { folder: dir });
     expect(o.code).toBe(1);
-    expect(o.stderr).toContain(`${file} line 1, column 2: 'sampled' is not a column nca reads`);
-    expect(o.stderr).toContain(`${file} line 1: the header has no 'time' column`);
+    // An unread column is only noted; the missing time column is the problem.
+    expect(o.stderr).toContain(`${file} line 1, column time: no such column (the headers are subject, sampled, concentration)`);
+    expect(o.stderr).not.toContain('sampled\' is not a column');
     expect(runNcaCli(['nothing.csv'], { folder: dir }).stderr).toBe("cannot read 'nothing.csv': no such file\n");
     expect(run(sample, '--dose', '400', '--route', 'infusion').code).toBe(2);
     expect(run(sample, '--dose', '-4').code).toBe(2);
