@@ -173,11 +173,17 @@ export function finishPopulation(job: PopulationJob, batches: Batch[], computed?
     const part = makePart(job.scenario, job.overrides, job.shard, batch);
     const text = JSON.stringify(part) + '\n';
     const { index, of } = job.shard;
-    return finish({ code: 0, stdout: '', stderr: `wrote part ${index} of ${of} (subjects ${job.range.first} to ${job.range.first + job.range.count - 1}) to ${visibleText(job.out as string)}\n`, file: { path: job.out as string, text } });
+    return finish({ code: 0, stdout: '', stderr: `wrote part ${index} of ${of} (${shardSubjects(job.range)}) to ${visibleText(job.out as string)}\n`, file: { path: job.out as string, text } });
   }
   const result = summarise(job.plan, batches, computed);
   if (!result.ok) return finish(problems(result.problems, 'population'));
   return deliver(result.value, job.format, job.out);
+}
+
+/** A shard's subjects in words: a shard of more parts than subjects holds none. */
+export function shardSubjects(range: { first: number; count: number }): string {
+  if (range.count === 0) return 'no subjects';
+  return range.count === 1 ? `subject ${range.first}` : `subjects ${range.first} to ${range.first + range.count - 1}`;
 }
 
 function deliver(r: PopulationResult, format: string, out: string | undefined): CliOutcome {

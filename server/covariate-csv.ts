@@ -8,6 +8,8 @@ import { readFileSync } from 'node:fs';
 import { dirname, join, isAbsolute } from 'node:path';
 import { splitCsv } from '../models/scenario/csv.ts';
 import { parseCovariateCsv as parseCovariateText, type CovariateRow } from '../models/population/covariate-csv.ts';
+import { tableRowProblems } from '../models/population/covariates.ts';
+import type { Subject } from '../models/scenario/schema.ts';
 import { visibleText } from './terminal-text.ts';
 
 export type { CovariateRow };
@@ -58,6 +60,37 @@ export function withCovariateFile(scenario: unknown, scenarioPath: string, shown
   const { text, shown } = read;
   const parsed = parseCovariateCsv(text, shown);
   if (!parsed.ok) return parsed;
+  const cells = cellProblems(text, parsed.rows, drawnNames(population), shown);
+  if (cells.length > 0) return { ok: false, errors: cells };
   const s = scenario as { population: Record<string, unknown> };
   return { ok: true, value: { ...s, population: { ...s.population, covariateTable: { ...rest, rows: parsed.rows } } } };
+}
+
+/** The names population.covariates draws (as written; the schema checks the rest). */
+function drawnNames(population: unknown): Set<string> {
+  const drawn = (population as { covariates?: unknown }).covariates;
+  return new Set(typeof drawn === 'object' && drawn !== null && !Array.isArray(drawn) ? Object.keys(drawn) : []);
+}
+
+/**
+ * The table's cells checked as the population reads its rows (tableRowProblems: a sex outside
+ * the categories, a weight that is not positive …), each named by the file's line and column
+ * rather than by `population.covariateTable.rows[i].name`, which the user never wrote. A column
+ * that is also drawn is named once, on the header line. Row i is the (i + 1)th record after the
+ * header: a table that parsed has no blank or short record in between, and a record starts on
+ * the line splitCsv gives (a quoted field may span lines).
+ */
+export function cellProblems(text: string, rows: readonly CovariateRow[], drawn: ReadonlySet<string>, shown: string): string[] {
+  const split = splitCsv(text);
+  if (!split.ok || split.records.length !== rows.length + 1) return []; // not a text parseCovariateCsv accepted
+  const [head, ...body] = split.records;
+  const file = visibleText(shown);
+  const errors = Object.keys(rows[0] ?? {})
+    .filter((name) => drawn.has(name))
+    .map((name) => `${file} line ${head.line}, column ${visibleText(name)}: '${visibleText(name)}' is also drawn from population.covariates.${visibleText(name)}; give it in one place`);
+  for (const p of tableRowProblems(rows as Subject[], new Set())) {
+    const at = /^population\.covariateTable\.rows\[(\d+)\]\.(.+)$/.exec(p.path);
+    errors.push(at ? `${file} line ${body[Number(at[1])].line}, column ${visibleText(at[2])}: ${visibleText(p.message)}` : visibleText(`${shown}: ${p.path}: ${p.message}`));
+  }
+  return errors;
 }

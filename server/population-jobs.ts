@@ -97,12 +97,16 @@ function readRequest(body: unknown): { scenario: unknown; overrides: { subjects?
   return problems.length > 0 ? problems : { scenario: b.scenario, overrides };
 }
 
-/** This server's limits on a valid plan, each named at the field that changes it. */
-export function limitProblems(plan: PopulationPlan, limits: PopulationLimits): Problem[] {
+/**
+ * This server's limits on a valid plan, each named at the field that changes it: the subjects at
+ * the request's own `subjects` when it overrides the scenario's count (`overridden`), else at
+ * population.subjects.
+ */
+export function limitProblems(plan: PopulationPlan, limits: PopulationLimits, overridden = false): Problem[] {
   const problems: Problem[] = [];
   const n = plan.subjects;
   if (n > limits.maxSubjects) {
-    problems.push({ path: 'population.subjects', message: `${grouped(n)} subjects: this server runs at most ${grouped(limits.maxSubjects)} in one population (the command line runs more)` });
+    problems.push({ path: overridden ? 'subjects' : 'population.subjects', message: `${grouped(n)} subjects: this server runs at most ${grouped(limits.maxSubjects)} in one population (the command line runs more)` });
   }
   const times = plan.template.outputTimes.length;
   const banded = plan.layout.banded.length;
@@ -139,7 +143,7 @@ export class PopulationJobs {
     const { engine, threads } = await load();
     const plan = engine.planPopulation(request.scenario, request.overrides);
     if (!plan.ok) return { status: 400, problems: plan.problems };
-    const over = limitProblems(plan.value, this.options.limits);
+    const over = limitProblems(plan.value, this.options.limits, request.overrides.subjects !== undefined);
     if (over.length > 0) return { status: 400, problems: over };
     // A cancelled run lets go of its threads within moments: wait for that rather than refuse.
     if (this.running && this.running.controller.signal.aborted) await this.running.finished;

@@ -74,7 +74,7 @@ export function populationToText(r: PopulationResult, clean: (text: string) => s
   out.push('Covariates drawn:');
   out.push(...(r.settings.covariates.length > 0 ? r.settings.covariates.map((c) => `  ${clean(c)}`) : ['  none: every subject has the scenario subject\'s covariates']));
   out.push('Quantities that vary between subjects:');
-  out.push(...(r.settings.varying.length > 0 ? r.settings.varying.map((v) => `  ${clean(v.quantity)} (${clean(v.path)})`) : ['  none']));
+  out.push(...(r.settings.varying.length > 0 ? r.settings.varying.map((v) => `  ${clean(v.quantity)} (${clean(v.path)}): cv ${n(v.cv * 100)}%, ${v.variation}`) : ['  none']));
   if (r.settings.correlations.length > 0) out.push(`Correlations: ${r.settings.correlations.map((c) => `${clean(c.between[0])}–${clean(c.between[1])} ${formatNumber(c.value)}`).join('; ')}`);
   const res = r.settings.residual;
   out.push(res ? `Residual error of observations: additive ${formatNumber(res.additive)} ${r.units.concentration}, proportional ${formatNumber(res.proportional * 100)}%` : 'Residual error: none');
@@ -93,7 +93,7 @@ export function populationToText(r: PopulationResult, clean: (text: string) => s
     out.push('Regimens compared on the same subjects (attainment per target; * marks the best):');
     const rows = [['', 'regimen', ...r.attainment.map((a, k) => `target ${k + 1}`), 'every level target', 'every ceiling']];
     g.rows.forEach((row, k) =>
-      rows.push([k === g.best ? '*' : '', clean(row.regimen), ...row.attainment.map((a) => plusMinus(a.probability, a.standardError)), plusMinus(row.joint.probability, row.joint.standardError), percent(row.ceiling.probability)]),
+      rows.push([k === g.best ? '*' : '', clean(row.regimen), ...row.attainment.map((a) => plusMinus(a.probability, a.standardError)), row.joint ? plusMinus(row.joint.probability, row.joint.standardError) : '—', percent(row.ceiling.probability)]),
     );
     out.push(...table(rows).map((line) => line.replace(/^ {2}/, '')));
     out.push(`  targets: ${r.attainment.map((a, k) => `${k + 1} = ${clean(a.target)}`).join('; ')}`);

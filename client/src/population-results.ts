@@ -27,6 +27,17 @@ export function bandKeys(percentiles: string[]): { low: string; mid: string; hig
   return { low: sorted[0], mid, high: sorted[sorted.length - 1] };
 }
 
+/** How a band's middle line is called: the median, or the percentile standing in for it. */
+function middleWords(mid: string): string {
+  return mid === '50' ? 'median' : `${mid}th percentile`;
+}
+
+/** A histogram's caption: the middle chosen percentile (as the band draws it), the mean and the count. */
+export function histogramCaption(title: string, period: string, f: FigureSummary, percentiles: string[], unit: string): string {
+  const { mid } = bandKeys(percentiles);
+  return `${title}, ${period}: ${middleWords(mid)} ${fmt(f.percentiles[mid] ?? NaN)} ${unit}, mean ${fmt(f.mean)} ${unit}, ${f.subjects} subjects.`;
+}
+
 function percent(p: number): string {
   return `${fmt(100 * p, 3)}%`;
 }
@@ -70,7 +81,7 @@ export class PopulationView {
         'p',
         { class: 'note' },
         `${result.subjects} virtual subjects, seed ${result.seed}. `,
-        `Shaded: ${keys.low}th to ${keys.high}th percentile; line: ${keys.mid === '50' ? 'median' : `${keys.mid}th percentile`}.`,
+        `Shaded: ${keys.low}th to ${keys.high}th percentile; line: ${middleWords(keys.mid)}.`,
         result.observationBands ? ` Dashed: the ${keys.low}th and ${keys.high}th percentiles of simulated observations, the concentrations with the residual error added.` : '',
       ),
       h('div', { class: 'field population-compartment-field' }, h('label', { for: 'population-compartment' }, 'Compartment'), select),
@@ -90,7 +101,7 @@ export class PopulationView {
       { label: `${low}th percentile`, data: points(result.times, bands[low]), borderColor: 'rgba(31, 111, 139, 0.35)', backgroundColor: 'rgba(31, 111, 139, 0.18)', borderWidth: 1, pointRadius: 0, fill: false },
       // Filled down to the dataset before it: the area between the outer percentiles.
       { label: `${low}th to ${high}th percentile`, data: points(result.times, bands[high]), borderColor: 'rgba(31, 111, 139, 0.35)', backgroundColor: 'rgba(31, 111, 139, 0.18)', borderWidth: 1, pointRadius: 0, fill: '-1' },
-      { label: mid === '50' ? 'median' : `${mid}th percentile`, data: points(result.times, bands[mid]), borderColor: bandColour, backgroundColor: bandColour, borderWidth: 2, pointRadius: 0, fill: false },
+      { label: middleWords(mid), data: points(result.times, bands[mid]), borderColor: bandColour, backgroundColor: bandColour, borderWidth: 2, pointRadius: 0, fill: false },
       ...observationDatasets(result, this.compartment),
     ];
     if (this.chart) {
@@ -154,7 +165,7 @@ export class PopulationView {
         'figure',
         { class: 'histogram', 'data-testid': `population-histogram-${name}` },
         histogramSvg(f, `${title} (${unit})`),
-        h('figcaption', {}, `${title}, ${result.headlinePeriod}: median ${fmt(f.percentiles['50'] ?? NaN)} ${unit}, mean ${fmt(f.mean)} ${unit}, ${f.subjects} subjects.`),
+        h('figcaption', {}, histogramCaption(title, result.headlinePeriod, f, result.percentiles, unit)),
       );
     });
     return h('section', { class: 'population-block' }, h('h3', {}, `Distribution at ${result.headlinePeriod} (${this.compartment})`), h('div', { class: 'histograms' }, ...parts));
@@ -169,9 +180,10 @@ export class PopulationView {
     const body = h('tbody');
     grid.rows.forEach((row, k) => {
       const best = grid.best === k;
-      const cells = [...row.attainment.map((a) => a.probability), row.joint.probability, row.ceiling.probability].map((p, j, all) => {
-        const td = h('td', { class: j === all.length - 2 ? 'joint' : '' }, percent(p));
-        colourCell(td, p);
+      // No joint share when every target is a ceiling: a dash, uncoloured.
+      const cells = [...row.attainment.map((a) => a.probability), row.joint?.probability ?? null, row.ceiling.probability].map((p, j, all) => {
+        const td = h('td', { class: j === all.length - 2 ? 'joint' : '' }, p === null ? '—' : percent(p));
+        if (p !== null) colourCell(td, p);
         return td;
       });
       body.append(h('tr', { class: best ? 'best' : '', 'data-testid': best ? 'population-best-regimen' : null }, h('th', { scope: 'row' }, best ? `★ best: ${row.regimen}` : row.regimen), ...cells));

@@ -5,6 +5,8 @@
  */
 import type { Outcome } from '../scenario/problems.ts';
 import type { PopulationPlan } from './plan.ts';
+import { subjectCovariates, tableRowOf } from './covariates.ts';
+import { SubjectRandom } from './random.ts';
 import { NO_STEADY_STATE, runSubject, SubjectScratch, subjectVariant } from './subject-run.ts';
 
 export interface Batch {
@@ -78,8 +80,47 @@ export function runBatch(plan: PopulationPlan, first: number, count: number, pro
   return { ok: true, value: batch };
 }
 
-/** A subject that cannot be run fails the population, naming the subject and the field. */
+/**
+ * A subject that cannot be run fails the population, naming the subject and the field. A
+ * covariate the population gave the subject is named where it came from — the distribution that
+ * drew it, or the table row — with the value it took; once a covariate is refused, the rest of
+ * the subject's model (relations, per-kg doses, derived covariates) would only report that it is
+ * missing, so only the covariates' own problems are kept.
+ */
 function failed(plan: PopulationPlan, i: number, regimen: string | null, problems: { path: string; message: string }[]): Outcome<Batch> {
   const who = `virtual subject ${i} (seed ${plan.seed})${regimen ? `, regimen ${regimen}` : ''}`;
-  return { ok: false, problems: problems.map((p) => ({ path: p.path, message: `${who}: ${p.message}` })) };
+  const ofSubject = problems.filter((p) => /^subject\./.test(p.path));
+  if (ofSubject.length === 0) return { ok: false, problems: problems.map((p) => ({ path: p.path, message: `${who}: ${p.message}` })) };
+  const random = new SubjectRandom(plan.seed, i);
+  const row = tableRowOf(plan.covariates, i, random);
+  const subject = subjectCovariates(plan.covariates, plan.scenario.subject, i, random) as Record<string, unknown>;
+  return {
+    ok: false,
+    problems: ofSubject.map((p) => {
+      const name = p.path.slice('subject.'.length);
+      const drawn = plan.covariates.drawn.find((c) => c.name === name);
+      const source = drawn
+        ? `population.covariates.${name}`
+        : row !== null && plan.covariates.rows && name in plan.covariates.rows[row]
+          ? `population.covariateTable.rows[${row}].${name}`
+          : null;
+      if (source === null) return { path: p.path, message: `${who}: ${p.message}` };
+      const value = subject[name];
+      const took = `${who} ${drawn ? 'drew' : 'took'} ${name} = ${typeof value === 'number' ? shortNumber(value) : shortWritten(String(value))}: ${p.message}`;
+      // A distribution that reaches zero or below: its lower bound is what to change.
+      const low = drawn?.kind === 'number' ? drawn.distribution.min : undefined;
+      const hint = p.message === 'must be positive' && low !== undefined && (low === null || low <= 0) ? ' (give the distribution a `min` above 0)' : '';
+      return { path: source, message: took + hint };
+    }),
+  };
+}
+
+function shortNumber(v: number): string {
+  return Number(v.toPrecision(6)).toString();
+}
+
+/** A drawn "−3.2104477 kg" written with six significant digits. */
+function shortWritten(v: string): string {
+  const m = /^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)(.*)$/.exec(v);
+  return m ? `${shortNumber(Number(m[1]))}${m[2]}` : v;
 }

@@ -88,31 +88,47 @@ export function readCovariatePlan(p: Population, problems: Problem[]): Covariate
     if (!table.rows) fail('population.covariateTable.rows', table.file ? 'the table file is read by the command line (relative to the scenario file); over the API give the rows themselves' : 'is required: the covariate rows');
     else {
       rows = table.rows as Subject[];
-      const drawnNames = new Set(drawn.map((c) => c.name));
-      // Every column of the table, and the first row that gives it: a row without one would
-      // quietly take the scenario subject's value for it (as the CSV reader, every row needs
-      // every column).
-      const columns = new Map<string, number>();
-      rows.forEach((row, i) => Object.keys(row).forEach((k) => columns.has(k) || columns.set(k, i)));
-      const before = problems.length;
-      for (let i = 0; i < rows.length && problems.length - before < maxRowProblems; i++) {
-        const row = rows[i];
-        const at = `population.covariateTable.rows[${i}]`;
-        for (const k of Object.keys(row)) {
-          if (drawnNames.has(k)) fail(`${at}.${k}`, `'${k}' is also drawn from population.covariates.${k}; give it in one place`);
-        }
-        for (const [k, first] of columns) {
-          if (!(k in row)) fail(`${at}.${k}`, `is missing: row ${first} gives '${k}', and every row of the table needs every column it has (a subject without it would take the scenario subject's value unseen)`);
-        }
-        // Each row is read now as the subject it becomes, so a bad cell is named by its row and
-        // column rather than by the first virtual subject that happens to take it.
-        const sex = (row as Record<string, unknown>).sex;
-        if (sex !== undefined && !(sexes as readonly unknown[]).includes(sex)) fail(`${at}.sex`, `sex takes the categories ${sexes.map((x) => `'${x}'`).join(' and ')}, not '${String(sex)}'`);
-        for (const q of readSubject(row).problems) fail(q.path.replace(/^subject/, at), q.message);
-      }
+      problems.push(...tableRowProblems(rows, new Set(drawn.map((c) => c.name))));
     }
   }
   return { drawn, rows, draw: table?.draw ?? 'in turn' };
+}
+
+/**
+ * The problems of a covariate table's rows, each at `population.covariateTable.rows[i].name`
+ * (at most 20): a column also drawn, a column a row lacks (every row needs every column the
+ * table has: a row without one would quietly take the scenario subject's value), a bad cell.
+ * Each row is read now as the subject it becomes, so a bad cell is named by its row and column
+ * rather than by the first virtual subject that happens to take it. The command line maps these
+ * paths to the lines of a table file (server/covariate-csv.ts).
+ */
+export function tableRowProblems(rows: readonly Subject[], drawnNames: ReadonlySet<string>): Problem[] {
+  const problems: Problem[] = [];
+  const fail = (path: string, message: string) => problems.push({ path, message });
+  // Every column of the table, and the first row that gives it.
+  const columns = new Map<string, number>();
+  rows.forEach((row, i) => Object.keys(row).forEach((k) => columns.has(k) || columns.set(k, i)));
+  for (let i = 0; i < rows.length && problems.length < maxRowProblems; i++) {
+    const row = rows[i];
+    const at = `population.covariateTable.rows[${i}]`;
+    for (const k of Object.keys(row)) {
+      if (drawnNames.has(k)) fail(`${at}.${k}`, `'${k}' is also drawn from population.covariates.${k}; give it in one place`);
+    }
+    for (const [k, first] of columns) {
+      if (!(k in row)) fail(`${at}.${k}`, `is missing: row ${first} gives '${k}', and every row of the table needs every column it has (a subject without it would take the scenario subject's value unseen)`);
+    }
+    const sex = (row as Record<string, unknown>).sex;
+    if (sex !== undefined && !(sexes as readonly unknown[]).includes(sex)) fail(`${at}.sex`, `sex takes the categories ${sexes.map((x) => `'${x}'`).join(' and ')}, not '${String(sex)}'`);
+    for (const q of readSubject(row).problems) fail(q.path.replace(/^subject/, at), q.message);
+  }
+  return problems;
+}
+
+/** The table row subject i takes (`random` made for (seed, i)): in turn, or one drawn from its own stream. */
+export function tableRowOf(plan: CovariatePlan, i: number, random: SubjectRandom): number | null {
+  if (!plan.rows) return null;
+  const n = plan.rows.length;
+  return plan.draw === 'in turn' ? i % n : Math.min(n - 1, Math.floor(random.uniform(STREAMS.tableRow, 0) * n));
 }
 
 type Written = number | string | undefined;
@@ -168,11 +184,8 @@ function readNumeric(
 /** The covariates of subject i (the random numbers come from `random`, made for (seed, i)). */
 export function subjectCovariates(plan: CovariatePlan, base: Subject | undefined, i: number, random: SubjectRandom): Subject {
   const subject: Subject = { ...(base ?? {}) };
-  if (plan.rows) {
-    const n = plan.rows.length;
-    const row = plan.draw === 'in turn' ? i % n : Math.min(n - 1, Math.floor(random.uniform(STREAMS.tableRow, 0) * n));
-    Object.assign(subject, plan.rows[row]);
-  }
+  const row = tableRowOf(plan, i, random);
+  if (plan.rows && row !== null) Object.assign(subject, plan.rows[row]);
   plan.drawn.forEach((c, k) => {
     const u = random.uniform(STREAMS.covariates, k);
     if (c.kind === 'category') {

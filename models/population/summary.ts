@@ -6,6 +6,8 @@
  */
 import { resultUnits, type ResultUnits } from '../simulate.ts';
 import type { Outcome } from '../scenario/problems.ts';
+import type { AdjustedQuantity, Scenario } from '../scenario/schema.ts';
+import { readShare } from '../scenario/shares.ts';
 import { STREAMS } from './covariates.ts';
 import type { Batch } from './batch.ts';
 import { FIGURES, figureColumn, periodIndex, windowColumn, type FigureLayout, type FigureName } from './layout.ts';
@@ -61,10 +63,19 @@ export interface Attainment {
 export interface RegimenRow {
   regimen: string;
   attainment: Attainment[];
-  /** Share of subjects meeting every target that asks for at least a level. */
-  joint: { probability: number; standardError: number };
+  /** Share of subjects meeting every target that asks for at least a level; null when no target does (only ceilings). */
+  joint: { probability: number; standardError: number } | null;
   /** Share meeting every ceiling target (an upper bound only); 1 when there is none. */
   ceiling: { probability: number; standardError: number };
+}
+
+type VariationKind = NonNullable<AdjustedQuantity['variation']>;
+
+export interface VaryingSetting {
+  quantity: string;
+  path: string;
+  cv: number;
+  variation: VariationKind;
 }
 
 export interface PopulationResult {
@@ -85,7 +96,8 @@ export interface PopulationResult {
   regimens: { rows: RegimenRow[]; best: number | null; rule: string } | null;
   settings: {
     covariates: string[];
-    varying: { quantity: string; path: string }[];
+    /** Each varying quantity with its coefficient of variation (a fraction) and how it varies. */
+    varying: VaryingSetting[];
     correlations: { between: [string, string]; value: number }[];
     residual: { additive: number; proportional: number } | null;
   };
@@ -198,7 +210,7 @@ export function summarise(plan: PopulationPlan, unordered: readonly Batch[], com
       regimens,
       settings: {
         covariates: describeCovariates(plan),
-        varying: plan.varying.map((v) => ({ quantity: quantityLabel(v), path: v.path })),
+        varying: varyingSettings(plan),
         correlations: plan.correlations,
         residual: plan.residual,
       },
@@ -218,6 +230,30 @@ function windowLabel(t: { above: number | null; below: number | null }, plan: Po
   const n = (v: number) => Number(v.toPrecision(6));
   if (t.above !== null && t.below !== null) return `${n(t.above)}–${n(t.below)} ${u}`;
   return t.above !== null ? `above ${n(t.above)} ${u}` : `below ${n(t.below as number)} ${u}`;
+}
+
+/**
+ * Each varying quantity with its cv and kind of variation, read back from the scenario the plan
+ * holds (the reader has accepted both): log-normal unless written, logit-normal for a
+ * bioavailability (the only fraction that varies), as models/scenario/normalize.ts reads them.
+ */
+function varyingSettings(plan: PopulationPlan): VaryingSetting[] {
+  return plan.varying.map((v) => {
+    const q = quantityAt(plan.scenario, v.path);
+    const cv = q?.cv === undefined ? NaN : (readShare(q.cv, `${v.path}.cv`, { fail: () => undefined }, 'a coefficient of variation', 5) ?? NaN);
+    const variation: VariationKind = q?.variation ?? (v.path.endsWith('.bioavailability') ? 'logit-normal' : 'log-normal');
+    return { quantity: quantityLabel(v), path: v.path, cv, variation };
+  });
+}
+
+/** The quantity at a varying quantity's path such as "transfers[0].cl" (varyingQuantities writes only these forms). */
+function quantityAt(scenario: Scenario, path: string): AdjustedQuantity | undefined {
+  let node: unknown = scenario;
+  for (const key of path.split(/[.[\]]/).filter(Boolean)) {
+    if (typeof node !== 'object' || node === null) return undefined;
+    node = (node as Record<string, unknown>)[key];
+  }
+  return typeof node === 'object' && node !== null ? (node as AdjustedQuantity) : undefined;
 }
 
 function describeCovariates(plan: PopulationPlan): string[] {
@@ -276,6 +312,8 @@ function attain(plan: PopulationPlan, layout: FigureLayout, t: ReadTarget, windo
 function compareRegimens(plan: PopulationPlan, layout: FigureLayout, batches: readonly Batch[]): NonNullable<PopulationResult['regimens']> {
   const cols = layout.columns;
   const N = plan.subjects;
+  // With ceilings only there is no level to attain: no joint share, and regimens rank by the ceiling share.
+  const levels = plan.targets.some((t) => !t.ceiling);
   const rows = plan.regimens.map((regimen, r): RegimenRow => {
     const read = (batch: Batch, s: number, col: number) => batch.regimenFigures[(r * batch.count + s) * cols + col];
     const attainment = plan.targets.map((t, k) => attain(plan, layout, t, plan.targetWindows[k], batches, read));
@@ -289,18 +327,21 @@ function compareRegimens(plan: PopulationPlan, layout: FigureLayout, batches: re
         if (all(true)) ceiling++;
       }
     }
-    return { regimen: regimen.words, attainment, joint: share(joint, N), ceiling: share(ceiling, N) };
+    return { regimen: regimen.words, attainment, joint: levels ? share(joint, N) : null, ceiling: share(ceiling, N) };
   });
+  const score = (row: RegimenRow) => (row.joint ?? row.ceiling).probability;
   let best: number | null = null;
   rows.forEach((row, r) => {
     if (row.ceiling.probability < plan.ceilingAtLeast) return;
-    if (best === null || row.joint.probability > rows[best].joint.probability) best = r;
+    if (best === null || score(row) > score(rows[best])) best = r;
   });
   const ceilingPercent = `${Number((plan.ceilingAtLeast * 100).toPrecision(4))}%`;
   return {
     rows,
     best,
-    rule: `the regimen with the largest share of subjects meeting every target that asks for at least a level, among those where at least ${ceilingPercent} of subjects keep every ceiling target (an upper bound only); the first listed wins a tie`,
+    rule: levels
+      ? `the regimen with the largest share of subjects meeting every target that asks for at least a level, among those where at least ${ceilingPercent} of subjects keep every ceiling target (an upper bound only); the first listed wins a tie`
+      : `the regimen with the largest share of subjects keeping every ceiling target (an upper bound only), among those where at least ${ceilingPercent} of subjects do; no target asks for at least a level, so there is no joint share of level targets; the first listed wins a tie`,
   };
 }
 

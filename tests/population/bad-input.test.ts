@@ -74,7 +74,7 @@ describe('bad population input', () => {
     expect(problemsOf(single)[0].path).toBe('population');
   });
 
-  it('a drawn covariate that breaks a subject names the subject and the field', () => {
+  it('a drawn covariate that breaks a subject names the subject and the distribution that drew it', () => {
     // A normal weight without truncation eventually draws a negative weight.
     const s = edited((x) => {
       x.population.subjects = 400;
@@ -83,8 +83,8 @@ describe('bad population input', () => {
     const r = simulatePopulation(s);
     expect(r.ok).toBe(false);
     if (!r.ok) {
-      expect(r.problems[0].path).toBe('subject.weight');
-      expect(r.problems[0].message).toMatch(/^virtual subject \d+ \(seed 20261202\): must be positive/);
+      expect(r.problems[0].path).toBe('population.covariates.weight');
+      expect(r.problems[0].message).toMatch(/^virtual subject \d+ \(seed 20261202\) drew weight = -[\d.]+ kg: must be positive/);
     }
   });
 });
