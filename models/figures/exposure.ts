@@ -265,6 +265,18 @@ export interface FigureWindow {
   troughAtEnd: boolean;
 }
 
+/** The final dose's interval (starts non-empty): to the dose due at the span's end, one interval long when the span allows, or cut at the end. */
+export function finalInterval(model: Model, starts: Float64Array): FigureWindow {
+  const n = starts.length;
+  const last = starts[n - 1];
+  const tolerance = 1e-9 * Math.max(1, Math.abs(model.end));
+  const dueAtEnd = model.doseLines.some((l) => l.nextGiven !== null && Math.abs(l.nextGiven - model.end) <= tolerance);
+  if (dueAtEnd || n < 2) return { start: last, end: model.end, troughAtEnd: dueAtEnd };
+  const tau = last - starts[n - 2];
+  if (model.end - last >= tau - tolerance) return { start: last, end: Math.min(model.end, last + tau), troughAtEnd: true };
+  return { start: last, end: model.end, troughAtEnd: false };
+}
+
 /**
  * The figures over the whole span, or over `window` only: then `overall` holds the window's
  * figures (its AUC from the window's start) and the knots outside it are never visited.

@@ -4,7 +4,7 @@
  * (concentrations on the output grid, figures per period) and what is summarised.
  */
 import type { Model, ModelThreshold } from '../building/model.ts';
-import { intervalStarts } from '../figures/exposure.ts';
+import { finalInterval, intervalStarts } from '../figures/exposure.ts';
 import { maintenanceLines } from '../figures/steady-state.ts';
 import type { Outcome, Problem } from '../scenario/problems.ts';
 import type { Period, Population, Scenario } from '../scenario/schema.ts';
@@ -42,6 +42,8 @@ export interface PopulationPlan {
   ceilingAtLeast: number;
   /** 24 h in the scenario's time unit, for AUC per 24 h. */
   day: number;
+  /** What the result must say about how its periods were read (lastIntervalNote). */
+  notes: string[];
 }
 
 export function readPlan(scenario: Scenario, template: Model, overrides: { subjects?: number; seed?: number } = {}): Outcome<PopulationPlan> {
@@ -85,6 +87,9 @@ export function readPlan(scenario: Scenario, template: Model, overrides: { subje
   }
   for (const t of targets) if (!periods.includes(t.period) && available(t.period) === null) periods.push(t.period);
 
+  const notes: string[] = [];
+  const lastNote = periods.includes('last interval') ? lastIntervalNote(template) : null;
+  if (lastNote) notes.push(lastNote);
   const banded = template.compartments.flatMap((c, i) => (c.volume !== null ? [i] : []));
   const layout = figureLayout(periods, banded, thresholds);
   const regimens = readRegimens(scenario, p, targets.length, problems);
@@ -116,8 +121,27 @@ export function readPlan(scenario: Scenario, template: Model, overrides: { subje
         const d = convertQuantity('24 h', 'time', template.units);
         return d.ok ? d.value : NaN;
       })(),
+      notes,
     },
   };
+}
+
+/**
+ * "last interval" is the final dose's interval, read over one dosing interval (periodWindow);
+ * when the span ends sooner after the final dose, that interval is cut short and "last interval"
+ * is the one before it — the result says which was read, lest a peak target "at the last
+ * interval" be taken to include the final dose's peak.
+ */
+function lastIntervalNote(template: Model): string | null {
+  const starts = intervalStarts(template, new Float64Array(0));
+  const n = starts.length;
+  if (n < 2 || finalInterval(template, starts).troughAtEnd) return null;
+  const unit = template.units.time;
+  const at = (t: number) => `${Number(t.toPrecision(6))} ${unit}`;
+  return (
+    `"last interval" is dosing interval ${n - 1} (${at(starts[n - 2])} to ${at(starts[n - 1])}): the span ends ${at(template.end - starts[n - 1])} after the final dose, ` +
+    `less than a dosing interval, so the final dose's interval (${n}) is cut short and read only by its number`
+  );
 }
 
 /** The correlation matrix of the varying quantities from the named pairs, and its Cholesky factor. */

@@ -7,7 +7,7 @@ import type { Model } from '../building/model.ts';
 import { buildSchedule, type Schedule } from '../building/events.ts';
 import { CompartmentSystem } from '../building/system.ts';
 import { CurveProbe } from '../figures/curve-probe.ts';
-import { exposureFigures, intervalStarts, type CompartmentFigures, type FigureWindow } from '../figures/exposure.ts';
+import { exposureFigures, finalInterval, intervalStarts, type CompartmentFigures, type FigureWindow } from '../figures/exposure.ts';
 import { massBalance, massBalanceProblem } from '../figures/mass-balance.ts';
 import { steadyStateFigures } from '../figures/steady-state.ts';
 import { buildModel, dosesDependOnSubject, type SubjectVariant } from '../scenario/normalize.ts';
@@ -165,18 +165,24 @@ function scheduleStarts(model: Model, schedule: Schedule): Float64Array {
   return intervalStarts(model, Float64Array.from(schedule.breakpoints, (b) => b.time));
 }
 
-/** The time window of a dosing-interval period (`starts`: intervalStarts), or null when this subject's span lacks it. */
+/**
+ * The time window of a dosing-interval period (`starts`: intervalStarts), or null when this
+ * subject's span lacks it. The final dose's interval, with no dose due after it, is read over
+ * one dosing interval — as long as the one before it — when the span covers that, its trough
+ * the level then (where the next dose would fall due, common practice); a span that ends sooner
+ * cuts it short (no trough), and "last interval" is then the interval before it (plan.ts
+ * lastIntervalNote says so in the result).
+ */
 export function periodWindow(model: Model, starts: Float64Array, period: Period): FigureWindow | null {
-  const tolerance = 1e-9 * Math.max(1, Math.abs(model.end));
-  const dueAtEnd = model.doseLines.some((l) => l.nextGiven !== null && Math.abs(l.nextGiven - model.end) <= tolerance);
+  const final = finalInterval(model, starts);
   const n = starts.length;
   const window = (k: number): FigureWindow | null => {
     if (k < 0 || k >= n) return null;
-    const end = k + 1 < n ? starts[k + 1] : model.end;
-    return { start: starts[k], end, troughAtEnd: k + 1 < n || dueAtEnd };
+    if (k + 1 < n) return { start: starts[k], end: starts[k + 1], troughAtEnd: true };
+    return final;
   };
   if (period === 'first interval') return window(0);
-  if (period === 'last interval') return window(dueAtEnd || n < 2 ? n - 1 : n - 2);
+  if (period === 'last interval') return final.troughAtEnd || n < 2 ? window(n - 1) : window(n - 2);
   if (typeof period === 'number') return window(period - 1);
   return null;
 }

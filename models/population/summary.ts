@@ -187,7 +187,8 @@ export function summarise(plan: PopulationPlan, unordered: readonly Batch[], com
 
   const regimens = plan.regimenLayout ? compareRegimens(plan, plan.regimenLayout, batches) : null;
   const withoutSteady = periods.find((p) => p.period === 'steady state')?.undetermined ?? 0;
-  const warnings: string[] = [];
+  // How the plan read its periods (a "last interval" that is not the final dose's), then what the subjects gave.
+  const warnings: string[] = [...plan.notes];
   if (withoutSteady > 0) {
     const first = batches.find((b) => b.steadyMessage)?.steadyMessage;
     warnings.push(`${withoutSteady} of ${N} virtual subjects have no steady state; their steady-state figures are left out of the percentiles and count as not attaining any target${first ? ` (${first})` : ''}`);
