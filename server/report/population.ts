@@ -489,7 +489,8 @@ function regimenTables(doc: PDFKit.PDFDocument, regimens: NonNullable<Population
           // The mark on a line of its own under the regimen, so it never breaks mid-phrase.
           { text: mark ? `${row.regimen}\nbest under the rule` : row.regimen, bold: mark },
           ...chunk.map((k) => ({ text: percent(row.attainment[k]?.probability), bold: mark })),
-          { text: `${percent(row.joint.probability)} ± ${(100 * row.joint.standardError).toFixed(1)}`, bold: mark },
+          // No lower target: no joint share (the ceilings rank the regimens, as the rule says).
+          { text: row.joint ? `${percent(row.joint.probability)} ± ${(100 * row.joint.standardError).toFixed(1)}` : '—', bold: mark },
           { text: `${percent(row.ceiling.probability)} ± ${(100 * row.ceiling.standardError).toFixed(1)}`, bold: mark },
         ];
       }),

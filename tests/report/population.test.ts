@@ -124,13 +124,13 @@ describe('the population section', () => {
     expect(grid.best).not.toBeNull();
     const best = grid.rows[grid.best as number];
     // The mark sits under the regimen in its cell: read back after the row's figures, and on that row alone.
-    const bestCells = [...best.attainment.map((a) => percent(a.probability)), `${percent(best.joint.probability)} ± ${(100 * best.joint.standardError).toFixed(1)}`, `${percent(best.ceiling.probability)} ± ${(100 * best.ceiling.standardError).toFixed(1)}`];
+    const bestCells = [...best.attainment.map((a) => percent(a.probability)), best.joint ? `${percent(best.joint.probability)} ± ${(100 * best.joint.standardError).toFixed(1)}` : '—', `${percent(best.ceiling.probability)} ± ${(100 * best.ceiling.standardError).toFixed(1)}`];
     expect(own).toContain(`${best.regimen} ${bestCells.join(' ')} best under the rule`);
     expect(own.split(/\d best under the rule/)).toHaveLength(2);
     expect(own).toContain(`The rule: ${grid.rule}.`);
     expect(own).toContain(`Best under the rule: ${best.regimen}.`);
     for (const row of grid.rows) {
-      const cells = [...row.attainment.map((a) => percent(a.probability)), `${percent(row.joint.probability)} ± ${(100 * row.joint.standardError).toFixed(1)}`];
+      const cells = [...row.attainment.map((a) => percent(a.probability)), row.joint ? `${percent(row.joint.probability)} ± ${(100 * row.joint.standardError).toFixed(1)}` : '—'];
       expect(own, row.regimen).toContain(cells.join(' '));
     }
   });
@@ -194,4 +194,18 @@ describe('without a population, or with a wrong one', () => {
   it('writes percentiles as ordinals', () => {
     expect(['1', '2', '3', '5', '11', '12', '13', '21', '50', '2.5', '97.5'].map(ordinal)).toEqual(['1st', '2nd', '3rd', '5th', '11th', '12th', '13th', '21st', '50th', '2.5th', '97.5th']);
   });
+});
+
+describe('a regimen grid with ceiling targets only', () => {
+  it('prints no joint share (—) and the rule that ranks by the ceilings, without failing', () => {
+    const scenario = demo(30) as { population: Record<string, unknown> };
+    scenario.population = { ...scenario.population, targets: [{ peak: { atMost: '60 mg/L' } }] };
+    const r = engine(scenario);
+    expect(r.regimens?.rows.every((row) => row.joint === null)).toBe(true);
+    const own = section(report(scenario).flat);
+    const first = r.regimens?.rows[0];
+    if (!first) throw new Error('no regimen grid');
+    expect(own).toContain(`${first.regimen} ${percent(first.attainment[0].probability)} — ${percent(first.ceiling.probability)}`);
+    expect(own).toContain(`The rule: ${r.regimens?.rule}.`);
+  }, 120_000);
 });

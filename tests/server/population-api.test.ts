@@ -106,12 +106,13 @@ describe('POST /api/population', () => {
 });
 
 describe('POST /api/population: limits and problems', () => {
-  it('answers 400 naming population.subjects, output.step and population.regimens past the limits', async () => {
+  it('answers 400 naming subjects, output.step and population.regimens past the limits', async () => {
     const small = createApp({ pool, samples: [], clientDir: null, limits, population: { limits: { maxSubjects: 100, maxNumbers: 50_000, maxRegimenRuns: 300 } } });
+    // The request's own override is named where it was given: `subjects`, not the scenario's count.
     const subjects = await request(small).post('/api/population').send({ scenario: halvorin, subjects: 101 }).expect(400);
     const paths = subjects.body.problems.map((p: { path: string }) => p.path);
-    expect(paths).toContain('population.subjects');
-    expect(subjects.body.problems.find((p: { path: string }) => p.path === 'population.subjects').message).toMatch(/at most 100/);
+    expect(paths).toContain('subjects');
+    expect(subjects.body.problems.find((p: { path: string }) => p.path === 'subjects').message).toMatch(/at most 100/);
     // 100 subjects × 385 times × 2 compartments = 77,000 > 50,000; 8 regimens × 100 = 800 > 300.
     const grid = await request(small).post('/api/population').send({ scenario: halvorin, subjects: 100 }).expect(400);
     expect(grid.body.problems).toEqual([
