@@ -19,3 +19,17 @@ export interface BandRange {
 export function bandRange(plan: PopulationPlan, parts: readonly GridPart[], from: number, to: number): BandRange {
   return { from, to, values: bandValues(plan, parts, null, from, to), observations: plan.residual ? bandValues(plan, parts, plan.residual, from, to) : null };
 }
+
+/** Output times a warm-up of the band code reads (BAND_WARM_UP). */
+const WARM_UP_TIMES = 512;
+
+/**
+ * Runs the band code once over the first times of one finished chunk and drops the answer, so
+ * that the engine has compiled it before the real bands (every subject, every time) are found:
+ * read once and cold, a year of hourly bands for 1,000 subjects took about 0.19 s against
+ * 0.13 s warm. The chunk's own subjects stand in for the population; nothing is kept.
+ */
+export function warmBands(plan: PopulationPlan, batch: GridPart): void {
+  const T = plan.template.outputTimes.length;
+  bandValues({ ...plan, subjects: batch.count }, [batch], null, 0, Math.min(T, WARM_UP_TIMES));
+}

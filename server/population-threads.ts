@@ -100,6 +100,8 @@ export function claimChunk(counter: Int32Array): number {
 export function workersWorthIt(ranMs: number, leftMs: number): boolean {
   return ranMs >= WARM_UP_MS && leftMs > WORKERS_WORTH_MS;
 }
+/** Chunks after which the calling thread runs the band code over a little of its grid (warmBands). */
+const BAND_WARM_UPS = 3;
 const WARM_UP_MS = 250;
 const WORKERS_WORTH_MS = 2000;
 
@@ -187,6 +189,7 @@ export async function runThreads(
     if (options.plan && local) {
       // The calling thread takes chunks too, letting the threads' messages in between chunks.
       const began = performance.now();
+      let warmUps = 0;
       for (let c = claimChunk(counter); c < chunkCount; c = claimChunk(counter)) {
         const chunkBegan = performance.now();
         const batch = local.runBatch(options.plan, chunks[2 * c], chunks[2 * c + 1], undefined, options.bands === true);
@@ -201,6 +204,11 @@ export async function runThreads(
           break;
         }
         take(batch.value);
+        // The band code compiled on the first chunks, while the subjects run (population-local.ts warmBands).
+        if (options.bands === true && warmUps < BAND_WARM_UPS) {
+          local.warmBands(options.plan, batch.value);
+          warmUps++;
+        }
         await new Promise<void>((resolve) => setImmediate(resolve));
         if (options.signal?.aborted) break;
       }
