@@ -91,7 +91,8 @@ function cell(v: number | null | undefined): string {
 /** The loading amount, and when the strengths fell short of the computed one, the row's note saying so. */
 function loadingCell(p: Proposal, amount: string): string {
   if (!p.loading) return '–';
-  return `${short(p.loading.amount)} ${amount}${p.loading.note ? ` (${p.loading.note})` : ''}`;
+  const lowered = p.loading.loweredFrom !== null ? ` (lowered from ${short(p.loading.loweredFrom)})` : '';
+  return `${short(p.loading.amount)} ${amount}${lowered}${p.loading.note ? ` (${p.loading.note})` : ''}`;
 }
 
 /** A share of subjects as "83.4% ± 1.7". */

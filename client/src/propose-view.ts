@@ -116,6 +116,8 @@ function loadingCell(p: Proposal, result: ProposeResult): HTMLElement {
     fmt(l.amount),
     // Capped or raised onto the strengths' sums: the word here, the amounts in the note under the table.
     l.note ? sub(l.note.split(':')[0]) : null,
+    // Lowered to keep an upper bound in its own first interval: the word here (the column stays narrow), the amounts and the bound in the note under the table.
+    l.loweredFrom !== null && l.loweredFrom !== undefined ? sub('lowered') : null,
     missed.length ? h('div', { class: 'levels-proposal-sub levels-unmet' }, `interval 1: ${missed.map((k) => `${k + 1}✗`).join(' ')}`) : null,
   );
 }

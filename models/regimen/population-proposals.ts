@@ -53,7 +53,8 @@ export interface PopulationProposalLimits {
 
 export const LOADING_RULE =
   'chosen for the typical subject as typical proposals choose it (the first dose, in place of the first maintenance dose, whose first trough is the typical ' +
-  'steady-state trough: the closed form for a linear model, bisection otherwise), rounded onto the sums of the strengths — and when no sum comes within ' +
+  'steady-state trough: the closed form for a linear model, bisection otherwise, lowered to the largest smaller sum of the strengths above the maintenance dose ' +
+  'whose first interval keeps every upper bound when the typical subject\'s first interval would break one), rounded onto the sums of the strengths — and when no sum comes within ' +
   'one rounding step of it (above the largest sum, below the smallest), the nearest end is given and the row says so, with the amount computed — ' +
   'then given to every virtual subject; the share meeting every target in the first dosing interval is given with and without it';
 

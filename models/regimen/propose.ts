@@ -54,6 +54,12 @@ export interface LoadingAmount {
   method: 'closed form' | 'bisection';
   /** Set when the sums cannot come within one rounding step of the computed amount (strengths.ts's roundingGap), saying so. */
   note: string | null;
+  /**
+   * The amount aimed at the steady-state trough when it was lowered because its own first
+   * interval broke an upper bound (a peak ceiling, say) and a smaller sum of strengths, still
+   * above the maintenance dose, keeps every upper bound there; null when not lowered.
+   */
+  loweredFrom: number | null;
 }
 
 export interface LoadingDose extends LoadingAmount {
@@ -70,6 +76,9 @@ export interface LoadingDose extends LoadingAmount {
   timeToWindow: number | null;
   intervalsToWindow: number | null;
 }
+
+/** Smaller sums of strengths tried for a loading dose that breaks an upper bound (each one simulated interval by interval from empty). */
+const LOWER_LOADING_TRIES = 20;
 
 export interface Proposal {
   amount: number;
@@ -386,7 +395,7 @@ function loadingAmount(cx: Context, p: Proposal): LoadingAmount | null {
     method = 'bisection';
   }
   const amount = roundToAvailable(computed, cx.settings.loadingAmounts, cx.settings.rounding);
-  return { amount, computed, method, note: roundingNote(computed, amount, cx.settings.loadingAmounts, cx.base.units.amount) };
+  return { amount, computed, method, note: roundingNote(computed, amount, cx.settings.loadingAmounts, cx.base.units.amount), loweredFrom: null };
 }
 
 /** The note of a loading amount the sums could not give within one rounding step, or null. */
@@ -398,20 +407,67 @@ export function roundingNote(computed: number, amount: number, available: readon
   return `${what} at ${formatNumber(amount)} ${unit}: the strengths give ${why}; computed ${formatNumber(Number(computed.toPrecision(4)))} ${unit}`;
 }
 
-/** Sets the regimen's loading dose; a target its first interval misses is said in the row's note. */
+/** Sets the regimen's loading dose; a lowered amount and a target its first interval misses are said in the row's note. */
 function withLoading(cx: Context, p: Proposal): void {
-  const loading = guarded(() => loadingDose(cx, p), () => null);
-  p.loading = loading;
-  if (!loading || loading.firstIntervalMet) return;
+  const found = guarded(() => loadingDose(cx, p), () => null);
+  p.loading = found?.dose ?? null;
+  if (!found) return;
   const units = { concentration: displayUnit('concentration', cx.base.units), auc: `${displayUnit('concentration', cx.base.units)}·${cx.base.units.time}` };
-  const missed = firstIntervalNote(cx.settings.targets, loading.firstInterval, units);
-  if (missed !== null) p.note = p.note === null ? missed : `${p.note}; ${missed}`;
+  const unit = cx.base.units.amount;
+  const say = (words: string) => (p.note = p.note === null ? words : `${p.note}; ${words}`);
+  const from = found.dose.loweredFrom;
+  if (from !== null && found.aimedFirst) {
+    const why = firstIntervalNote(cx.settings.targets, found.aimedFirst, units);
+    say(`the loading dose is lowered from ${formatNumber(from)} ${unit}, the amount aimed at the steady-state trough, to ${formatNumber(found.dose.amount)} ${unit}, the largest sum of strengths that keeps every upper bound in its first interval${why ? `: at ${formatNumber(from)} ${unit}, ${why}` : ''}`);
+  }
+  if (found.dose.firstIntervalMet) return;
+  const missed = firstIntervalNote(cx.settings.targets, found.dose.firstInterval, units);
+  if (missed !== null) say(missed);
 }
 
-/** The loading dose of a regimen that meets its targets: its amount, then verified by simulation. */
-function loadingDose(cx: Context, p: Proposal): LoadingDose | null {
-  const chosen = loadingAmount(cx, p);
-  if (!chosen) return null;
+/** Whether a first interval's figures break an upper bound of a target (a ceiling, or a window's top). */
+function breaksUpperBound(targets: readonly ReadTarget[], first: readonly number[]): boolean {
+  return targets.some((t, k) => t.atMost !== null && first[k] > t.atMost);
+}
+
+/** Each target's figure in the first interval after `amount` is given first (one interval simulated). */
+function firstIntervalOf(cx: Context, p: Proposal, amount: number): number[] {
+  const spec: RegimenSpec = { amount: p.amount, interval: p.interval, duration: p.duration };
+  const w = windowTime(setupFor(cx, spec, amount), cx.settings.targets, cx.day, 1);
+  cx.counts.intervals += w.simulated;
+  return w.first;
+}
+
+/**
+ * The loading amount aimed at the steady-state trough puts its peak on an emptier body than the
+ * steady state's, yet that first peak can still break a ceiling the steady state keeps. Then the
+ * largest smaller sum of strengths, above the maintenance dose, whose first interval keeps every
+ * upper bound is given instead (at most LOWER_LOADING_TRIES tried, each one interval from empty);
+ * when none does, the aimed amount stays and its miss is said in the row's note. `aimedFirst` is
+ * the aimed amount's first interval when it was lowered.
+ */
+function keepingUpperBounds(cx: Context, p: Proposal, chosen: LoadingAmount): { chosen: LoadingAmount; aimedFirst: number[] | null } {
+  const targets = cx.settings.targets;
+  if (!targets.some((t) => t.atMost !== null)) return { chosen, aimedFirst: null };
+  const aimedFirst = firstIntervalOf(cx, p, chosen.amount);
+  if (!breaksUpperBound(targets, aimedFirst)) return { chosen, aimedFirst: null };
+  const smaller = cx.settings.loadingAmounts.filter((a) => a < chosen.amount && a > p.amount).sort((a, b) => b - a);
+  for (const amount of smaller.slice(0, LOWER_LOADING_TRIES)) {
+    if (!breaksUpperBound(targets, firstIntervalOf(cx, p, amount))) return { chosen: { ...chosen, amount, note: null, loweredFrom: chosen.amount }, aimedFirst };
+  }
+  return { chosen, aimedFirst: null };
+}
+
+/** The loading dose of a regimen that meets its targets: its amount (keepingUpperBounds), then verified by simulation. */
+function loadingDose(cx: Context, p: Proposal): { dose: LoadingDose; aimedFirst: number[] | null } | null {
+  const aimed = loadingAmount(cx, p);
+  if (!aimed) return null;
+  const kept = keepingUpperBounds(cx, p, aimed);
+  return { dose: judgedLoading(cx, p, kept.chosen), aimedFirst: kept.aimedFirst };
+}
+
+/** A loading amount given first, simulated from empty interval by interval: its first interval and time to the window. */
+function judgedLoading(cx: Context, p: Proposal, chosen: LoadingAmount): LoadingDose {
   const spec: RegimenSpec = { amount: p.amount, interval: p.interval, duration: p.duration };
   const w = windowTime(setupFor(cx, spec, chosen.amount), cx.settings.targets, cx.day, limits.steadyStateCycles);
   cx.counts.intervals += w.simulated;
@@ -429,7 +485,8 @@ function loadingDose(cx: Context, p: Proposal): LoadingDose | null {
 
 /**
  * The loading amount the typical basis would choose for `spec`, whatever the regimen's typical
- * targets: its aim is the typical subject's steady-state trough (population proposals then give
+ * targets: its aim is the typical subject's steady-state trough, lowered when the typical
+ * subject's first interval would break an upper bound (keepingUpperBounds; population proposals then give
  * it to every virtual subject, and judge its first interval per subject, so no time to the
  * window is simulated here). Null when the regimen has no steady state, no trough or no bracket.
  */
@@ -438,7 +495,13 @@ export function typicalLoadingAmount(base: Model, settings: ProposeSettings, spe
   const steady = guarded(() => steadyOf(cx, spec, [1]), (note) => ({ note }));
   if ('note' in steady) return null;
   const p = proposalFrom(cx, spec, steady.read, 1, 0, null);
-  return guarded(() => loadingAmount(cx, p), () => null);
+  return guarded(
+    () => {
+      const aimed = loadingAmount(cx, p);
+      return aimed && keepingUpperBounds(cx, p, aimed).chosen;
+    },
+    () => null,
+  );
 }
 
 /** A proposal's loading dose as the typical basis simulates it, or null (none, or the population basis's amount alone). */

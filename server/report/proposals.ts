@@ -140,7 +140,8 @@ function loading(p: Proposal, amount: string): string {
   if (!l) return '—';
   // The targets its first interval misses, by number; the row's note under the table says by how much.
   const missed = l.firstIntervalTargetsMet.flatMap((m, k) => (m ? [] : [`${k + 1}✗`]));
-  return `${fmt(l.amount)} ${unitText(amount)}${missed.length > 0 ? `\n(interval 1: ${missed.join(' ')})` : ''}${l.note ? `\n(${l.note})` : ''}`;
+  const lowered = l.loweredFrom !== null ? `\n(lowered from ${fmt(l.loweredFrom)})` : '';
+  return `${fmt(l.amount)} ${unitText(amount)}${lowered}${missed.length > 0 ? `\n(interval 1: ${missed.join(' ')})` : ''}${l.note ? `\n(${l.note})` : ''}`;
 }
 
 function met(p: Proposal): Cell {
