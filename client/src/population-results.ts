@@ -193,6 +193,7 @@ export class PopulationView {
       { class: 'population-block' },
       h('h3', {}, 'Regimens compared'),
       h('p', { class: 'note' }, `Best (marked ★): ${grid.rule}.`),
+      heatMap(grid),
       h('div', { class: 'table-scroll' }, h('table', { class: 'regimen-grid', 'data-testid': 'population-regimens' }, h('thead', {}, head), body)),
     );
   }
@@ -226,6 +227,51 @@ function observationDatasets(result: PopulationResult, compartment: string): Cha
 }
 
 /** Light to deep teal by share; white text on the deep end for contrast. */
+/**
+ * The regimen grid as a heat map: a row per amount, a column per interval (and infusion time),
+ * each cell coloured and labelled by the share the ranking reads (every floor target met; with
+ * ceilings only, every ceiling kept), the share keeping the ceilings under it when both kinds of
+ * target are set, the best cell marked ★. Null when the grid varies fewer than two amounts or
+ * two intervals (the table below says it all then).
+ */
+export function heatMap(grid: NonNullable<PopulationResult['regimens']>): HTMLElement | null {
+  const rows = grid.rows;
+  if (rows.some((r) => r.amount === null || r.interval === null)) return null;
+  const column = (r: (typeof rows)[number]) => (r.duration === null ? `every ${r.interval}` : `every ${r.interval} over ${r.duration}`);
+  const amounts = [...new Set(rows.map((r) => r.amount as string))];
+  const columns = [...new Set(rows.map(column))];
+  if (amounts.length < 2 || columns.length < 2) return null;
+  // The ceiling share under each cell when it ranks beside the floor share and is not everywhere 100%.
+  const both = rows.some((r) => r.joint !== null) && rows.some((r) => r.ceiling.probability < 1);
+  const head = h('tr', {}, h('th', { scope: 'col' }, 'Amount'), ...columns.map((c) => h('th', { scope: 'col' }, c)));
+  const body = h('tbody');
+  for (const amount of amounts) {
+    const cells = columns.map((c) => {
+      const k = rows.findIndex((r) => r.amount === amount && column(r) === c);
+      if (k < 0) return h('td', { class: 'empty' }, '');
+      const r = rows[k];
+      const score = (r.joint ?? r.ceiling).probability;
+      const best = grid.best === k;
+      const td = h(
+        'td',
+        { class: best ? 'best' : '', title: `${r.regimen}: ${r.attainment.map((a) => `${a.target} ${percent(a.probability)}`).join('; ')}`, 'data-testid': best ? 'population-heat-best' : null },
+        `${best ? '★ ' : ''}${percent(score)}`,
+        both ? h('div', { class: 'sub' }, `ceilings ${percent(r.ceiling.probability)}`) : null,
+      );
+      colourCell(td, score);
+      return td;
+    });
+    body.append(h('tr', {}, h('th', { scope: 'row' }, amount), ...cells));
+  }
+  const what = rows.some((r) => r.joint !== null) ? 'the share of subjects meeting every floor target' : 'the share of subjects keeping every ceiling';
+  return h(
+    'figure',
+    { class: 'regimen-heat' },
+    h('div', { class: 'table-scroll' }, h('table', { class: 'regimen-heat-map', 'data-testid': 'population-heat-map' }, h('thead', {}, head), body)),
+    h('figcaption', { class: 'note' }, `Heat map: ${what} (darker is higher)${both ? ', the share keeping every ceiling under it' : ''}; ★ the best under the rule. Every regimen is given to the same virtual subjects.`),
+  );
+}
+
 function colourCell(td: HTMLElement, p: number): void {
   const t = Math.max(0, Math.min(1, p));
   td.style.backgroundColor = `hsl(195 ${35 + 25 * t}% ${96 - 58 * t}%)`;

@@ -15,7 +15,8 @@ export interface RegimenVariant {
   scenario: Scenario;
 }
 
-function written(q: Quantity): string {
+/** A quantity as written in the scenario ("500 mg"), a bare number as itself. */
+export function writtenQuantity(q: Quantity): string {
   return typeof q === 'number' ? String(q) : q.trim();
 }
 
@@ -52,9 +53,9 @@ export function readRegimens(s: Scenario, p: Population, targetCount: number, pr
         }
         const doses = s.doses.map((d, i) => (i === grid.line ? dose : d));
         const words = [
-          written(dose.amount),
-          dose.every !== undefined ? `every ${written(dose.every)}` : 'once',
-          dose.duration !== undefined ? `over ${written(dose.duration)}` : null,
+          writtenQuantity(dose.amount),
+          dose.every !== undefined ? `every ${writtenQuantity(dose.every)}` : 'once',
+          dose.duration !== undefined ? `over ${writtenQuantity(dose.duration)}` : null,
         ]
           .filter(Boolean)
           .join(' ');

@@ -18,6 +18,7 @@ import { SubjectRandom } from './random.ts';
 import { NO_STEADY_STATE } from './subject-run.ts';
 import { periodWords, meets, type ReadTarget } from './targets.ts';
 import { quantityLabel } from './varying.ts';
+import { writtenQuantity, type RegimenVariant } from './regimens.ts';
 
 export const POPULATION_CAUTION =
   'Population figures describe a model population drawn from the distributions given, not a patient. ' +
@@ -62,6 +63,10 @@ export interface Attainment {
 
 export interface RegimenRow {
   regimen: string;
+  /** The regimen's amount, interval and infusion duration as the grid writes them ("500 mg", "12 h"); null where the grid does not vary it. */
+  amount: string | null;
+  interval: string | null;
+  duration: string | null;
   attainment: Attainment[];
   /** Share of subjects meeting every target that asks for at least a level; null when no target does (only ceilings). */
   joint: { probability: number; standardError: number } | null;
@@ -328,7 +333,8 @@ function compareRegimens(plan: PopulationPlan, layout: FigureLayout, batches: re
         if (all(true)) ceiling++;
       }
     }
-    return { regimen: regimen.words, attainment, joint: levels ? share(joint, N) : null, ceiling: share(ceiling, N) };
+    const as = (q: RegimenVariant['amount']) => (q === null ? null : writtenQuantity(q));
+    return { regimen: regimen.words, amount: as(regimen.amount), interval: as(regimen.interval), duration: as(regimen.duration), attainment, joint: levels ? share(joint, N) : null, ceiling: share(ceiling, N) };
   });
   const score = (row: RegimenRow) => (row.joint ?? row.ceiling).probability;
   let best: number | null = null;

@@ -143,6 +143,19 @@ describe('the population extras in Chromium', () => {
     expect(await page.getByTestId('population-best-regimen').count()).toBe(1);
     expect(await page.getByTestId('population-best-regimen').textContent()).toContain(`★ best: ${grid.rows[grid.best!].regimen}`);
     expect(await rows.nth(grid.best!).getAttribute('data-testid')).toBe('population-best-regimen');
+    // The same grid as a heat map: a row per amount, a column per interval, each cell the ranking's share (one decimal, as the table).
+    const heat = page.getByTestId('population-heat-map');
+    const amounts = [...new Set(grid.rows.map((r) => r.amount))];
+    const intervals = [...new Set(grid.rows.map((r) => r.interval))];
+    expect(await heat.locator('tbody tr').count()).toBe(amounts.length);
+    expect(await heat.locator('thead th').count()).toBe(intervals.length + 1);
+    const best = grid.rows[grid.best!];
+    const bestCell = page.getByTestId('population-heat-best');
+    expect(await bestCell.count()).toBe(1);
+    expect(await bestCell.textContent()).toMatch(new RegExp(`^★ ${(100 * (best.joint ?? best.ceiling).probability).toFixed(1)}%`));
+    const at = await heat.locator('tbody tr').nth(amounts.indexOf(best.amount)).locator('td').nth(intervals.indexOf(best.interval)).getAttribute('data-testid');
+    expect(at).toBe('population-heat-best');
+    await heat.screenshot({ path: join(repoRoot, 'tests/artifacts/population-heat-map.png') });
     await expect.poll(() => page.getByTestId('population-caution').textContent()).toMatch(/not dosing advice/);
 
     mkdirSync(join(repoRoot, 'tests/artifacts'), { recursive: true });
