@@ -13,7 +13,7 @@
  * non-compartmental (moment) analysis, app. D the estimation of areas.
  */
 import { formatNumber as num } from '../result/format-number.ts';
-import { selectTerminalPhase, type LogLinearFit } from './terminal-phase.ts';
+import { selectTerminalPhase, type LogLinearFit, type TerminalChoice } from './terminal-phase.ts';
 
 export type NcaRoute = 'intravascular' | 'extravascular' | 'infusion';
 export type NcaRule = 'linear-up-log-down' | 'linear';
@@ -135,7 +135,7 @@ export interface NcaTerminal {
   adjustedR2: number | null;
   /** ln C at the input's time 0 on the line. */
   intercept: number;
-  chosenBy: 'best adjusted R²' | 'fixed';
+  chosenBy: TerminalChoice;
 }
 
 export interface NcaResult {
@@ -411,7 +411,10 @@ export function ncaProfile(input: NcaInput): NcaResult {
     terminal = { indices: phase.indices, times: phase.indices.map((i) => times[i]), r2: fit.r2, adjustedR2: fit.adjustedR2, intercept: fit.intercept, chosenBy: phase.chosenBy };
     figures.terminalRate = fit.rate;
     figures.terminalAdjustedR2 = fit.adjustedR2;
-    if (fit.n < 3) flag('terminalRate', `the terminal line has only ${fit.n} points (fixed); at least 3 are usual`);
+    if (fit.n < 3) {
+      const why = phase.chosenBy === 'fixed' ? ' (fixed)' : ' (the only ones after Cmax)';
+      flag('terminalRate', `the terminal line has only ${fit.n} points${why}; the rule asks for at least 3: λz and every figure from it (t½, AUC0–∞, CL, Vz, MRT) are doubtful`);
+    }
     if (fit.adjustedR2 !== null && fit.adjustedR2 < lowAdjustedR2) flag('terminalRate', `adjusted R² ${fit.adjustedR2.toFixed(4)} is below ${lowAdjustedR2} (a common-practice threshold): the terminal line is doubtful`);
     if (phase.indices[phase.indices.length - 1] !== p.source[ilast]) flag('terminalRate', 'the fixed points do not end at Tlast');
   }

@@ -71,8 +71,11 @@ export function logLinearFit(t: ArrayLike<number>, c: ArrayLike<number>, indices
 export const adjustedR2Tie = 1e-4;
 
 export type TerminalPhase =
-  | { ok: true; fit: LogLinearFit; indices: number[]; chosenBy: 'best adjusted R²' | 'fixed' }
+  | { ok: true; fit: LogLinearFit; indices: number[]; chosenBy: TerminalChoice }
   | { ok: false; reason: string };
+
+/** How the terminal line's levels were chosen: by the rule, by the user, or the only two there are (flagged: fewer than the rule's three). */
+export type TerminalChoice = 'best adjusted R²' | 'fixed' | 'two levels only';
 
 /**
  * λz from the profile (t, c). `candidates` are the indices the line may use, in time order: the
@@ -89,6 +92,12 @@ export function selectTerminalPhase(t: ArrayLike<number>, c: ArrayLike<number>, 
     const fit = logLinearFit(t, c, indices);
     if (!(fit.rate > 0)) return { ok: false, reason: `the levels at the fixed points do not fall (slope ${(-fit.rate).toPrecision(3)})` };
     return { ok: true, fit, indices, chosenBy: 'fixed' };
+  }
+  if (candidates.length === 2) {
+    // Fewer than the rule's three, but a line: given, and flagged by the caller, rather than hidden.
+    const fit = logLinearFit(t, c, candidates);
+    if (!(fit.rate > 0)) return { ok: false, reason: 'the only 2 positive levels after Cmax do not fall' };
+    return { ok: true, fit, indices: [...candidates], chosenBy: 'two levels only' };
   }
   if (candidates.length < 3) {
     return { ok: false, reason: `${candidates.length} positive level${candidates.length === 1 ? '' : 's'} after Cmax; at least 3 are needed for the terminal line` };

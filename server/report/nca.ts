@@ -90,7 +90,7 @@ function profileTable(doc: PDFKit.PDFDocument, p: ScenarioNcaProfile, nca: Scena
     const levels = t.indices.map((i) => p.paths[i]);
     paragraph(
       doc,
-      `Terminal line through ${t.times.length} levels at ${t.times.map((x) => fmt(x)).join(', ')} ${nca.units.time} after the dose (${levels.join(', ')}), ${t.chosenBy === 'fixed' && p.terminalFixed ? `${fixedWords(p.terminalFixed, model)}: the levels at or after it that come after Cmax` : 'chosen by the best adjusted R² among the last levels after Cmax'}; R² ${t.r2.toFixed(4)}${t.adjustedR2 !== null ? `, adjusted R² ${t.adjustedR2.toFixed(4)}` : ''}.`,
+      `Terminal line through ${t.times.length} levels at ${t.times.map((x) => fmt(x)).join(', ')} ${nca.units.time} after the dose (${levels.join(', ')}), ${t.chosenBy === 'fixed' && p.terminalFixed ? `${fixedWords(p.terminalFixed, model)}: the levels at or after it that come after Cmax` : t.chosenBy === 'two levels only' ? 'the only two levels after Cmax, fewer than the three the rule asks for (flagged)' : 'chosen by the best adjusted R² among the last levels after Cmax'}; R² ${t.r2.toFixed(4)}${t.adjustedR2 !== null ? `, adjusted R² ${t.adjustedR2.toFixed(4)}` : ''}.`,
       { size: type.small },
     );
   } else if (p.terminalFixed) paragraph(doc, `No terminal line: ${fixedWords(p.terminalFixed, model)}, the levels left after Cmax do not allow one (see the flags).`, { size: type.small });

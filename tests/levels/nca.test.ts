@@ -227,6 +227,19 @@ describe('the terminal line inside a profile: flags and fixed points (common pra
     expect(r.flags.find((f) => f.figure === 'terminalRate')?.message).toMatch(/1 positive level after Cmax; at least 3/);
   });
 
+  it('only 2 levels after Cmax: the line through them is given, λz exact for a mono-exponential tail, and flagged as fewer than the rule\'s 3', () => {
+    // After the peak at 2 h the levels fall as 8·e^(−0.3(t − 2)): two points fix λz = 0.3 exactly (log-linear through two points).
+    const times = [0, 1, 2, 4, 6];
+    const conc = [0, 5, 8, 8 * Math.exp(-0.6), 8 * Math.exp(-1.2)];
+    const r = ncaProfile({ times, concentrations: conc, dose: { amount: 10, time: 0, route: 'extravascular' } });
+    expect(Math.abs((r.figures.terminalRate as number) - 0.3)).toBeLessThan(1e-12);
+    expect(r.terminal?.chosenBy).toBe('two levels only');
+    expect(r.figures.aucInf).not.toBeNull();
+    expect(r.flags.find((f) => f.figure === 'terminalRate')?.message).toBe(
+      'the terminal line has only 2 points (the only ones after Cmax); the rule asks for at least 3: λz and every figure from it (t½, AUC0–∞, CL, Vz, MRT) are doubtful',
+    );
+  });
+
   it('more than 20 % extrapolated: AUC0–∞ flagged', () => {
     // Sampled to 8 h of a 23 h half-life: e^(−0.03·8) of the area is still to come.
     const times = [0, 1, 2, 3, 4, 6, 8];

@@ -71,13 +71,17 @@ describe('selectTerminalPhase', () => {
     expect((three.adjustedR2 ?? 0) - (eleven.adjustedR2 ?? 0)).toBeLessThan(1e-4);
   });
 
-  it('keeps fixed points and refuses fewer than 3 candidates (common practice)', () => {
+  it('keeps fixed points, gives the line through exactly 2 candidates marked as such, refuses fewer (common practice)', () => {
     const fixed = selectTerminalPhase(t, c, all, [7, 8, 9]);
     expect(fixed.ok && fixed.indices).toEqual([7, 8, 9]);
     expect(fixed.ok && fixed.chosenBy).toBe('fixed');
-    const few = selectTerminalPhase(t, c, [9, 10]);
+    // Two candidates give the line through them, marked as such (the caller flags it); one gives none.
+    const two = selectTerminalPhase(t, c, [9, 10]);
+    expect(two.ok && two.chosenBy).toBe('two levels only');
+    expect(two.ok && two.indices).toEqual([9, 10]);
+    const few = selectTerminalPhase(t, c, [10]);
     expect(few.ok).toBe(false);
-    if (!few.ok) expect(few.reason).toMatch(/2 positive levels after Cmax; at least 3/);
+    if (!few.ok) expect(few.reason).toMatch(/1 positive level after Cmax; at least 3/);
     const outside = selectTerminalPhase(t, c, [8, 9, 10], [7, 8]);
     expect(outside.ok).toBe(false);
   });
