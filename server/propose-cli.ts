@@ -7,7 +7,8 @@
  */
 import { availableParallelism } from 'node:os';
 import type { PopulationProposalLimits } from '../models/regimen/population-proposals.ts';
-import { simulatedLoading, type Proposal, type ProposeResult } from '../models/regimen/propose.ts';
+import type { Proposal, ProposeResult } from '../models/regimen/propose.ts';
+import { simulatedLoading } from '../models/regimen/proposal-words.ts';
 import { describeProblems } from '../models/scenario/problems.ts';
 import { formatNumber } from '../models/result/format-number.ts';
 import { parseOptions, parseWhole } from './cli-options.ts';

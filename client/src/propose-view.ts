@@ -9,7 +9,8 @@
  * the approach from the first dose (time to the window, the first interval without and with
  * the loading dose, the first intervals), under the population's caution.
  */
-import type { LoadingDose, Proposal, ProposeResult } from '../../models/regimen/propose.ts';
+import type { Proposal, ProposeResult } from '../../models/regimen/propose.ts';
+import { regimenWords, simulatedLoading } from '../../models/regimen/proposal-words.ts';
 import { formatNumber } from '../../models/result/format-number.ts';
 import { fmt } from '../../models/result/summary-text.ts';
 import { h } from './dom.ts';
@@ -88,18 +89,6 @@ export function renderProposals(host: HTMLElement, result: ProposeResult, tryRow
   );
 }
 
-/** The typical basis's loading dose is simulated; a population row gives only its amount (shown under the row). Not imported from propose.ts: the page would bundle the solver. */
-function simulatedLoading(p: Proposal): LoadingDose | null {
-  return p.loading !== null && 'firstIntervalTargetsMet' in p.loading ? p.loading : null;
-}
-
-/** "500 mg every 12 h over 0.5 h", as propose.ts's regimenWords writes it for the command line. */
-function regimenWords(p: Proposal, u: ProposeResult['units']): string {
-  // A number keeps to its unit when the cell wraps (no-break spaces).
-  const q = (v: number, unit: string) => `${fmt(v)}\u00a0${unit}`;
-  return `${q(p.amount, u.amount)} every ${q(p.interval, u.time)}${p.duration > 0 ? ` over ${q(p.duration, u.time)}` : ''}`;
-}
-
 /** A small second line in a cell: the secondary figure, so the table fits a 1280 px window. */
 function sub(text: string): HTMLElement {
   return h('div', { class: 'levels-proposal-sub' }, text);
@@ -133,7 +122,7 @@ function row(p: Proposal, i: number, result: ProposeResult, tryRow: (p: Proposal
   return [
     h('th', { scope: 'row', class: p.allMet ? 'levels-met' : '' }, String(p.rank)),
     // The regimen in words, wrapping within its cell (amount, interval and infusion were three columns too wide for 1280 px).
-    h('td', { class: 'levels-regimen', 'data-testid': `levels-amount-${i}` }, regimenWords(p, u)),
+    h('td', { class: 'levels-regimen', 'data-testid': `levels-amount-${i}` }, regimenWords(p, u, '\u00a0')),
     loadingCell(p, result),
     h('td', {}, fmt(s?.trough ?? null)),
     h('td', {}, fmt(s?.peak ?? null)),

@@ -504,13 +504,3 @@ export function typicalLoadingAmount(base: Model, settings: ProposeSettings, spe
   );
 }
 
-/** A proposal's loading dose as the typical basis simulates it, or null (none, or the population basis's amount alone). */
-export function simulatedLoading(p: Proposal): LoadingDose | null {
-  return p.loading !== null && 'timeToWindow' in p.loading ? p.loading : null;
-}
-
-/** "500 mg every 12 h over 30 min" in the model's units. */
-export function regimenWords(p: { amount: number; interval: number; duration: number }, units: { amount: string; time: string }): string {
-  const over = p.duration > 0 ? ` over ${formatNumber(p.duration)} ${units.time}` : '';
-  return `${formatNumber(p.amount)} ${units.amount} every ${formatNumber(p.interval)} ${units.time}${over}`;
-}

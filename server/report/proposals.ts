@@ -11,7 +11,8 @@
  */
 import { proposeByBasis } from '../../models/regimen/propose-basis.ts';
 import type { PopulationProposalLimits } from '../../models/regimen/population-proposals.ts';
-import { PROPOSAL_CAUTION, simulatedLoading, type Proposal, type ProposeResult } from '../../models/regimen/propose.ts';
+import { PROPOSAL_CAUTION, type Proposal, type ProposeResult } from '../../models/regimen/propose.ts';
+import { simulatedLoading } from '../../models/regimen/proposal-words.ts';
 import type { Outcome } from '../../models/scenario/problems.ts';
 import { bullet, drawSectionCaution } from './section-text.ts';
 import { ensureSpace, font, heading, palette, paragraph, type } from './document.ts';

@@ -8,7 +8,8 @@
  */
 import { describe, expect, it } from 'vitest';
 import { figureBeside, firstIntervalNote, missWords } from '../../models/regimen/loading.ts';
-import { proposeRegimens, simulatedLoading, type ProposeResult } from '../../models/regimen/propose.ts';
+import { proposeRegimens, type ProposeResult } from '../../models/regimen/propose.ts';
+import { simulatedLoading } from '../../models/regimen/proposal-words.ts';
 import type { ReadTarget } from '../../models/population/targets.ts';
 import { proposalsText } from '../../server/propose-cli.ts';
 import { sample, simulateRegimen } from './helpers.ts';

@@ -8,7 +8,8 @@ import { describe, expect, it } from 'vitest';
 import { normalCdf } from '../../models/population/normal.ts';
 import { APPROACH_INTERVALS_SHOWN } from '../../models/regimen/population-approach.ts';
 import { proposeByBasis } from '../../models/regimen/propose-basis.ts';
-import { proposeRegimens, simulatedLoading, type Proposal, type ProposeResult } from '../../models/regimen/propose.ts';
+import { proposeRegimens, type Proposal, type ProposeResult } from '../../models/regimen/propose.ts';
+import { simulatedLoading } from '../../models/regimen/proposal-words.ts';
 import { sample } from './helpers.ts';
 
 const limits = { subjects: 5000, runs: 50_000 };

@@ -5,7 +5,8 @@
  * the loading dose, the ranking rule and bad input with paths.
  */
 import { describe, expect, it } from 'vitest';
-import { proposeRegimens, simulatedLoading, type ProposeResult } from '../../models/regimen/propose.ts';
+import { proposeRegimens, type ProposeResult } from '../../models/regimen/propose.ts';
+import { simulatedLoading } from '../../models/regimen/proposal-words.ts';
 import { compareProposals, logDistance, type Rankable } from '../../models/regimen/rank.ts';
 import { amountsFromStrengths, roundToAvailable } from '../../models/regimen/strengths.ts';
 import { sample, simulateRegimen } from './helpers.ts';
