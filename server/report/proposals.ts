@@ -217,7 +217,7 @@ export function drawProposalsSection(doc: PDFKit.PDFDocument, outcome: Outcome<P
       met(p),
       toWindow(p, u.time),
     ]),
-    footnote: `Trough, peak and AUC24 at steady state in the compartment of the first target. ✓/✗: each target met or missed, numbered as listed above. Time to the window: ${r.timeToWindowDefinition.replace(/\bnull\b/, '"not reached"')}; "loaded" with the loading dose first; — when the steady state misses a target (the window is never reached). Loading dose "interval 1: 2✗": a target its own first interval misses (a ceiling it breaks, a trough it falls short of), with the figure in the row's note below.`,
+    footnote: `Trough, peak and AUC24 at steady state in the compartment of the first target. ✓/✗: each target met or missed, numbered as listed above. Time to the window: ${r.timeToWindowDefinition.replace(/\bnull\b/, '"not reached"')}; "loaded" with the loading dose first; — when the steady state misses a target (the window is never reached). Loading dose "interval 1: 2✗": a target its own first interval misses (a ceiling it breaks, a trough it falls short of), with the figure in the row's note below; "lowered from": the amount aimed at the steady-state trough would break an upper bound in its own first interval, so the largest smaller sum of strengths that keeps them is given (the note says which bound).`,
   });
   const notes = shown.filter((p) => p.note !== null);
   for (const p of notes) bullet(doc, `Rank ${p.rank}: ${p.note}`, palette.warning);
