@@ -20,6 +20,7 @@ import { isMainThread } from 'node:worker_threads';
 import type { CliContext, CliOutcome } from './cli-commands.ts';
 import { parseOptions, parseTimeLimit, timeLimitMessage } from './cli-options.ts';
 import type { CliWorkerData, WorkerOutcome } from './cli-worker.ts';
+import { tuneEngine } from './engine-flags.ts';
 import { visibleLines, visibleText } from './terminal-text.ts';
 import { userFolder } from './user-folder.ts';
 import { populationWorkerFor, runThreads } from './population-threads.ts';
@@ -172,6 +173,7 @@ function quietOnClosedPipe(): void {
 }
 
 async function main(): Promise<void> {
+  tuneEngine();
   quietOnClosedPipe();
   const args = process.argv.slice(2);
   const folder = userFolder(process.env, process.cwd());

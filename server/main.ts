@@ -13,6 +13,7 @@ import { existsSync } from 'node:fs';
 import { availableParallelism } from 'node:os';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
+import { tuneEngine } from './engine-flags.ts';
 import { allowedHostsFor, createApp, defaultServerLimits, populationJobsOf } from './app.ts';
 import { loadSamples } from './samples.ts';
 import { defaultPoolMemory, SimulationPool, type WorkerModule } from './worker-pool.ts';
@@ -46,6 +47,7 @@ function ensureClientBuilt(): void {
 }
 
 function main(): void {
+  tuneEngine();
   ensureClientBuilt();
   const host = process.env.HOST ?? '127.0.0.1';
   const port = Number(process.env.PORT ?? 8750);

@@ -2,10 +2,13 @@
  * `npm run bench:population`, and the child process of each population run of the benchmark
  * (`node dist/bench/population.mjs run <saturable> <subjects> <step> [end]` prints one JSON line).
  */
+import { tuneEngine } from '../../server/engine-flags.ts';
 import { measurePopulation, populationReport, runHere } from './population.ts';
 
 const [mode, saturable, subjects, step, end] = process.argv.slice(2);
 if (mode === 'run') {
+  // A run of the command line, as `npm run cli -- population` makes it (server/engine-flags.ts).
+  tuneEngine();
   const r = await runHere(saturable === 'true', Number(subjects), Number(step), end === undefined ? undefined : Number(end));
   console.log(JSON.stringify(r));
 } else {
