@@ -11,7 +11,6 @@
  *   (steady-state/cycle.ts); what can be ruled out before any cycle is run (steady-state/capacity.ts).
  */
 import { doseLineName } from '../result/dose-words.ts';
-import { buildSchedule } from '../building/events.ts';
 import { propagateExact, PropagatorCache, scheduleInputs } from '../solving/linear-path.ts';
 import { CurveProbe } from './curve-probe.ts';
 import { exposureFigures, type WindowFigures } from './exposure.ts';
@@ -22,13 +21,13 @@ import { solveSchedule } from '../solving/solve.ts';
 import { releaseTrajectory } from '../solving/numerics/dense-store.ts';
 import { iteratedApproach, type Approach, type Work } from './steady-state/approach.ts';
 import { capacityAccount, capacityProblem } from './steady-state/capacity.ts';
-import { cycleAdministrations, givenAdministrations, maintenanceLines, maintenancePeriod, reachableFrom, trappedCompartments } from './steady-state/cycle.ts';
+import { cycleStructure, givenAdministrations, type CycleStructure, type DoseLines } from './steady-state/cycle.ts';
 import { iterate, type CycleMap, type Found, type SearchSettings } from './steady-state/fixed-point.ts';
 import { linearApproach, linearPeriodicState } from './steady-state/linear.ts';
 import { cycleProfile, type CycleProfile } from './steady-state/profile.ts';
 import type { CompartmentSystem } from '../building/system.ts';
 
-export { cycleAdministrations, maintenanceLines, maintenancePeriod, trappedCompartments } from './steady-state/cycle.ts';
+export { cycleAdministrations, cycleStructure, maintenanceLines, maintenancePeriod, trappedCompartments, type CycleStructure } from './steady-state/cycle.ts';
 
 /** What timeTo90/timeTo95 measure (returned with the figures so that every reader can quote it). */
 export const APPROACH_DEFINITION =
@@ -77,7 +76,7 @@ export interface SteadyStateFigures {
   /** Dose lines (indices into doses) that make up the maintenance regimen. */
   lines: number[];
   reached: boolean;
-  /** Plain-words account of how it was found, or why not. */
+  /** Plain-words account of how it was found, or why not (empty when reached and not asked for: SteadyStateOptions.account). */
   message: string;
   method: 'closed-form' | 'iterated';
   /** Dosing cycles simulated to find it and its figures (the closed form needs two). */
@@ -146,6 +145,10 @@ export interface SteadyStateOptions {
   profile: boolean;
   /** The propagators of a run of the same system just made (a virtual subject's), to share where the cycle's inputs are the same. */
   sharePropagators?: PropagatorCache;
+  /** cycleStructure(model), when the caller has it already (another subject of the same doses and compartments). */
+  structure?: CycleStructure | null;
+  /** Whether to word `message` when the steady state is reached (a population reads only the figures); true when absent. */
+  account?: boolean;
 }
 
 export function steadyStateFigures(
@@ -154,11 +157,10 @@ export function steadyStateFigures(
   stats: SolverStats,
   options: SteadyStateOptions = { approach: true, profile: true },
 ): SteadyStateFigures | null {
-  const lines = maintenanceLines(model);
-  const intervals = lines.map((l) => l.every as number);
-  if (intervals.length === 0) return null;
-  const period = maintenancePeriod(intervals);
   const nc = system.layout.compartments;
+  const structure = options.structure === undefined ? cycleStructure(model, nc) : options.structure;
+  if (structure === null) return null;
+  const { lines, period, trapped } = structure;
   const lineIndices = lines.map((l) => l.line);
   const method = model.linear ? 'closed-form' : 'iterated';
   // The search is solved with the model's own method, and its own statistics (not the main run's).
@@ -181,7 +183,6 @@ export function steadyStateFigures(
   if (period === null) {
     return notReached(NaN, 'no steady state computed: the dosing intervals of the repeating lines have no common period');
   }
-  const trapped = trappedCompartments(model, lines);
   if (trapped.length > 0) {
     const names = trapped.map((c) => `'${model.compartments[c].id}'`).join(', ');
     return notReached(
@@ -189,13 +190,12 @@ export function steadyStateFigures(
       `no steady state: ${names} ${trapped.length > 1 ? 'receive' : 'receives'} drug but ${trapped.length > 1 ? 'have' : 'has'} no way out of the body, directly or through other compartments, so drug accumulates without limit`,
     );
   }
-  const cycle = cycleAdministrations(lines, period);
+  if (!structure.cycle) throw new Error('internal error: a cycle structure with a period and nothing trapped has no cycle');
+  const { administrations: cycle, schedule, reached } = structure.cycle;
   const capacity = capacityProblem(model, cycle, period);
   if (capacity) return notReached(period, capacity);
 
-  const schedule = buildSchedule(cycle, nc, 0, period);
   const floor = amountFloors(model, nc);
-  const reached = [...reachableFrom(model, lines.map((l) => l.into))].sort((a, b) => a - b);
   let periodic: Float64Array;
   let how: string;
   let cycles: number;
@@ -275,14 +275,11 @@ export function steadyStateFigures(
   });
   const profile = options.profile ? cycleProfile(cycleModel, run.trajectory, schedule, y0) : null;
   releaseTrajectory(run.trajectory);
-  const labels: (string | null)[] = [];
-  for (const l of model.doseLines) labels[l.line] = l.label;
-  const regimen = lines.map((l) => doseLineName(l.line, labels)).join(' and ');
   return {
     period,
     lines: lineIndices,
     reached: true,
-    message: `steady state of ${regimen} over a dosing cycle of ${formatNumber(period)} ${model.units.time}, ${how}`,
+    message: options.account === false ? '' : reachedMessage(model, lines, period, how),
     method,
     cycles,
     residual,
@@ -293,6 +290,13 @@ export function steadyStateFigures(
   };
 }
 
+
+function reachedMessage(model: Model, lines: DoseLines, period: number, how: string): string {
+  const labels: (string | null)[] = [];
+  for (const l of model.doseLines) labels[l.line] = l.label;
+  const regimen = lines.map((l) => doseLineName(l.line, labels)).join(' and ');
+  return `steady state of ${regimen} over a dosing cycle of ${formatNumber(period)} ${model.units.time}, ${how}`;
+}
 
 /** The cycle (1-based) in which time t falls; a time on a cycle's end belongs to that cycle. */
 function cycleOf(t: number | null, period: number): number | null {

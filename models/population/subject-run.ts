@@ -9,7 +9,7 @@ import { CompartmentSystem } from '../building/system.ts';
 import { CurveProbe } from '../figures/curve-probe.ts';
 import { exposureFigures, finalInterval, intervalStarts, type CompartmentFigures, type FigureWindow } from '../figures/exposure.ts';
 import { massBalance, massBalanceProblem } from '../figures/mass-balance.ts';
-import { steadyStateFigures } from '../figures/steady-state.ts';
+import { cycleStructure, steadyStateFigures, type CycleStructure } from '../figures/steady-state.ts';
 import { buildModel, dosesDependOnSubject, type SubjectVariant } from '../scenario/normalize.ts';
 import type { Problem } from '../scenario/problems.ts';
 import type { Period, Scenario } from '../scenario/schema.ts';
@@ -32,6 +32,8 @@ interface SharedDoses {
   schedule: Schedule;
   /** The times that open dosing intervals (intervalStarts). */
   starts: Float64Array;
+  /** The steady state's cycle (cycleStructure): it reads only the doses and which compartments the transfers join. */
+  cycle?: CycleStructure | null;
 }
 
 /** Scratch reused from subject to subject (one per thread). */
@@ -132,7 +134,10 @@ export function runSubject(
     }
     const steadyAt = layout.periods.indexOf('steady state');
     if (steadyAt >= 0) {
-      const steady = steadyStateFigures(model, system, stats, { approach: false, profile: false, sharePropagators: propagators });
+      // Subjects that share their doses share the cycle's structure too (made by the first of them).
+      const common = scratch.doses.get(scenario);
+      if (common && common.cycle === undefined) common.cycle = cycleStructure(model, system.layout.compartments);
+      const steady = steadyStateFigures(model, system, stats, { approach: false, profile: false, account: false, sharePropagators: propagators, ...(common ? { structure: common.cycle } : {}) });
       if (!steady?.reached) {
         outcome.status |= NO_STEADY_STATE;
         outcome.steadyMessage = steady?.message ?? 'no repeated dose line';

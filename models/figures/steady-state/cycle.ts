@@ -5,6 +5,7 @@
  * the whole cycle plus once over its remainder), so the cost does not grow with L/τ.
  */
 import type { Administration, Model } from '../../building/model.ts';
+import { buildSchedule, type Schedule } from '../../building/events.ts';
 
 export type DoseLines = Model['doseLines'];
 
@@ -159,4 +160,41 @@ export function trappedCompartments(model: Model, lines: DoseLines): number[] {
   }
   const reached = reachableFrom(model, lines.map((l) => l.into));
   return [...reached].filter((c) => !canLeave.has(c)).sort((a, b) => a - b);
+}
+
+/**
+ * What the steady state of a model's maintenance regimen is made of, whatever its rates: the
+ * lines, their period, the compartments drug would pile up in, and the cycle's doses, schedule
+ * and the compartments they reach. It reads only the dose lines, the span's end and which
+ * compartments the transfers join, so the subjects of a population that share their doses
+ * share it (SteadyStateOptions.structure). Null when no line repeats.
+ */
+export interface CycleStructure {
+  lines: DoseLines;
+  /** The lines' common period, or null when they have none. */
+  period: number | null;
+  /** trappedCompartments of the lines. */
+  trapped: number[];
+  /** The doses of one cycle, their schedule and the compartments they reach (sorted); null without a period or with trapped compartments. */
+  cycle: { administrations: Administration[]; schedule: Schedule; reached: number[] } | null;
+}
+
+export function cycleStructure(model: Model, compartments: number): CycleStructure | null {
+  const lines = maintenanceLines(model);
+  if (lines.length === 0) return null;
+  const period = maintenancePeriod(lines.map((l) => l.every as number));
+  if (period === null) return { lines, period, trapped: [], cycle: null };
+  const trapped = trappedCompartments(model, lines);
+  if (trapped.length > 0) return { lines, period, trapped, cycle: null };
+  const administrations = cycleAdministrations(lines, period);
+  return {
+    lines,
+    period,
+    trapped,
+    cycle: {
+      administrations,
+      schedule: buildSchedule(administrations, compartments, 0, period),
+      reached: [...reachableFrom(model, lines.map((l) => l.into))].sort((a, b) => a - b),
+    },
+  };
 }
