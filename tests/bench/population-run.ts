@@ -5,10 +5,10 @@
 import { tuneEngine } from '../../server/engine-flags.ts';
 import { measurePopulation, populationReport, runHere } from './population.ts';
 
+// The engine as the command line runs it (server/engine-flags.ts), in the child runs and the per-subject figures alike.
+tuneEngine();
 const [mode, saturable, subjects, step, end] = process.argv.slice(2);
 if (mode === 'run') {
-  // A run of the command line, as `npm run cli -- population` makes it (server/engine-flags.ts).
-  tuneEngine();
   const r = await runHere(saturable === 'true', Number(subjects), Number(step), end === undefined ? undefined : Number(end));
   console.log(JSON.stringify(r));
 } else {

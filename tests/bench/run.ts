@@ -23,6 +23,7 @@ import { cpus, loadavg } from 'node:os';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { simulate, simulateModel } from '../../models/simulate.ts';
+import { tuneEngine } from '../../server/engine-flags.ts';
 import { singleDose, singleDoseVsExpm, superposed } from './closed-form.ts';
 import { GridSeries, prepare, readModel, runEngine, runOdex, type EngineRun, type OdexRun } from './paths.ts';
 import { phaseNames, simulatePhases, type PhaseName } from './phases.ts';
@@ -33,6 +34,9 @@ import { measurePropose, proposeReport, proposeTargets } from './propose.ts';
 import { fitReport, fitTargets, measureFit } from './fit.ts';
 import { AMOUNT_SCALE, halvexin, linearScenario, saturableScenario, type SolverBlock } from './scenario.ts';
 import { summarise, timeBlocks, type Job, type Timing } from './timing.ts';
+
+// The engine as the server and the command line run it (server/engine-flags.ts).
+tuneEngine();
 
 const here = dirname(fileURLToPath(import.meta.url));
 const root = join(here, '..', '..');
