@@ -4,7 +4,8 @@
  *  - per subject: the population path (covariates, model, exact solve, the grid, first-interval
  *    and steady-state figures) against the exact solve alone, one thread, as a ratio;
  *  - 1,000 subjects on the machine's threads, end to end (plan, batches, summary): target < 1 s
- *    on 2 cores on the exact path, < 15 s for the saturable variant;
+ *    on 2 cores on the exact path (the median of five runs, each run listed), < 15 s for the
+ *    saturable variant;
  *  - 10,000 subjects × 500 reported times: peak resident memory of the whole process (target
  *    < 500 MB), and the time against 1,000 subjects of the same (cost linear in subjects: ≈ 10×).
  * Each population run happens in a child process of its own, so that one run's memory and
@@ -79,7 +80,9 @@ export interface PopulationRun {
 
 export interface PopulationBench {
   perSubject: { exactSolveMs: number; populationPathMs: number; ratio: number };
+  /** The median of LINEAR_RUNS runs (by seconds); every run's seconds in linear1000Seconds, in the order run. */
   linear1000: PopulationRun;
+  linear1000Seconds: number[];
   saturable1000: PopulationRun;
   memory1000: PopulationRun;
   memory10000: PopulationRun;
@@ -171,6 +174,9 @@ async function runHere(saturable: boolean, subjects: number, step: number, end?:
   };
 }
 
+/** Runs of the 1,000-subject linear population, each in a process of its own; the target is read from their median. */
+const LINEAR_RUNS = 5;
+
 export async function measurePopulation(): Promise<PopulationBench> {
   spawnSync(process.execPath, [join(root, 'scripts', 'build-server.mjs'), '--if-stale', '--quiet'], { stdio: 'inherit', cwd: root });
   buildSync({
@@ -185,7 +191,9 @@ export async function measurePopulation(): Promise<PopulationBench> {
     external: POPULATION_BENCH_EXTERNAL,
   });
   const per = perSubject();
-  const linear1000 = childRun(false, 1000, 1);
+  // The 1 s target is read from the median of a few runs: one run moves by ±15% with the host's load.
+  const linearRuns = Array.from({ length: LINEAR_RUNS }, () => childRun(false, 1000, 1));
+  const linear1000 = [...linearRuns].sort((a, b) => a.seconds - b.seconds)[Math.floor(LINEAR_RUNS / 2)];
   const saturable1000 = childRun(true, 1000, 1);
   // 500 reported times: hourly over the first 499 h (21 daily doses), aligned with the doses.
   const memory1000 = childRun(false, 1000, 1, 499);
@@ -193,7 +201,7 @@ export async function measurePopulation(): Promise<PopulationBench> {
   // 500 times over the whole year (a step of 8760/499 h) fall between the doses at offsets that
   // never repeat: each needs a step of its own (about 365 per subject).
   const misaligned1000 = childRun(false, 1000, 8760 / 499);
-  return { perSubject: per, linear1000, saturable1000, memory1000, memory10000, misaligned1000, scaling: memory10000.seconds / memory1000.seconds };
+  return { perSubject: per, linear1000, linear1000Seconds: linearRuns.map((r) => r.seconds), saturable1000, memory1000, memory10000, misaligned1000, scaling: memory10000.seconds / memory1000.seconds };
 }
 
 export function populationReport(b: PopulationBench): string {
@@ -203,7 +211,8 @@ export function populationReport(b: PopulationBench): string {
     `  ${''.padEnd(44)} plan ${f(r.planSeconds)} s, threads ${f(r.threadSeconds)} s (first subjects done after ${f(r.firstSubjectSeconds)} s; the bands ${f(r.bandsSeconds)} s after the last), summary ${f(r.summarySeconds)} s`;
   return [
     `  per subject, one thread: population path ${f(b.perSubject.populationPathMs, 3)} ms, exact solve alone ${f(b.perSubject.exactSolveMs, 3)} ms: ${f(b.perSubject.ratio, 1)}×`,
-    run('1,000 subjects, exact path, hourly bands', b.linear1000, `target < 1 s: ${b.linear1000.seconds < 1 ? 'PASS' : 'FAIL'}`),
+    run(`1,000 subjects, exact path, hourly bands (median of ${b.linear1000Seconds.length})`, b.linear1000, `target < 1 s: ${b.linear1000.seconds < 1 ? 'PASS' : 'FAIL'}`),
+    `  ${''.padEnd(44)} the ${b.linear1000Seconds.length} runs: ${b.linear1000Seconds.map((x) => f(x)).join(', ')} s; ${b.linear1000Seconds.filter((x) => x < 1).length} under 1 s`,
     run('1,000 subjects, saturable, hourly bands', b.saturable1000, `target < 15 s: ${b.saturable1000.seconds < 15 ? 'PASS' : 'FAIL'}`),
     run('1,000 subjects × 500 hourly times', b.memory1000, 'the scaling reference'),
     run('10,000 subjects × 500 hourly times', b.memory10000, `target < 500 MB: ${b.memory10000.peakRssMb < 500 ? 'PASS' : 'FAIL'}`),
