@@ -3,21 +3,20 @@
  * the bands — and what a worker thread computes for its share. It imports the engine, so the
  * command line's own thread loads it (by import()) only when it is given a plan to compute with.
  */
-import { bandValues, type GridPart, type PopulationPlan } from '../models/population/population.ts';
+import { bandRange as rangeOfBands, bandShape, bandValues, joinBandRanges as joinRanges, type BandRange, type GridPart } from '../models/population/bands.ts';
+import type { PopulationPlan } from '../models/population/population.ts';
 
-export { joinBandRanges, runBatch } from '../models/population/population.ts';
+export { runBatch } from '../models/population/population.ts';
+export type { BandRange } from '../models/population/bands.ts';
 
-/** A thread's share of the bands: concentrations, and simulated observations when the plan has a residual error. */
-export interface BandRange {
-  from: number;
-  to: number;
-  values: Float64Array;
-  observations: Float64Array | null;
+/** The threads' band ranges, covering every output time, as one (joinBandRanges). */
+export function joinBandRanges(plan: PopulationPlan, ranges: readonly { from: number; to: number; values: Float64Array }[]): Float64Array {
+  return joinRanges(bandShape(plan), ranges);
 }
 
 /** bandValues over [from, to) for concentrations and, with a residual error, simulated observations. */
 export function bandRange(plan: PopulationPlan, parts: readonly GridPart[], from: number, to: number): BandRange {
-  return { from, to, values: bandValues(plan, parts, null, from, to), observations: plan.residual ? bandValues(plan, parts, plan.residual, from, to) : null };
+  return rangeOfBands(bandShape(plan), plan.residual, parts, from, to);
 }
 
 /** Output times a warm-up of the band code reads (BAND_WARM_UP). */
@@ -30,6 +29,6 @@ const WARM_UP_TIMES = 512;
  * 0.13 s warm. The chunk's own subjects stand in for the population; nothing is kept.
  */
 export function warmBands(plan: PopulationPlan, batch: GridPart): void {
-  const T = plan.template.outputTimes.length;
-  bandValues({ ...plan, subjects: batch.count }, [batch], null, 0, Math.min(T, WARM_UP_TIMES));
+  const shape = bandShape(plan);
+  bandValues({ ...shape, subjects: batch.count }, [batch], null, 0, Math.min(shape.times, WARM_UP_TIMES));
 }

@@ -10,7 +10,7 @@ import { convertToUnit, unitWritten } from '../scenario/units.ts';
 import { readShare } from '../scenario/shares.ts';
 import { readSubject } from '../subject/subject.ts';
 import { drawFrom, type NumericDistribution } from './distributions.ts';
-import type { SubjectRandom } from './random.ts';
+import { STREAMS, type SubjectRandom } from './random.ts';
 
 /** One covariate drawn for every subject: a number in `unit` from a distribution, or a category. */
 export type DrawnCovariate =
@@ -22,9 +22,6 @@ export interface CovariatePlan {
   rows: Subject[] | null;
   draw: 'in turn' | 'at random';
 }
-
-/** Random streams of a subject (SubjectRandom's `stream`): one purpose each, so adding one never shifts another. */
-export const STREAMS = { covariates: 0, effects: 1, residual: 2, tableRow: 3 } as const;
 
 const categoryOnly = new Set(['sex']);
 

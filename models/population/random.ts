@@ -8,6 +8,9 @@
  */
 import { normalQuantile } from './normal.ts';
 
+/** Random streams of a subject (SubjectRandom's `stream`): one purpose each, so adding one never shifts another. */
+export const STREAMS = { covariates: 0, effects: 1, residual: 2, tableRow: 3 } as const;
+
 // Philox4x32 round multipliers and Weyl key increments (Salmon et al. 2011, table 2 / Random123 philox.h).
 const M0 = 0xd2511f53;
 const M1 = 0xcd9e8d57;

@@ -18,10 +18,10 @@ import { solveSchedule } from '../solving/solve.ts';
 import type { PropagatorCache } from '../solving/linear-path.ts';
 import { releaseTrajectory, type Trajectory } from '../solving/numerics/dense-store.ts';
 import { correlate } from './correlation.ts';
-import { STREAMS, subjectCovariates } from './covariates.ts';
+import { subjectCovariates } from './covariates.ts';
 import { FIGURES, type FigureLayout } from './layout.ts';
 import type { PopulationPlan } from './plan.ts';
-import { SubjectRandom } from './random.ts';
+import { STREAMS, SubjectRandom } from './random.ts';
 
 /** Status bits of a subject. */
 export const NO_STEADY_STATE = 1;

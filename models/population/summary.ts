@@ -8,13 +8,11 @@ import { resultUnits, type ResultUnits } from '../simulate.ts';
 import type { Outcome } from '../scenario/problems.ts';
 import type { AdjustedQuantity, Scenario } from '../scenario/schema.ts';
 import { readShare } from '../scenario/shares.ts';
-import { STREAMS } from './covariates.ts';
 import type { Batch } from './batch.ts';
+import { bandShape, bandValues, type GridPart } from './bands.ts';
 import { FIGURES, figureColumn, periodIndex, windowColumn, type FigureLayout, type FigureName } from './layout.ts';
 import { histogramOfSorted, percentileOfSorted, type Histogram } from './percentiles.ts';
-import { TrackedPercentiles } from './tracked-percentiles.ts';
 import type { PopulationPlan } from './plan.ts';
-import { SubjectRandom } from './random.ts';
 import { NO_STEADY_STATE } from './subject-run.ts';
 import { periodWords, meets, type ReadTarget } from './targets.ts';
 import { quantityLabel } from './varying.ts';
@@ -352,83 +350,11 @@ function compareRegimens(plan: PopulationPlan, layout: FigureLayout, batches: re
   };
 }
 
-/** Time columns handled together: their values for every subject fit in a fast cache. */
-const BLOCK = 64;
-
-/**
- * Percentile bands over time per compartment: the subjects' concentrations at each output time,
- * gathered a block of times at a time (each subject's run is contiguous in time, so a block is
- * read in short runs rather than one value per subject per time), then found near the previous
- * time's (TrackedPercentiles).
- *
- * With a residual error, the bands of simulated observations instead: each concentration with a
- * proportional and an additive error, y = C·(1 + p·e₁) + a·e₂, e₁ and e₂ standard normal (the
- * combined error model, common practice), from the subject's own residual stream at that
- * compartment and time, so an observation is the same whoever computes it.
- */
+/** Percentile bands over time per compartment (bandValues over every output time), as the result's records. */
 function bandsOf(plan: PopulationPlan, batches: readonly GridPart[], ids: string[], residual: { additive: number; proportional: number } | null): Record<string, Record<string, number[]>> {
-  return bandRecords(plan, ids, bandValues(plan, batches, residual, 0, plan.template.outputTimes.length));
+  return bandRecords(plan, ids, bandValues(bandShape(plan), batches, residual, 0, plan.template.outputTimes.length));
 }
 
-/** A batch's concentrations and whose they are: all a band needs (what a thread is sent). */
-export type GridPart = Pick<Batch, 'first' | 'count' | 'grid'>;
-
-/**
- * The bands over output times [from, to) — compartment b, percentile k, time j at
- * ((b·K + k)·(to − from) + j − from) — from the batches in subject order. A range of times is
- * one thread's share of the bands; ranges joined (joinBandRanges) give the bands of all times.
- */
-export function bandValues(plan: PopulationPlan, batches: readonly GridPart[], residual: { additive: number; proportional: number } | null, from: number, to: number): Float64Array {
-  const T = plan.template.outputTimes.length;
-  const B = plan.layout.banded.length;
-  const N = plan.subjects;
-  const K = plan.percentiles.length;
-  const span = to - from;
-  const values = new Float64Array(B * K * span);
-  const block = new Float64Array(BLOCK * N);
-  const picked = new Float64Array(K);
-  const randoms = residual ? batches.flatMap((batch) => Array.from({ length: batch.count }, (_, s) => new SubjectRandom(plan.seed, batch.first + s))) : [];
-  for (let b = 0; b < B; b++) {
-    // Output times in order: each time's percentiles sought first near the previous time's.
-    const tracker = new TrackedPercentiles(N, plan.percentiles);
-    for (let j0 = from; j0 < to; j0 += BLOCK) {
-      const width = Math.min(BLOCK, to - j0);
-      let i = 0;
-      for (const batch of batches) {
-        const g = batch.grid;
-        for (let s = 0; s < batch.count; s++, i++) {
-          const row = (s * B + b) * T + j0;
-          if (!residual) {
-            for (let t = 0; t < width; t++) block[t * N + i] = g[row + t];
-            continue;
-          }
-          const random = randoms[i];
-          for (let t = 0; t < width; t++) {
-            const e = b * T + j0 + t;
-            block[t * N + i] = g[row + t] * (1 + residual.proportional * random.normal(STREAMS.residual, 2 * e)) + residual.additive * random.normal(STREAMS.residual, 2 * e + 1);
-          }
-        }
-      }
-      for (let t = 0; t < width; t++) {
-        tracker.next(block.subarray(t * N, (t + 1) * N), picked);
-        for (let k = 0; k < K; k++) values[(b * K + k) * span + j0 - from + t] = picked[k];
-      }
-    }
-  }
-  return values;
-}
-
-/** Band values of consecutive time ranges covering [0, T), each as bandValues lays it out, as one for all times. */
-export function joinBandRanges(plan: PopulationPlan, ranges: readonly { from: number; to: number; values: Float64Array }[]): Float64Array {
-  const T = plan.template.outputTimes.length;
-  const rows = plan.layout.banded.length * plan.percentiles.length;
-  const out = new Float64Array(rows * T);
-  for (const r of ranges) {
-    const span = r.to - r.from;
-    for (let row = 0; row < rows; row++) out.set(r.values.subarray(row * span, (row + 1) * span), row * T + r.from);
-  }
-  return out;
-}
 
 /** Band values of all times (bandValues from 0 to T) as the result's records, compartment → percentile → series. */
 function bandRecords(plan: PopulationPlan, ids: string[], values: Float64Array): Record<string, Record<string, number[]>> {
