@@ -95,7 +95,8 @@ export function claimChunk(counter: Int32Array): number {
  * against 3.5 s). A worker started later does no better: started after a quarter or half a
  * second, when 300–400 ms of subjects were left, the 1,000 took 1.24–1.36 s against 1.10–1.13 s
  * alone. So the calling thread first runs for a quarter of a second, past its own warm-up, and
- * workers start only when the rest would take it over two more seconds.
+ * workers start only when the rest would take it over two more seconds (at its fastest chunk's
+ * rate so far).
  */
 export function workersWorthIt(ranMs: number, leftMs: number): boolean {
   return ranMs >= WARM_UP_MS && leftMs > WORKERS_WORTH_MS;
@@ -190,13 +191,18 @@ export async function runThreads(
       // The calling thread takes chunks too, letting the threads' messages in between chunks.
       const began = performance.now();
       let warmUps = 0;
+      // The fastest chunk so far, ms per subject: the rest runs at least as fast (the engine's
+      // compiler warms up as chunks go by), where the last chunk alone, slowed by a busy moment of
+      // the host, made a 0.8 s population look like 2 s of work and start workers costing 0.4 s.
+      let fastest = Infinity;
       for (let c = claimChunk(counter); c < chunkCount; c = claimChunk(counter)) {
         const chunkBegan = performance.now();
         const batch = local.runBatch(options.plan, chunks[2 * c], chunks[2 * c + 1], undefined, options.bands === true);
         if (workers.length === 0 && workerCount > 0) {
           const now = performance.now();
           const left = range.count - done - (batch.ok ? batch.value.count : 0);
-          if (workersWorthIt(now - began, ((now - chunkBegan) / chunks[2 * c + 1]) * left)) startWorkers();
+          fastest = Math.min(fastest, (now - chunkBegan) / chunks[2 * c + 1]);
+          if (workersWorthIt(now - began, fastest * left)) startWorkers();
         }
         if (!batch.ok) {
           failure ??= batch.problems;
