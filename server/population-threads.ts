@@ -87,7 +87,7 @@ export function claimChunk(counter: Int32Array): number {
 
 /**
  * Whether to start worker threads now, the calling thread having computed for `ranMs` and the
- * subjects left being due to take it `leftMs` more (at the rate of its last chunk). A worker
+ * subjects left being due to take it `leftMs` more (at the median rate of its last three chunks). A worker
  * costs about half a second of a core before it computes (loading the engine, then the
  * compiler warming to the code: measured on 2 cores, a year of hourly bands for 1,000
  * subjects took 1.1 s on one thread and 1.3–1.4 s on two, 1,000 × 500 times 0.63 s against
@@ -95,12 +95,17 @@ export function claimChunk(counter: Int32Array): number {
  * against 3.5 s). A worker started later does no better: started after a quarter or half a
  * second, when 300–400 ms of subjects were left, the 1,000 took 1.24–1.36 s against 1.10–1.13 s
  * alone. So the calling thread first runs for a quarter of a second, past its own warm-up, and
- * workers start only when the rest would take it over two more seconds (at its fastest chunk's
- * rate so far).
+ * workers start only when the rest would take it over two more seconds.
  */
 export function workersWorthIt(ranMs: number, leftMs: number): boolean {
   return ranMs >= WARM_UP_MS && leftMs > WORKERS_WORTH_MS;
 }
+/** The median of the last three rates (of fewer while there are fewer). */
+export function recentRate(rates: readonly number[]): number {
+  const last = rates.slice(-3).sort((a, b) => a - b);
+  return last[Math.floor((last.length - 1) / 2)];
+}
+
 /** Chunks after which the calling thread runs the band code over a little of its grid (warmBands). */
 const BAND_WARM_UPS = 3;
 const WARM_UP_MS = 250;
@@ -191,18 +196,18 @@ export async function runThreads(
       // The calling thread takes chunks too, letting the threads' messages in between chunks.
       const began = performance.now();
       let warmUps = 0;
-      // The fastest chunk so far, ms per subject: the rest runs at least as fast (the engine's
-      // compiler warms up as chunks go by), where the last chunk alone, slowed by a busy moment of
-      // the host, made a 0.8 s population look like 2 s of work and start workers costing 0.4 s.
-      let fastest = Infinity;
+      // The last three chunks' rates, ms per subject: their median ignores one chunk slowed by a
+      // busy moment of the host (the last chunk alone made a 0.8 s population look like 2 s of
+      // work and started workers costing 0.4 s), yet follows subjects that grow slower as they go.
+      const rates: number[] = [];
       for (let c = claimChunk(counter); c < chunkCount; c = claimChunk(counter)) {
         const chunkBegan = performance.now();
         const batch = local.runBatch(options.plan, chunks[2 * c], chunks[2 * c + 1], undefined, options.bands === true);
         if (workers.length === 0 && workerCount > 0) {
           const now = performance.now();
           const left = range.count - done - (batch.ok ? batch.value.count : 0);
-          fastest = Math.min(fastest, (now - chunkBegan) / chunks[2 * c + 1]);
-          if (workersWorthIt(now - began, fastest * left)) startWorkers();
+          rates.push((now - chunkBegan) / chunks[2 * c + 1]);
+          if (workersWorthIt(now - began, recentRate(rates) * left)) startWorkers();
         }
         if (!batch.ok) {
           failure ??= batch.problems;

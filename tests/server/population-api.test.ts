@@ -201,4 +201,14 @@ describe('runThreads: when the calling thread computes', () => {
     // The rule itself: past the warm-up and over two seconds left, and only then.
     expect([workersWorthIt(300, 2500), workersWorthIt(100, 9000), workersWorthIt(300, 1500)]).toEqual([true, false, false]);
   }, 60_000);
+
+  it('judges the work left at the median rate of the last three chunks: one slow chunk is ignored, a slowing trend is followed', async () => {
+    const { recentRate } = await import('../../server/population-threads.ts');
+    expect(recentRate([2])).toBe(2);
+    expect(recentRate([2, 1])).toBe(1);
+    // A busy moment of the host: one chunk five times slower among warm ones.
+    expect(recentRate([3, 0.4, 0.4, 2, 0.4])).toBe(0.4);
+    // Subjects that grow slower as the run goes on (a table sorted by weight, say).
+    expect(recentRate([0.4, 0.4, 0.8, 1.6, 3.2])).toBe(1.6);
+  });
 });
