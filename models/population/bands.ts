@@ -1,10 +1,13 @@
 /**
- * Percentile bands over time from a population's grids of concentrations. This module reads
- * nothing of the engine (no scenario, units or solver), so a thread that only finds bands
- * loads it alone (server/band-worker.ts).
+ * Percentile bands over time from a population's grids of concentrations: what any thread
+ * holding the grids (shared, not copied) can find for a range of output times, knowing only the
+ * grid's shape (BandShape), the percentiles and the seed — nothing of the scenario or the solver.
  */
 import type { Batch } from './batch.ts';
 import type { PopulationPlan } from './plan.ts';
+
+/** The residual error of simulated observations (PopulationPlan's), or null for concentrations. */
+type Residual = PopulationPlan['residual'];
 import { SubjectRandom, STREAMS } from './random.ts';
 import { TrackedPercentiles } from './tracked-percentiles.ts';
 
@@ -41,7 +44,7 @@ const BLOCK = 64;
  * e₂ standard normal (the combined error model, common practice), from the subject's own
  * residual stream at that compartment and time, so an observation is the same whoever computes it.
  */
-export function bandValues(shape: BandShape, batches: readonly GridPart[], residual: { additive: number; proportional: number } | null, from: number, to: number): Float64Array {
+export function bandValues(shape: BandShape, batches: readonly GridPart[], residual: Residual, from: number, to: number): Float64Array {
   const T = shape.times;
   const B = shape.banded;
   const N = shape.subjects;
@@ -102,6 +105,6 @@ export interface BandRange {
 }
 
 /** bandValues over [from, to) for concentrations and, with a residual error, for simulated observations. */
-export function bandRange(shape: BandShape, residual: { additive: number; proportional: number } | null, parts: readonly GridPart[], from: number, to: number): BandRange {
+export function bandRange(shape: BandShape, residual: Residual, parts: readonly GridPart[], from: number, to: number): BandRange {
   return { from, to, values: bandValues(shape, parts, null, from, to), observations: residual ? bandValues(shape, parts, residual, from, to) : null };
 }

@@ -102,7 +102,7 @@ export interface PopulationResult {
     /** Each varying quantity with its coefficient of variation (a fraction) and how it varies. */
     varying: VaryingSetting[];
     correlations: { between: [string, string]; value: number }[];
-    residual: { additive: number; proportional: number } | null;
+    residual: PopulationPlan['residual'];
   };
   diagnostics: {
     methods: string[];
@@ -351,7 +351,7 @@ function compareRegimens(plan: PopulationPlan, layout: FigureLayout, batches: re
 }
 
 /** Percentile bands over time per compartment (bandValues over every output time), as the result's records. */
-function bandsOf(plan: PopulationPlan, batches: readonly GridPart[], ids: string[], residual: { additive: number; proportional: number } | null): Record<string, Record<string, number[]>> {
+function bandsOf(plan: PopulationPlan, batches: readonly GridPart[], ids: string[], residual: PopulationPlan['residual']): Record<string, Record<string, number[]>> {
   return bandRecords(plan, ids, bandValues(bandShape(plan), batches, residual, 0, plan.template.outputTimes.length));
 }
 
