@@ -14,6 +14,10 @@ import { fileURLToPath, pathToFileURL } from 'node:url';
 import { proposeOnThreads } from '../../server/proposals-threads.ts';
 import { populationProposalLimits } from '../../server/propose-cli.ts';
 import { measurePropose, proposeReport } from './propose.ts';
+import { tuneEngine } from '../../server/engine-flags.ts';
+
+// The engine as the server and the command line run it (server/engine-flags.ts).
+tuneEngine();
 
 const root = join(dirname(fileURLToPath(import.meta.url)), '..', '..');
 const figures = measurePropose();

@@ -6,6 +6,10 @@ import { mkdirSync, writeFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { measureStore, storeReport } from './store.ts';
+import { tuneEngine } from '../../server/engine-flags.ts';
+
+// The engine as the server and the command line run it (server/engine-flags.ts).
+tuneEngine();
 
 const root = join(dirname(fileURLToPath(import.meta.url)), '..', '..');
 const figures = measureStore();
