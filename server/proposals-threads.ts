@@ -23,7 +23,7 @@ import type { ProposeResult } from '../models/regimen/propose.ts';
 import { readPropose } from '../models/regimen/settings.ts';
 import { normaliseScenario, parseScenario } from '../models/scenario/normalize.ts';
 import type { Outcome, Problem } from '../models/scenario/problems.ts';
-import { workersWorthIt } from './population-threads.ts';
+import { recentRate, workersWorthIt } from './population-threads.ts';
 import { startWorker, type WorkerModule } from './worker-pool.ts';
 
 /** What a proposals worker is started with. */
@@ -78,7 +78,8 @@ export interface ProposalThreadOptions {
   /**
    * Start the workers at once (default; a thread count the user asked for). False: this thread
    * starts alone and starts them only when the work left is worth it (population-threads.ts
-   * workersWorthIt: after a quarter of a second, when the rest would take it over two more).
+   * workersWorthIt: after a quarter of a second, when the rest would take it over two more at
+   * the median rate of the last three chunks).
    */
   workersAtOnce?: boolean;
   /** The clock the silence is measured on, ms (default Date.now; tests count its readings). */
@@ -182,6 +183,8 @@ function runChunksOnThreads(p: PreparedProposals, input: unknown, limits: Popula
   };
   try {
     const began = performance.now();
+    // Chunk rates (ms per subject), judged by their recent median as a population's are (recentRate).
+    const rates: number[] = [];
     for (let c = computes ? Atomics.add(state, 0, 1) : chunkCount; c < chunkCount; c = Atomics.add(state, 0, 1)) {
       const chunkBegan = performance.now();
       const chunk = runProposalChunk(p, ranges[2 * c], ranges[2 * c + 1]);
@@ -191,11 +194,12 @@ function runChunksOnThreads(p: PreparedProposals, input: unknown, limits: Popula
       }
       done.push(chunk.value);
       if (!started) {
-        // The subjects not yet taken, at the rate of this chunk (the next chunk index is the count handed out).
+        // The subjects not yet taken, at the median rate of the last three chunks (the next chunk index is the count handed out).
         const now = performance.now();
         const taken = Math.min(Atomics.load(state, 0), chunkCount);
         const left = taken < chunkCount ? p.plan.subjects - ranges[2 * taken] : 0;
-        if (workersWorthIt(now - began, ((now - chunkBegan) / ranges[2 * c + 1]) * left)) startWorkers();
+        rates.push((now - chunkBegan) / ranges[2 * c + 1]);
+        if (workersWorthIt(now - began, recentRate(rates) * left)) startWorkers();
       }
     }
     // Then the workers' chunks: woken by each message they post (or every 100 ms to look again).
