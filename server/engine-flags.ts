@@ -14,7 +14,7 @@
  *
  * Set in the process before any of the engine's code is optimised: the server and the command
  * line call tuneEngine() first, and worker threads share the process's setting. A flag this
- * Node's V8 did not know would print a warning; a test checks that it knows each.
+ * Node's V8 did not know would print an "unrecognized flag" error line; a test checks that it knows each.
  */
 import { setFlagsFromString } from 'node:v8';
 

@@ -5,11 +5,11 @@
  */
 import type { Batch } from './batch.ts';
 import type { PopulationPlan } from './plan.ts';
+import { SubjectRandom, STREAMS } from './random.ts';
+import { TrackedPercentiles } from './tracked-percentiles.ts';
 
 /** The residual error of simulated observations (PopulationPlan's), or null for concentrations. */
 type Residual = PopulationPlan['residual'];
-import { SubjectRandom, STREAMS } from './random.ts';
-import { TrackedPercentiles } from './tracked-percentiles.ts';
 
 /** A batch's concentrations and whose they are: all a band needs (what a thread is sent). */
 export type GridPart = Pick<Batch, 'first' | 'count' | 'grid'>;

@@ -10,7 +10,7 @@ import { readPlan, type PopulationPlan } from './plan.ts';
 import { readCovariatePlan, subjectCovariates } from './covariates.ts';
 import { SubjectRandom } from './random.ts';
 import type { Scenario, Subject } from '../scenario/schema.ts';
-import { bandShape, bandValues, joinBandRanges, type BandShape, type GridPart } from './bands.ts';
+import type { GridPart } from './bands.ts';
 import { summarise, type ComputedBands, type PopulationResult } from './summary.ts';
 import { batchRanges, shardRange } from './ranges.ts';
 
@@ -73,4 +73,4 @@ export function simulatePopulation(input: unknown, overrides: PopulationOverride
   return summarise(plan.value, [batch.value]);
 }
 
-export { bandShape, bandValues, batchRanges, joinBandRanges, type BandShape, runBatch, shardRange, summarise, type Batch, type ComputedBands, type GridPart, type PopulationPlan, type PopulationResult };
+export { batchRanges, runBatch, shardRange, summarise, type Batch, type ComputedBands, type GridPart, type PopulationPlan, type PopulationResult };
