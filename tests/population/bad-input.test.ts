@@ -1,16 +1,14 @@
 /** Bad population input: each a problem with its JSON path and a message that says what to change. */
-import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import { planPopulation, simulatePopulation } from '../../models/population/population.ts';
+import { edited as editedDemo, halvorinDemo as demo } from './halvorin.ts';
 
-const demo = JSON.parse(readFileSync(new URL('../../samples/halvorin-population-infusion.json', import.meta.url), 'utf8'));
-
+/** The demo with 5 subjects, changed by `edit`. */
 function edited(edit: (s: typeof demo) => void) {
-  const s = JSON.parse(JSON.stringify(demo));
-  s.population.subjects = 5;
-  delete s.population.regimens;
-  edit(s);
-  return s;
+  return editedDemo((s) => {
+    s.population.subjects = 5;
+    edit(s);
+  });
 }
 
 function problemsOf(s: unknown): { path: string; message: string }[] {

@@ -3,20 +3,12 @@
  * can change it — the distribution that drew it, or the table row — with the value it took, and
  * without the follow-on problems of everything read from it (relations, derived covariates).
  */
-import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import { planPopulation, runBatch, simulatePopulation } from '../../models/population/population.ts';
 import { subjectCovariates } from '../../models/population/covariates.ts';
 import { SubjectRandom } from '../../models/population/random.ts';
+import { edited } from './halvorin.ts';
 
-const demo = JSON.parse(readFileSync(new URL('../../samples/halvorin-population-infusion.json', import.meta.url), 'utf8'));
-
-function edited(edit: (s: typeof demo) => void) {
-  const s = JSON.parse(JSON.stringify(demo));
-  delete s.population.regimens;
-  edit(s);
-  return s;
-}
 
 describe('a covariate that breaks a virtual subject', () => {
   it('drawn: named at population.covariates.weight with the value drawn, the relations that read it left out', () => {

@@ -1,9 +1,17 @@
 /** Scenarios for the regimen tests, and the independent check: a proposal simulated by simulate() out to many intervals. */
 import { readFileSync } from 'node:fs';
+import { proposeRegimens, type ProposeResult } from '../../models/regimen/propose.ts';
 import { simulate } from '../../models/simulate.ts';
 
 export function sample(name: string): Record<string, unknown> {
   return JSON.parse(readFileSync(new URL(`../../samples/${name}`, import.meta.url), 'utf8')) as Record<string, unknown>;
+}
+
+/** The proposals for a scenario that must be read without problems. */
+export function propose(s: unknown): ProposeResult {
+  const r = proposeRegimens(s);
+  if (!r.ok) throw new Error(JSON.stringify(r.problems));
+  return r.value;
 }
 
 /** The scenario with its dose lines replaced by one regimen (and a loading dose before it), simulated for `count` intervals. */

@@ -8,17 +8,10 @@
  */
 import { describe, expect, it } from 'vitest';
 import { figureBeside, firstIntervalNote, missWords } from '../../models/regimen/loading.ts';
-import { proposeRegimens, type ProposeResult } from '../../models/regimen/propose.ts';
 import { simulatedLoading } from '../../models/regimen/proposal-words.ts';
 import type { ReadTarget } from '../../models/population/targets.ts';
 import { proposalsText } from '../../server/propose-cli.ts';
-import { sample, simulateRegimen } from './helpers.ts';
-
-function propose(s: unknown): ProposeResult {
-  const r = proposeRegimens(s);
-  if (!r.ok) throw new Error(JSON.stringify(r.problems));
-  return r.value;
-}
+import { propose, sample, simulateRegimen } from './helpers.ts';
 
 const saturable = sample('orvanix-propose.json');
 const result = propose(saturable);

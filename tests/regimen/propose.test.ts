@@ -5,17 +5,11 @@
  * the loading dose, the ranking rule and bad input with paths.
  */
 import { describe, expect, it } from 'vitest';
-import { proposeRegimens, type ProposeResult } from '../../models/regimen/propose.ts';
+import { proposeRegimens } from '../../models/regimen/propose.ts';
 import { simulatedLoading } from '../../models/regimen/proposal-words.ts';
 import { compareProposals, logDistance, type Rankable } from '../../models/regimen/rank.ts';
 import { amountsFromStrengths, roundToAvailable } from '../../models/regimen/strengths.ts';
-import { sample, simulateRegimen } from './helpers.ts';
-
-function propose(s: unknown): ProposeResult {
-  const r = proposeRegimens(s);
-  if (!r.ok) throw new Error(JSON.stringify(r.problems));
-  return r.value;
-}
+import { propose, sample, simulateRegimen } from './helpers.ts';
 
 const saturable = sample('orvanix-propose.json');
 const saturableResult = propose(saturable);
